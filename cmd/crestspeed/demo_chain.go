@@ -1,0 +1,33 @@
+package main
+
+import (
+	"math"
+	"path/filepath"
+
+	"github.com/spf13/cobra"
+
+	"crestspeed/samples"
+)
+
+// demoChain runs the chain on the synthetic record and compares what was
+// measured with the generator's truth.
+func (app *App) demoChain(cmd *cobra.Command, dir, maps string, truth samples.Truth) error {
+	out := filepath.Join(dir, "tracks")
+	sum, err := app.track(cmd, maps, out)
+	if err != nil {
+		return err
+	}
+	ss := sum.SeaState
+	app.logf("")
+	app.logf("demo: measured against truth (synthetic %s sea, %s)", truth.Scenario.Kind, truth.Scenario.Site)
+	app.logf("  %-22s %10s %10s", "", "truth", "measured")
+	app.logf("  %-22s %10.3f %10.3f", "Hm0 (m)", truth.Hm0M, ss.Hm0)
+	app.logf("  %-22s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, ss.Tp)
+	app.logf("  %-22s %10.1f %10.1f", "mean direction (°)", truth.MeanDirectionDeg, ss.MeanDirection)
+	app.logf("  %-22s %10.3f %10.3f", "peak phase speed (m/s)", truth.PeakPhaseSpeed, ss.PeakPhaseSpeed)
+	if math.Abs(ss.Hm0-truth.Hm0M) > 0.1*truth.Hm0M {
+		app.logf("demo: warning: measured Hm0 differs from the truth by more than 10 %%")
+	}
+	app.logf("demo: outputs in %s", out)
+	return nil
+}

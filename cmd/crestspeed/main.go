@@ -1,0 +1,170 @@
+// Command crestspeed finds and follows wave crests and whitecaps in
+// sea-surface stereo recordings or elevation maps and measures their speed
+// against the nominal phase speed of their carrier waves.
+//
+// This file holds only wiring: the root command, configuration loading
+// (flags > environment CRESTSPEED_* > config file > defaults), logging and
+// progress display. The science lives in the packages it calls.
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"runtime"
+	"strings"
+	"syscall"
+	"time"
+
+	"github.com/spf13/cobra"
+	"github.com/spf13/viper"
+)
+
+// version is set at build time with -ldflags "-X main.version=...".
+var version = "0.1.0-dev"
+
+// App is the state shared by all verbs.
+type App struct {
+	V      *viper.Viper
+	Stdout io.Writer
+	Stderr io.Writer
+	cfg    *Config
+}
+
+func main() {
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	app := &App{V: viper.New(), Stdout: os.Stdout, Stderr: os.Stderr}
+	root := newRootCmd(app)
+	if err := root.ExecuteContext(ctx); err != nil {
+		fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
+		os.Exit(exitCode(err))
+	}
+}
+
+// usageError marks an error in how the tool was called (exit status 2).
+type usageError struct{ error }
+
+func exitCode(err error) int {
+	var u usageError
+	if errors.As(err, &u) {
+		return 2
+	}
+	return 1
+}
+
+// sentence makes sure an error message reads as one sentence.
+func sentence(err error) string {
+	s := strings.TrimSpace(err.Error())
+	if s == "" {
+		return "failed."
+	}
+	if !strings.HasSuffix(s, ".") {
+		s += "."
+	}
+	return s
+}
+
+func newRootCmd(app *App) *cobra.Command {
+	root := &cobra.Command{
+		Use:   "crestspeed",
+		Short: "Wave-crest and whitecap speeds from sea-surface stereo recordings",
+		Long: `crestspeed turns the recordings of a sea-surface stereo camera rig, or elevation
+maps already reconstructed from one, into tracked wave crests and whitecaps,
+their speeds relative to the nominal phase speed of their carrier waves, and
+deployment statistics split by crest steepness.
+
+Settings come, in order of precedence, from command-line flags, environment
+variables CRESTSPEED_<SECTION>_<KEY> (for example CRESTSPEED_TRACK_DEPTH_M),
+the YAML file given with --config, and built-in defaults. "crestspeed init"
+writes a commented template of every setting.
+
+Results are research estimates, not a safety or navigation system.`,
+		SilenceUsage:  true,
+		SilenceErrors: true,
+		PersistentPreRunE: func(cmd *cobra.Command, args []string) error {
+			return app.load(cmd)
+		},
+	}
+	pf := root.PersistentFlags()
+	pf.String("config", "", "YAML configuration file")
+	pf.String("out", "", "output directory or file (see each command)")
+	pf.Int("workers", 0, "worker goroutines (0 = number of CPU cores)")
+	pf.Bool("quiet", false, "print only errors")
+	pf.Bool("force", false, "overwrite finished outputs")
+	for _, k := range []string{"out", "workers", "quiet", "force"} {
+		_ = app.V.BindPFlag(k, pf.Lookup(k))
+	}
+	root.AddCommand(
+		newVersionCmd(app),
+		newInitCmd(app),
+		newSynthesizeCmd(app),
+		newDemoCmd(app),
+	)
+	for _, extra := range extraCommands {
+		root.AddCommand(extra(app))
+	}
+	return root
+}
+
+// extraCommands lets verbs living in their own files register themselves
+// from an init function, keeping this file free of per-verb edits.
+var extraCommands []func(*App) *cobra.Command
+
+// load reads the configuration once flags are parsed.
+func (app *App) load(cmd *cobra.Command) error {
+	v := app.V
+	setDefaults(v)
+	v.SetEnvPrefix("CRESTSPEED")
+	v.SetEnvKeyReplacer(strings.NewReplacer(".", "_"))
+	v.AutomaticEnv()
+	if f, _ := cmd.Flags().GetString("config"); f != "" {
+		v.SetConfigFile(f)
+		v.SetConfigType("yaml")
+		if err := v.ReadInConfig(); err != nil {
+			var nf viper.ConfigFileNotFoundError
+			if errors.As(err, &nf) || errors.Is(err, os.ErrNotExist) {
+				return usageError{fmt.Errorf("config file %s does not exist; write one with \"crestspeed init\"", f)}
+			}
+			return usageError{fmt.Errorf("config file %s cannot be read: %v", f, err)}
+		}
+	}
+	cfg, err := decodeConfig(v)
+	if err != nil {
+		return usageError{err}
+	}
+	if cfg.Workers < 0 || cfg.Workers > 1024 {
+		return usageError{fmt.Errorf("--workers %d is outside 0–1024", cfg.Workers)}
+	}
+	if cfg.Workers == 0 {
+		cfg.Workers = runtime.NumCPU()
+	}
+	app.cfg = cfg
+	return nil
+}
+
+// logf prints a progress or result line on stderr unless --quiet.
+func (app *App) logf(format string, args ...any) {
+	if app.cfg != nil && app.cfg.Quiet {
+		return
+	}
+	fmt.Fprintf(app.Stderr, format+"\n", args...)
+}
+
+func newVersionCmd(app *App) *cobra.Command {
+	return &cobra.Command{
+		Use:   "version",
+		Short: "Print the version of crestspeed",
+		Args:  cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			fmt.Fprintf(app.Stdout, "crestspeed %s (%s, %s/%s)\n", version, runtime.Version(), runtime.GOOS, runtime.GOARCH)
+			return nil
+		},
+	}
+}
+
+// elapsed formats a duration for log lines.
+func elapsed(t0 time.Time) string { return time.Since(t0).Round(time.Millisecond).String() }

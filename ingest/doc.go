@@ -1,0 +1,50 @@
+// Package ingest turns recordings into a stream of frames for the later
+// stages of crestspeed, one frame at a time, with the time base of the record
+// and a count of everything it had to skip. It knows about files, times and
+// validity masks; it knows nothing about crests.
+//
+// # Elevation maps
+//
+// An elevation-map record is a NetCDF-4 file following the CF-1.8
+// conventions: the sea surface η(t, y, x) sampled on a fixed, regular
+// horizontal grid at a sequence of instants.
+//
+//	dimensions:  time (usually unlimited), y, x
+//	time(time)   seconds, CF units "seconds since <reference instant>"
+//	y(y), x(x)   cell centres in metres, strictly increasing, regular spacing
+//	eta(time, y, x)   float32 metres, positive up from the mean water level;
+//	                  NaN or _FillValue where the surface is unknown
+//	foam(time, y, x)  optional byte mask, non-zero where the surface is whitecap
+//	:water_depth_m    optional global attribute; absent or <= 0 means deep water
+//
+// Variable names are configurable ([Names]); the ones above are the defaults.
+// A grid cell (ix, iy) of frame k holds η at (x[ix], y[iy], time[k]); a
+// [Frame] stores the cells row by row, Eta[iy*nx+ix], so a row runs along x.
+//
+// [OpenElevation] checks the whole contract before the first frame is read
+// and reports any breach as one sentence naming the file and what to change:
+// dimension order, regular and increasing axes, strictly increasing time, at
+// least two frames and a grid of at least 2×2 cells. [ElevationSource.Next]
+// then reads one frame per call with a hyperslab read into the caller's
+// [Frame], reusing its slices, so memory does not grow with the length of the
+// record. Values equal to _FillValue (or missing_value) and non-finite
+// values become NaN and are marked invalid in Frame.Valid.
+//
+// # Time base and skipped frames
+//
+// The frame interval is the median of the time steps. A step longer than
+// GapFactor (default 1.5) times the median is a dropped-frame gap; the number
+// of frames missing there is the step divided by the median, rounded, less
+// one. Frames in which every cell is unknown are skipped by Next. Both are
+// counted by reason in [ElevationSource.Skipped] so that nothing is lost
+// silently; the gaps themselves are listed by [ElevationSource.Gaps].
+//
+// # Writing
+//
+// [CreateElevation] writes the same contract (it is also the output of
+// stereo reconstruction): an unlimited time dimension, eta chunked one frame
+// per chunk and deflated, CF attributes (units, axis, standard_name,
+// _FillValue NaN) and provenance attributes (Conventions, title, source,
+// history, water_depth_m). The file is written under a temporary name and
+// appears under its final name only on [ElevationWriter.Commit].
+package ingest

@@ -1,0 +1,163 @@
+package speed
+
+import (
+	"math"
+	"sort"
+
+	"crestspeed/tracking"
+)
+
+// LocalQuadraticSlope returns the derivative at t[i] of the least-squares
+// quadratic fitted to the samples (t[j], x[j]) with |t[j] − t[i]| ≤ half.
+// On evenly spaced samples this is exactly the Savitzky–Golay first-derivative
+// filter of polynomial order 2 (Savitzky & Golay 1964, Anal. Chem. 36,
+// 1627); written for arbitrary times it also handles frames missing from the
+// record. ok is false when the window holds fewer than minPoints samples or
+// has none on one side of t[i].
+func LocalQuadraticSlope(t, x []float64, i int, half float64, minPoints int) (slope float64, ok bool) {
+	lo, hi := i, i
+	for lo > 0 && t[i]-t[lo-1] <= half+1e-9 {
+		lo--
+	}
+	for hi < len(t)-1 && t[hi+1]-t[i] <= half+1e-9 {
+		hi++
+	}
+	n := hi - lo + 1
+	if n < max(minPoints, 3) || lo == i || hi == i {
+		return math.NaN(), false
+	}
+	// Fit x = b0 + b1 τ + b2 τ², τ = t − t[i]; slope at τ = 0 is b1.
+	// Normal equations in centred form for conditioning.
+	var s0, s1, s2, s3, s4, y0, y1, y2 float64
+	for j := lo; j <= hi; j++ {
+		tau := t[j] - t[i]
+		tau2 := tau * tau
+		s0++
+		s1 += tau
+		s2 += tau2
+		s3 += tau2 * tau
+		s4 += tau2 * tau2
+		y0 += x[j]
+		y1 += x[j] * tau
+		y2 += x[j] * tau2
+	}
+	// Solve the 3×3 symmetric system by Cramer's rule.
+	a := [3][3]float64{{s0, s1, s2}, {s1, s2, s3}, {s2, s3, s4}}
+	b := [3]float64{y0, y1, y2}
+	det := det3(a)
+	if math.Abs(det) < 1e-300 {
+		return math.NaN(), false
+	}
+	a1 := a
+	for r := 0; r < 3; r++ {
+		a1[r][1] = b[r]
+	}
+	return det3(a1) / det, true
+}
+
+func det3(a [3][3]float64) float64 {
+	return a[0][0]*(a[1][1]*a[2][2]-a[1][2]*a[2][1]) -
+		a[0][1]*(a[1][0]*a[2][2]-a[1][2]*a[2][0]) +
+		a[0][2]*(a[1][0]*a[2][1]-a[1][1]*a[2][0])
+}
+
+// CrestRow is one crest tip in one frame with its speed and references.
+type CrestRow struct {
+	TrackID int
+	tracking.Crest
+	Steepness       float64 // S_c = a_c π / w_c
+	CrestSpeed      float64 // c_cr along θ0, m/s (NaN where the window is incomplete)
+	PhaseSpeedPeak  float64 // c_p, m/s
+	PhaseSpeedLocal float64 // c_loc, m/s, smoothed along the track (NaN if no local wavelength)
+	RatioPeak       float64 // c_cr / c_p
+	RatioLocal      float64 // c_cr / c_loc
+}
+
+// References are the reference phase speeds of a record.
+type References struct {
+	Theta          float64 // mean direction of travel, radians
+	DepthM         float64 // 0 = deep
+	Current        Current
+	Vorticity      float64 // 1/s, see VorticityPhaseSpeed
+	PeakPhaseSpeed float64 // c_p, m/s
+}
+
+// LocalPhaseSpeed returns the nominal phase speed along θ0 of a wave of the
+// given wavelength (linear dispersion with depth, current and vorticity),
+// NaN for an unknown wavelength.
+func (r References) LocalPhaseSpeed(wavelength float64) float64 {
+	if !(wavelength > 0) {
+		return math.NaN()
+	}
+	return NominalPhaseSpeed(2*math.Pi/wavelength, r.Theta, r.DepthM, r.Current, r.Vorticity)
+}
+
+// Predict is the speed the linker uses to predict a crest's next position:
+// the local phase speed where the crest has a local wavelength, else c_p.
+func (r References) Predict(c tracking.Crest) float64 {
+	if v := r.LocalPhaseSpeed(c.Wavelength); !math.IsNaN(v) {
+		return v
+	}
+	return r.PeakPhaseSpeed
+}
+
+// TrackRows computes, for every crest of a track, the crest speed (local
+// quadratic fit of the crest position along θ0 over a window of ±half
+// seconds, the position in each frame taken on the crest line at the
+// cross-position of the current tip), the two reference phase speeds and the ratios (PHYSICS.md §3).
+// The local reference is the median of the per-frame local phase speeds over
+// the same window, which smooths the zero-crossing wavelength along the track
+// and resists the occasional jump of a crossing.
+func TrackRows(tr tracking.Track, ref References, half float64, dst []CrestRow) []CrestRow {
+	n := len(tr.Crests)
+	t := make([]float64, n)
+	s := make([]float64, n)
+	cl := make([]float64, n)
+	for i, c := range tr.Crests {
+		t[i] = c.Time
+		cl[i] = ref.LocalPhaseSpeed(c.Wavelength)
+	}
+	win := make([]float64, 0, 64)
+	for i, c := range tr.Crests {
+		row := CrestRow{TrackID: tr.ID, Crest: c, Steepness: c.Steepness(), PhaseSpeedPeak: ref.PeakPhaseSpeed}
+		// Crest position along θ0 at this tip's cross-position in every
+		// frame of the window: the tip of a long crest may move along the
+		// crest, which is not propagation.
+		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {
+			s[j] = tr.Crests[j].SAt(c.N)
+		}
+		for j := i + 1; j < n && t[j]-t[i] <= half+1e-9; j++ {
+			s[j] = tr.Crests[j].SAt(c.N)
+		}
+		row.CrestSpeed, _ = LocalQuadraticSlope(t, s, i, half, 5)
+		win = win[:0]
+		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {
+			if !math.IsNaN(cl[j]) {
+				win = append(win, cl[j])
+			}
+		}
+		for j := i + 1; j < n && t[j]-t[i] <= half+1e-9; j++ {
+			if !math.IsNaN(cl[j]) {
+				win = append(win, cl[j])
+			}
+		}
+		row.PhaseSpeedLocal = median(win)
+		row.RatioPeak = row.CrestSpeed / row.PhaseSpeedPeak
+		row.RatioLocal = row.CrestSpeed / row.PhaseSpeedLocal
+		dst = append(dst, row)
+	}
+	return dst
+}
+
+// median of v (reordered in place); NaN when empty.
+func median(v []float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	sort.Float64s(v)
+	m := len(v) / 2
+	if len(v)%2 == 1 {
+		return v[m]
+	}
+	return 0.5 * (v[m-1] + v[m])
+}

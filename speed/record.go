@@ -1,0 +1,320 @@
+package speed
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"sync"
+	"time"
+
+	"crestspeed/ingest"
+	"crestspeed/tracking"
+)
+
+// RecordOptions configure AnalyseRecord.
+type RecordOptions struct {
+	// DepthM overrides the file's water_depth_m; 0 = deep water, nil = the
+	// file's value (deep water when it has none).
+	DepthM *float64
+	// DirectionDeg overrides the estimated mean direction of travel
+	// (degrees counter-clockwise from +x).
+	DirectionDeg *float64
+	// Current is the uniform current (x, y components, m/s).
+	Current Current
+	// Vorticity is dU/dz of a linear shear current, 1/s (see
+	// VorticityPhaseSpeed for the sign convention).
+	Vorticity float64
+	// MinCrestFraction is the smallest crest elevation kept, as a fraction
+	// of Hm0; MinCrestLengthM the shortest crest segment kept.
+	MinCrestFraction, MinCrestLengthM float64
+	// MaxGapFrames is how many frames a track may miss and continue.
+	MaxGapFrames int
+	// SpeedWindowS is the full width of the crest-speed fit window in
+	// seconds; 0 means Tp/4.
+	SpeedWindowS float64
+	// Workers run crest detection on frames in parallel; ≤ 0 means one.
+	Workers int
+	// Progress, if set, is told how far each pass has got.
+	Progress func(pass string, done, total int)
+}
+
+// Validate reports the first absurd setting.
+func (o RecordOptions) Validate() error {
+	switch {
+	case o.DepthM != nil && (*o.DepthM < 0 || math.IsNaN(*o.DepthM)):
+		return fmt.Errorf("water depth %g m is negative; use 0 for deep water", *o.DepthM)
+	case o.DirectionDeg != nil && (math.IsNaN(*o.DirectionDeg) || math.Abs(*o.DirectionDeg) > 360):
+		return fmt.Errorf("direction %g° is outside ±360°", *o.DirectionDeg)
+	case math.IsNaN(o.Current.U) || math.IsNaN(o.Current.V) || math.Hypot(o.Current.U, o.Current.V) > 10:
+		return fmt.Errorf("current of %g m/s is outside 0–10 m/s", math.Hypot(o.Current.U, o.Current.V))
+	case math.IsNaN(o.Vorticity) || math.Abs(o.Vorticity) > 5:
+		return fmt.Errorf("vorticity %g 1/s is outside ±5 1/s", o.Vorticity)
+	case !(o.MinCrestFraction >= 0 && o.MinCrestFraction < 2):
+		return fmt.Errorf("minimum crest fraction of Hm0 %g is outside 0–2", o.MinCrestFraction)
+	case !(o.MinCrestLengthM >= 0):
+		return fmt.Errorf("minimum crest length %g m is negative", o.MinCrestLengthM)
+	case o.MaxGapFrames < 0 || o.MaxGapFrames > 100:
+		return fmt.Errorf("maximum gap of %d frames is outside 0–100", o.MaxGapFrames)
+	case !(o.SpeedWindowS >= 0):
+		return fmt.Errorf("crest-speed window %g s is negative", o.SpeedWindowS)
+	}
+	return nil
+}
+
+// Record is the result of AnalyseRecord.
+type Record struct {
+	Meta           ingest.ElevationMeta
+	FramesRead     int
+	Skipped        ingest.SkipCounts
+	Gaps           []ingest.Gap
+	FrameInterval  float64
+	SeaState       SeaState
+	DirectionGiven bool
+	DepthFromFile  bool
+	Refs           References
+	SpeedWindowS   float64
+	MaskedFraction float64 // fraction of grid cells unknown, over the frames read
+	Detections     int
+	Tracks         []tracking.Track
+	Link           tracking.LinkStats
+	Rows           []CrestRow
+	// RowsWithoutSpeed counts crest rows whose speed window was incomplete
+	// (track ends, tracks shorter than the window).
+	RowsWithoutSpeed int
+	Timings          map[string]time.Duration
+}
+
+// AnalyseRecord runs the crest analysis of an elevation-map record in two
+// streaming passes: the first estimates the sea state (Hm0, Tp, mean
+// direction), the per-cell temporal mean and the masked fraction; the second
+// detects crests on every frame (in parallel), links them into tracks, and
+// the crest speeds and ratios are computed per track. Memory does not grow
+// with the record beyond the crest rows themselves and a few numbers per
+// frame. The result is identical for any number of workers.
+func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordOptions) (*Record, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	meta := src.Meta()
+	nx, ny := meta.Grid.Nx(), meta.Grid.Ny()
+	dt := src.FrameInterval()
+	rec := &Record{Meta: meta, FrameInterval: dt, Timings: map[string]time.Duration{}, Gaps: src.Gaps()}
+	total := len(meta.Times)
+	progress := func(pass string, done int) {
+		if opt.Progress != nil {
+			opt.Progress(pass, done, total)
+		}
+	}
+
+	// Pass 1: sea state, temporal mean, masked fraction.
+	t0 := time.Now()
+	est := NewSeaStateEstimator(nx, ny, meta.Grid.Dx(), meta.Grid.Dy(), dt, SeaStateOptions{ExpectedFrames: total})
+	sum := make([]float64, nx*ny)
+	cnt := make([]int32, nx*ny)
+	var f ingest.Frame
+	var masked, cells int64
+	prevT := math.NaN()
+	for {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		err := src.Next(&f)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
+		if !math.IsNaN(prevT) {
+			if miss := int(math.Round((f.Time-prevT)/dt)) - 1; miss > 0 {
+				est.AddGap(miss)
+			}
+		}
+		prevT = f.Time
+		est.Add(f.Eta, f.Valid)
+		for i, v := range f.Eta {
+			if f.Valid[i] {
+				sum[i] += float64(v)
+				cnt[i]++
+			} else {
+				masked++
+			}
+		}
+		cells += int64(len(f.Eta))
+		rec.FramesRead++
+		progress("sea state", f.Index+1)
+	}
+	if rec.FramesRead < 8 {
+		return nil, fmt.Errorf("%s has only %d usable frames; the analysis needs at least 8", src.Path(), rec.FramesRead)
+	}
+	ss, err := est.Result()
+	if err != nil {
+		return nil, fmt.Errorf("%s: sea state cannot be estimated: %v", src.Path(), err)
+	}
+	rec.SeaState = ss
+	rec.MaskedFraction = float64(masked) / float64(cells)
+	mean := make([]float32, nx*ny)
+	for i := range mean {
+		if cnt[i] > 0 {
+			mean[i] = float32(sum[i] / float64(cnt[i]))
+		}
+	}
+	sum, cnt = nil, nil
+
+	// References.
+	ref := References{DepthM: meta.DepthM, Current: opt.Current, Vorticity: opt.Vorticity}
+	rec.DepthFromFile = opt.DepthM == nil
+	if opt.DepthM != nil {
+		ref.DepthM = *opt.DepthM
+	}
+	ref.Theta = ss.MeanDirectionRad
+	if opt.DirectionDeg != nil {
+		ref.Theta = *opt.DirectionDeg * math.Pi / 180
+		rec.DirectionGiven = true
+	}
+	cp, err := PhaseSpeedFromPeriod(ss.Tp, ref.DepthM, ref.Current, ref.Theta, ref.Vorticity)
+	if err != nil {
+		return nil, fmt.Errorf("peak phase speed cannot be computed for Tp = %.3g s: %v", ss.Tp, err)
+	}
+	ref.PeakPhaseSpeed = cp
+	rec.Refs = ref
+	rec.SpeedWindowS = opt.SpeedWindowS
+	if rec.SpeedWindowS == 0 {
+		rec.SpeedWindowS = ss.Tp / 4
+	}
+	rec.Timings["sea state"] = time.Since(t0)
+
+	// Pass 2: detection in parallel, linking in frame order.
+	t0 = time.Now()
+	src.Rewind()
+	g := tracking.Geometry{
+		Nx: nx, Ny: ny, X0: meta.Grid.X[0], Y0: meta.Grid.Y[0],
+		Dx: meta.Grid.Dx(), Dy: meta.Grid.Dy(), Theta: ref.Theta,
+	}
+	det := tracking.NewDetector(g, tracking.DetectOptions{
+		MinElevation: opt.MinCrestFraction * ss.Hm0,
+		MinLength:    opt.MinCrestLengthM,
+	})
+	lambdaP := cp * ss.Tp
+	linker := tracking.NewLinker(tracking.LinkOptions{
+		MaxGapFrames: opt.MaxGapFrames,
+		GateS:        0.2 * lambdaP,
+		GateN:        0.5 * lambdaP,
+		Speed:        ref.Predict,
+	})
+	t00 := meta.Times[0]
+	frameNo := func(t float64) int { return int(math.Round((t - t00) / dt)) }
+	err = detectParallel(ctx, src, det, mean, max(opt.Workers, 1), func(fr frameResult) {
+		rec.Detections += len(fr.crests)
+		linker.Push(frameNo(fr.time), fr.time, fr.crests)
+		progress("crests", fr.index+1)
+	}, frameNo)
+	if err != nil {
+		return nil, err
+	}
+	rec.Tracks, rec.Link = linker.Finish()
+	rec.Skipped = src.Skipped()
+	rec.Timings["crest detection and linking"] = time.Since(t0)
+
+	// Speeds per track.
+	t0 = time.Now()
+	half := rec.SpeedWindowS / 2
+	for _, tr := range rec.Tracks {
+		rec.Rows = TrackRows(tr, ref, half, rec.Rows)
+	}
+	for _, r := range rec.Rows {
+		if math.IsNaN(r.CrestSpeed) {
+			rec.RowsWithoutSpeed++
+		}
+	}
+	rec.Timings["crest speeds"] = time.Since(t0)
+	return rec, nil
+}
+
+type frameResult struct {
+	index  int
+	time   float64
+	crests []tracking.Crest
+}
+
+// detectParallel reads frames in order on the calling goroutine, detects
+// crests on workers, and hands results to sink strictly in frame order.
+// The number of frames in flight is bounded, so memory stays flat.
+func detectParallel(ctx context.Context, src *ingest.ElevationSource, det *tracking.Detector, mean []float32,
+	workers int, sink func(frameResult), frameNo func(float64) int) error {
+	type job struct {
+		seq int
+		f   *ingest.Frame
+	}
+	type result struct {
+		seq int
+		frameResult
+		f *ingest.Frame
+	}
+	inflight := 2 * workers
+	pool := make(chan *ingest.Frame, inflight)
+	for i := 0; i < inflight; i++ {
+		pool <- &ingest.Frame{}
+	}
+	jobs := make(chan job)
+	results := make(chan result, inflight)
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			sc := det.NewScratch()
+			for j := range jobs {
+				cr := det.Detect(j.f.Eta, mean, frameNo(j.f.Time), j.f.Time, sc)
+				results <- result{seq: j.seq, frameResult: frameResult{index: j.f.Index, time: j.f.Time, crests: cr}, f: j.f}
+			}
+		}()
+	}
+	// collector
+	var collectWG sync.WaitGroup
+	collectWG.Add(1)
+	go func() {
+		defer collectWG.Done()
+		pending := map[int]result{}
+		next := 0
+		for r := range results {
+			pending[r.seq] = r
+			for {
+				p, ok := pending[next]
+				if !ok {
+					break
+				}
+				delete(pending, next)
+				sink(p.frameResult)
+				pool <- p.f
+				next++
+			}
+		}
+	}()
+	var readErr error
+	seq := 0
+	for {
+		if err := ctx.Err(); err != nil {
+			readErr = err
+			break
+		}
+		f := <-pool
+		err := src.Next(f)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			readErr = err
+			break
+		}
+		jobs <- job{seq: seq, f: f}
+		seq++
+	}
+	close(jobs)
+	wg.Wait()
+	close(results)
+	collectWG.Wait()
+	return readErr
+}

@@ -1,0 +1,440 @@
+// Package tracking finds wave crests in gridded sea-surface elevation and
+// follows them through time.
+//
+// # Model
+//
+// Crests are sought along lines parallel to the mean direction of wave
+// travel θ0. In the rotated frame (s along θ0, n across it) each line is
+// sampled at a regular step by bilinear interpolation of the grid. With the
+// mean level at zero (the per-cell temporal mean removed), a crest point is
+// the highest sample between a zero up-crossing and the next zero
+// down-crossing along s, refined to sub-sample position and elevation by a
+// parabola through the three highest samples. Its zero-crossing width w_c is
+// the distance between those two crossings (linear interpolation), and the
+// local wavelength the distance from the down-crossing before the crest to
+// the one after it. Crest points on neighbouring lines that lie within a
+// fraction of a crest width of each other along s are joined into crest
+// segments: short-crested seas have short crests. A segment is reported by
+// its tip, its highest point, with the tip's elevation a_c, width w_c and
+// local wavelength, and the segment's length across θ0.
+//
+// Tracks are built by Linker: each active track's tip is predicted forward
+// by a speed the caller supplies (this package does not choose the reference
+// phase speed), detections are gated around the prediction, and each frame's
+// detections are assigned to tracks by a globally optimal assignment
+// (Hungarian method) rather than greedily. Tracks survive a configurable
+// number of missing frames.
+//
+// The steepness S_c = a_c·k_c with k_c = π/w_c is exactly a·k for a sinusoid
+// (see speed for its use).
+package tracking
+
+import (
+	"math"
+	"sort"
+)
+
+// Geometry is a regular analysis grid and the direction of wave travel.
+type Geometry struct {
+	Nx, Ny int
+	X0, Y0 float64 // centre of the first cell, metres
+	Dx, Dy float64 // spacing, metres
+	Theta  float64 // direction of travel, radians counter-clockwise from +x
+}
+
+// DetectOptions are the crest-detection settings.
+type DetectOptions struct {
+	// MinElevation is the smallest crest elevation a_c kept, metres.
+	MinElevation float64
+	// MinLength is the shortest crest segment kept, metres across θ0.
+	MinLength float64
+	// Step is the sample spacing along and across θ0; 0 means the smaller
+	// grid spacing.
+	Step float64
+}
+
+// Crest is one crest segment in one frame, described by its tip.
+type Crest struct {
+	Frame      int     // frame index in the record
+	Time       float64 // seconds
+	X, Y       float64 // tip position, metres
+	S, N       float64 // tip position along and across θ0, metres
+	Elevation  float64 // a_c, metres above the mean level
+	Width      float64 // zero-crossing width w_c at the tip, metres
+	Wavelength float64 // down-crossing to down-crossing at the tip, metres; NaN if not enclosed
+	Length     float64 // segment length across θ0, metres
+	Points     int     // crest points in the segment
+	NMin, NMax float64 // extent of the segment across θ0, metres
+	// SlopeSN is ds/dn of the crest line near the tip (least squares over
+	// the crest points within one crest width of the tip across θ0): the
+	// crest is oblique to the θ0 lines when it is non-zero.
+	SlopeSN float64
+}
+
+// SAt returns the crest's position along θ0 extrapolated along its crest
+// line to the cross-position n (first order, from SlopeSN).
+func (c Crest) SAt(n float64) float64 { return c.S + c.SlopeSN*(n-c.N) }
+
+// Steepness returns S_c = a_c·π/w_c (PHYSICS.md §2; for a sinusoid a·k).
+func (c Crest) Steepness() float64 { return c.Elevation * math.Pi / c.Width }
+
+// Detector finds crests on frames of one grid. Its sampling lines and
+// interpolation weights are computed once; Detect is safe for concurrent
+// use with a separate Scratch per goroutine.
+type Detector struct {
+	g          Geometry
+	opt        DetectOptions
+	step       float64
+	lines      []line
+	nSamples   int
+	cosT, sinT float64
+}
+
+// line is one sampling line parallel to θ0: samples at s = S0 + i·step.
+type line struct {
+	n     float64
+	s0    float64
+	first int // index of the first sample in the detector's sample tables
+	count int
+}
+
+// sample tables (structure of arrays, shared by all lines)
+type bilinear struct {
+	idx []int32   // index of the lower-left cell
+	wx  []float32 // weight of the right neighbour
+	wy  []float32 // weight of the upper neighbour
+}
+
+// NewDetector prepares detection on grid g.
+func NewDetector(g Geometry, opt DetectOptions) *Detector {
+	step := opt.Step
+	if step <= 0 {
+		step = math.Min(g.Dx, g.Dy)
+	}
+	d := &Detector{g: g, opt: opt, step: step, cosT: math.Cos(g.Theta), sinT: math.Sin(g.Theta)}
+	// extent of the grid in (s, n)
+	x1 := g.X0 + float64(g.Nx-1)*g.Dx
+	y1 := g.Y0 + float64(g.Ny-1)*g.Dy
+	smin, smax := math.Inf(1), math.Inf(-1)
+	nmin, nmax := math.Inf(1), math.Inf(-1)
+	for _, p := range [][2]float64{{g.X0, g.Y0}, {x1, g.Y0}, {g.X0, y1}, {x1, y1}} {
+		s, n := d.toSN(p[0], p[1])
+		smin, smax = math.Min(smin, s), math.Max(smax, s)
+		nmin, nmax = math.Min(nmin, n), math.Max(nmax, n)
+	}
+	// Sample positions are on a lattice anchored at (0, 0) so that they do
+	// not depend on rounding of the extent.
+	for jn := math.Ceil(nmin / step); jn*step <= nmax; jn++ {
+		n := jn * step
+		ln := line{n: n, first: -1}
+		for js := math.Ceil(smin / step); js*step <= smax; js++ {
+			s := js * step
+			x, y := d.toXY(s, n)
+			fx := (x - g.X0) / g.Dx
+			fy := (y - g.Y0) / g.Dy
+			if fx < 0 || fy < 0 || fx > float64(g.Nx-1) || fy > float64(g.Ny-1) {
+				if ln.first >= 0 {
+					break // left the grid: lines cross a convex region once
+				}
+				continue
+			}
+			if ln.first < 0 {
+				ln.first = d.nSamples
+				ln.s0 = s
+			}
+			d.nSamples++
+			ln.count++
+		}
+		if ln.count >= 3 {
+			d.lines = append(d.lines, ln)
+		} else {
+			d.nSamples -= ln.count
+		}
+	}
+	return d
+}
+
+func (d *Detector) toSN(x, y float64) (s, n float64) {
+	return x*d.cosT + y*d.sinT, -x*d.sinT + y*d.cosT
+}
+
+func (d *Detector) toXY(s, n float64) (x, y float64) {
+	return s*d.cosT - n*d.sinT, s*d.sinT + n*d.cosT
+}
+
+// Samples returns the number of line samples per frame (a cost measure).
+func (d *Detector) Samples() int { return d.nSamples }
+
+// Scratch holds per-goroutine buffers of a Detector.
+type Scratch struct {
+	tab    bilinear
+	vals   []float64
+	points []crestPoint
+	parent []int
+}
+
+// NewScratch allocates buffers for d.
+func (d *Detector) NewScratch() *Scratch {
+	sc := &Scratch{
+		tab: bilinear{
+			idx: make([]int32, d.nSamples),
+			wx:  make([]float32, d.nSamples),
+			wy:  make([]float32, d.nSamples),
+		},
+		vals: make([]float64, 0, 1024),
+	}
+	// Interpolation tables (kept per scratch so they stay hot in that
+	// goroutine's cache; they are cheap to build).
+	g := d.g
+	k := 0
+	for _, ln := range d.lines {
+		for i := 0; i < ln.count; i++ {
+			x, y := d.toXY(ln.s0+float64(i)*d.step, ln.n)
+			fx := (x - g.X0) / g.Dx
+			fy := (y - g.Y0) / g.Dy
+			ix := min(int(fx), g.Nx-2)
+			iy := min(int(fy), g.Ny-2)
+			sc.tab.idx[k] = int32(iy*g.Nx + ix)
+			sc.tab.wx[k] = float32(fx - float64(ix))
+			sc.tab.wy[k] = float32(fy - float64(iy))
+			k++
+		}
+	}
+	return sc
+}
+
+type crestPoint struct {
+	line       int
+	s, n       float64
+	a          float64
+	width      float64
+	wavelength float64
+}
+
+// Detect finds the crest segments of one frame. eta is row-major
+// (eta[iy*Nx+ix]), NaN where unknown; mean, if not nil, is subtracted cell by
+// cell first. Crests are returned sorted by tip position (s, then n), so the
+// output does not depend on scheduling.
+func (d *Detector) Detect(eta, mean []float32, frame int, t float64, sc *Scratch) []Crest {
+	nx := d.g.Nx
+	sc.points = sc.points[:0]
+	at := func(i int) float64 {
+		v := float64(eta[i])
+		if mean != nil {
+			v -= float64(mean[i])
+		}
+		return v
+	}
+	for li, ln := range d.lines {
+		vals := sc.vals[:0]
+		for k := ln.first; k < ln.first+ln.count; k++ {
+			i := int(sc.tab.idx[k])
+			wx, wy := float64(sc.tab.wx[k]), float64(sc.tab.wy[k])
+			v00, v10, v01, v11 := at(i), at(i+1), at(i+nx), at(i+nx+1)
+			v := (1-wy)*((1-wx)*v00+wx*v10) + wy*((1-wx)*v01+wx*v11)
+			vals = append(vals, v) // NaN propagates
+		}
+		sc.vals = vals
+		d.scanLine(li, ln, vals, sc)
+	}
+	return d.segments(frame, t, sc)
+}
+
+// scanLine finds crest points on one line of samples.
+func (d *Detector) scanLine(li int, ln line, v []float64, sc *Scratch) {
+	step := d.step
+	cross := func(i int) float64 { // zero crossing between samples i-1 and i, as a sample coordinate
+		return float64(i-1) + v[i-1]/(v[i-1]-v[i])
+	}
+	prevDown := math.NaN()
+	up := math.NaN()
+	for i := 1; i < len(v); i++ {
+		a, b := v[i-1], v[i]
+		if math.IsNaN(a) || math.IsNaN(b) {
+			prevDown, up = math.NaN(), math.NaN()
+			continue
+		}
+		if a < 0 && b >= 0 {
+			up = cross(i)
+			continue
+		}
+		if a >= 0 && b < 0 {
+			down := cross(i)
+			if !math.IsNaN(up) {
+				// highest sample strictly between the crossings
+				lo, hi := int(math.Ceil(up)), int(math.Floor(down))
+				im := lo
+				for j := lo; j <= hi; j++ {
+					if v[j] > v[im] {
+						im = j
+					}
+				}
+				pos, amp := float64(im), v[im]
+				if im > 0 && im < len(v)-1 && !math.IsNaN(v[im-1]) && !math.IsNaN(v[im+1]) {
+					den := v[im-1] - 2*v[im] + v[im+1]
+					if den < 0 {
+						off := 0.5 * (v[im-1] - v[im+1]) / den
+						if math.Abs(off) <= 1 {
+							pos += off
+							amp = v[im] - 0.25*(v[im-1]-v[im+1])*off
+						}
+					}
+				}
+				if amp >= d.opt.MinElevation {
+					wl := math.NaN()
+					if !math.IsNaN(prevDown) {
+						wl = (down - prevDown) * step
+					}
+					sc.points = append(sc.points, crestPoint{
+						line: li, s: ln.s0 + pos*step, n: ln.n, a: amp,
+						width: (down - up) * step, wavelength: wl,
+					})
+				}
+			}
+			prevDown = down
+			up = math.NaN()
+		}
+	}
+}
+
+// segments joins crest points of neighbouring lines into crest segments.
+func (d *Detector) segments(frame int, t float64, sc *Scratch) []Crest {
+	pts := sc.points
+	n := len(pts)
+	if cap(sc.parent) < n {
+		sc.parent = make([]int, n)
+	}
+	parent := sc.parent[:n]
+	for i := range parent {
+		parent[i] = i
+	}
+	var find func(int) int
+	find = func(i int) int {
+		for parent[i] != i {
+			parent[i] = parent[parent[i]]
+			i = parent[i]
+		}
+		return i
+	}
+	// Points are appended line by line and, within a line, by s. Join each
+	// point to its mutual nearest neighbour on the previous line.
+	start := 0
+	prevStart, prevEnd := -1, -1
+	for start < n {
+		end := start
+		for end < n && pts[end].line == pts[start].line {
+			end++
+		}
+		if prevStart >= 0 && pts[prevStart].line == pts[start].line-1 {
+			for i := start; i < end; i++ {
+				j := nearest(pts, prevStart, prevEnd, pts[i].s)
+				if j < 0 {
+					continue
+				}
+				if back := nearest(pts, start, end, pts[j].s); back != i {
+					continue
+				}
+				tol := math.Max(1.5*d.step, 0.3*math.Min(pts[i].width, pts[j].width))
+				if math.Abs(pts[i].s-pts[j].s) <= tol {
+					ri, rj := find(i), find(j)
+					if ri != rj {
+						if ri < rj {
+							parent[rj] = ri
+						} else {
+							parent[ri] = rj
+						}
+					}
+				}
+			}
+		}
+		prevStart, prevEnd = start, end
+		start = end
+	}
+	// Gather segments.
+	type seg struct {
+		tip        int
+		nmin, nmax float64
+		count      int
+		members    []int
+	}
+	segs := map[int]*seg{}
+	var roots []int
+	for i := 0; i < n; i++ {
+		r := find(i)
+		s, ok := segs[r]
+		if !ok {
+			s = &seg{tip: i, nmin: pts[i].n, nmax: pts[i].n}
+			segs[r] = s
+			roots = append(roots, r)
+		}
+		s.count++
+		s.members = append(s.members, i)
+		if pts[i].a > pts[s.tip].a {
+			s.tip = i
+		}
+		s.nmin = math.Min(s.nmin, pts[i].n)
+		s.nmax = math.Max(s.nmax, pts[i].n)
+	}
+	out := make([]Crest, 0, len(roots))
+	for _, r := range roots {
+		s := segs[r]
+		length := s.nmax - s.nmin + d.step
+		if length < d.opt.MinLength {
+			continue
+		}
+		p := pts[s.tip]
+		x, y := d.toXY(p.s, p.n)
+		// local slope of the crest line around the tip
+		reach := math.Max(p.width, 3*d.step)
+		var sw, sn, ss, snn, sns float64
+		for _, m := range s.members {
+			dn := pts[m].n - p.n
+			if math.Abs(dn) > reach {
+				continue
+			}
+			ds := pts[m].s - p.s
+			sw++
+			sn += dn
+			ss += ds
+			snn += dn * dn
+			sns += dn * ds
+		}
+		slope := 0.0
+		if den := sw*snn - sn*sn; sw >= 3 && den > 0 {
+			slope = (sw*sns - sn*ss) / den
+		}
+		out = append(out, Crest{
+			Frame: frame, Time: t, X: x, Y: y, S: p.s, N: p.n,
+			Elevation: p.a, Width: p.width, Wavelength: p.wavelength,
+			Length: length, Points: s.count, NMin: s.nmin, NMax: s.nmax, SlopeSN: slope,
+		})
+	}
+	sort.Slice(out, func(i, j int) bool {
+		if out[i].S != out[j].S {
+			return out[i].S < out[j].S
+		}
+		return out[i].N < out[j].N
+	})
+	return out
+}
+
+// nearest returns the index in pts[lo:hi] (sorted by s) closest to s, or -1.
+func nearest(pts []crestPoint, lo, hi int, s float64) int {
+	if lo >= hi {
+		return -1
+	}
+	k := sort.Search(hi-lo, func(i int) bool { return pts[lo+i].s >= s }) + lo
+	best := -1
+	for _, j := range []int{k - 1, k} {
+		if j >= lo && j < hi && (best < 0 || math.Abs(pts[j].s-s) < math.Abs(pts[best].s-s)) {
+			best = j
+		}
+	}
+	return best
+}
+
+// ToSN converts a grid position to coordinates along and across θ0.
+func (g Geometry) ToSN(x, y float64) (s, n float64) {
+	c, si := math.Cos(g.Theta), math.Sin(g.Theta)
+	return x*c + y*si, -x*si + y*c
+}
