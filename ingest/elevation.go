@@ -278,7 +278,7 @@ func (s *ElevationSource) check(gapFactor float64) error {
 		return err
 	}
 	if len(times) < 2 {
-		return s.errorf("has %d frame(s) on %q; at least 2 are needed", len(times), n.Time)
+		return s.errorf("holds %d frame(s) along %q; at least 2 are needed to follow the surface in time", len(times), n.Time)
 	}
 	units, hasUnits, err := f.AttText(n.Time, "units")
 	if err != nil {
@@ -563,8 +563,8 @@ func (s *ElevationSource) mask(eta []float32, valid []bool) int {
 	nan := float32(math.NaN())
 	count := 0
 	for i, v := range eta {
-		ok := !math.IsNaN(float64(v)) && !math.IsInf(float64(v), 0) &&
-			!(s.hasFill && v == s.fill) && !(s.hasMissing && v == s.missing)
+		// v-v is 0 for finite v and NaN for NaN and ±Inf.
+		ok := v-v == 0 && !(s.hasFill && v == s.fill) && !(s.hasMissing && v == s.missing)
 		if !ok {
 			eta[i] = nan
 		} else {

@@ -132,7 +132,7 @@ func TestRoundTrip(t *testing.T) {
 	const nt, ny, nx = 5, 4, 6
 	opt := WriteOptions{DepthM: 7.5, Title: "round trip", WithFoam: true, TimeUnits: "seconds since 2026-06-01T00:00:00Z",
 		Attrs: map[string]string{"institution": "test bench", "history": "earlier step"}}
-	path, g, times, eta, foam := writeTestFile(t, t.TempDir(), nt, ny, nx, opt)
+	path, _, times, eta, foam := writeTestFile(t, t.TempDir(), nt, ny, nx, opt)
 	s, err := OpenElevation(path, ElevationOptions{})
 	if err != nil {
 		t.Fatal(err)
@@ -216,9 +216,9 @@ ds = netCDF4.Dataset(sys.argv[1])
 d = sys.argv[2]
 eta = ds['eta'][:]          # masked where _FillValue (NaN)
 np.ma.filled(eta.astype('f4'), np.nan).astype('<f4').tofile(d + '/eta.bin')
-ds['foam'][:].astype('<f4').tofile(d + '/foam.bin')
-ds['time'][:].astype('<f8').tofile(d + '/time.bin')
-np.concatenate([ds['y'][:], ds['x'][:], [ds.water_depth_m]]).astype('<f8').tofile(d + '/coords.bin')
+np.ma.filled(ds['foam'][:], 255).astype('<f4').tofile(d + '/foam.bin')
+np.ma.getdata(ds['time'][:]).astype('<f8').tofile(d + '/time.bin')
+np.concatenate([np.ma.getdata(ds['y'][:]), np.ma.getdata(ds['x'][:]), [ds.water_depth_m]]).astype('<f8').tofile(d + '/coords.bin')
 assert ds['eta'].dtype == np.float32 and ds['eta'].chunking() == [1, 4, 5]
 assert ds['eta'].filters()['zlib'] and ds['eta'].filters()['complevel'] == 4
 `, path, dir)
@@ -496,7 +496,7 @@ func TestBadOneFrame(t *testing.T) {
 	sp := goodSpec()
 	sp.t = []float64{0}
 	writeRaw(t, path, sp)
-	openErr(t, path, "1 frame(s)", "at least 2")
+	openErr(t, path, "holds 1 frame(s)", "at least 2")
 }
 
 func TestBadNarrowGrid(t *testing.T) {

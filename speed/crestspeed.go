@@ -102,9 +102,9 @@ func (r References) Predict(c tracking.Crest) float64 {
 }
 
 // TrackRows computes, for every crest of a track, the crest speed (local
-// quadratic fit of the crest position along θ0 over a window of ±half
-// seconds, the position in each frame taken on the crest line at the
-// cross-position of the current tip), the two reference phase speeds and the ratios (PHYSICS.md §3).
+// quadratic fit of the crest's path along θ0 over a window of ±half
+// seconds; the path advances frame to frame by the displacement of the
+// crest line at the new tip's cross-position, see tracking.Crest.Path), the two reference phase speeds and the ratios (PHYSICS.md §3).
 // The local reference is the median of the per-frame local phase speeds over
 // the same window, which smooths the zero-crossing wavelength along the track
 // and resists the occasional jump of a crossing.
@@ -114,21 +114,12 @@ func TrackRows(tr tracking.Track, ref References, half float64, dst []CrestRow) 
 	s := make([]float64, n)
 	cl := make([]float64, n)
 	for i, c := range tr.Crests {
-		t[i] = c.Time
+		t[i], s[i] = c.Time, c.Path
 		cl[i] = ref.LocalPhaseSpeed(c.Wavelength)
 	}
 	win := make([]float64, 0, 64)
 	for i, c := range tr.Crests {
 		row := CrestRow{TrackID: tr.ID, Crest: c, Steepness: c.Steepness(), PhaseSpeedPeak: ref.PeakPhaseSpeed}
-		// Crest position along θ0 at this tip's cross-position in every
-		// frame of the window: the tip of a long crest may move along the
-		// crest, which is not propagation.
-		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {
-			s[j] = tr.Crests[j].SAt(c.N)
-		}
-		for j := i + 1; j < n && t[j]-t[i] <= half+1e-9; j++ {
-			s[j] = tr.Crests[j].SAt(c.N)
-		}
 		row.CrestSpeed, _ = LocalQuadraticSlope(t, s, i, half, 5)
 		win = win[:0]
 		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {

@@ -69,6 +69,67 @@ type Crest struct {
 	// the crest points within one crest width of the tip across θ0): the
 	// crest is oblique to the θ0 lines when it is non-zero.
 	SlopeSN float64
+	// Path is the distance the crest has travelled along θ0 since its track
+	// began, plus the along-θ0 position of its first tip: the running sum of
+	// the frame-to-frame advances measured on the crest line at the new
+	// tip's cross-position (set by Linker). Sideways motion of the tip along
+	// the crest is therefore not counted as propagation.
+	Path float64
+	// poly holds the along-θ0 position of the segment's crest point on
+	// each sampling line, from cross-position polyN0 in steps of polyStep.
+	// It is kept only while the crest is the latest of its track.
+	poly             []float32
+	polyN0, polyStep float64
+}
+
+// Advance returns how far the crest line moved along θ0 from prev to c:
+// the mean, over the sampling lines both segments cover within reach of c's
+// tip across θ0, of the difference of their crest points on each line. Both
+// ends of every difference are ordinary crest points (not the selected
+// highest one), so the sub-sample interpolation error does not accumulate
+// along a track. Without common lines it falls back to c's tip against
+// prev's crest line extrapolated to the tip.
+func Advance(prev, c Crest, reach float64) float64 {
+	if len(prev.poly) > 0 && len(c.poly) > 0 && prev.polyStep == c.polyStep {
+		off := int(math.Round((c.polyN0 - prev.polyN0) / c.polyStep)) // prev index of c's first line
+		var sum float64
+		var n int
+		for i, v := range c.poly {
+			j := i + off
+			if j < 0 || j >= len(prev.poly) {
+				continue
+			}
+			if math.Abs(c.polyN0+float64(i)*c.polyStep-c.N) > reach {
+				continue
+			}
+			sum += float64(v) - float64(prev.poly[j])
+			n++
+		}
+		if n > 0 {
+			return sum / float64(n)
+		}
+	}
+	return c.S - prev.SOnLine(c.N)
+}
+
+// SOnLine returns the along-θ0 position of the crest line at the
+// cross-position n: interpolated between the segment's crest points, or
+// extrapolated from its nearest end with SlopeSN outside it.
+func (c Crest) SOnLine(n float64) float64 {
+	if len(c.poly) == 0 {
+		return c.SAt(n)
+	}
+	u := (n - c.polyN0) / c.polyStep
+	last := float64(len(c.poly) - 1)
+	switch {
+	case u <= 0:
+		return float64(c.poly[0]) + c.SlopeSN*(n-c.polyN0)
+	case u >= last:
+		return float64(c.poly[len(c.poly)-1]) + c.SlopeSN*(n-(c.polyN0+last*c.polyStep))
+	}
+	i := int(u)
+	f := u - float64(i)
+	return (1-f)*float64(c.poly[i]) + f*float64(c.poly[i+1])
 }
 
 // SAt returns the crest's position along θ0 extrapolated along its crest
@@ -403,10 +464,15 @@ func (d *Detector) segments(frame int, t float64, sc *Scratch) []Crest {
 		if den := sw*snn - sn*sn; sw >= 3 && den > 0 {
 			slope = (sw*sns - sn*ss) / den
 		}
+		poly := make([]float32, len(s.members))
+		for k, m := range s.members {
+			poly[k] = float32(pts[m].s)
+		}
 		out = append(out, Crest{
 			Frame: frame, Time: t, X: x, Y: y, S: p.s, N: p.n,
 			Elevation: p.a, Width: p.width, Wavelength: p.wavelength,
 			Length: length, Points: s.count, NMin: s.nmin, NMax: s.nmax, SlopeSN: slope,
+			Path: p.s, poly: poly, polyN0: pts[s.members[0]].n, polyStep: d.step,
 		})
 	}
 	sort.Slice(out, func(i, j int) bool {

@@ -91,7 +91,7 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 				// line at the same cross-position, advanced by the speed;
 				// across: the gap between the two segments' extents (the
 				// tip of a long crest may move along it from frame to frame).
-				ds := c.S - (last.SAt(c.N) + adv)
+				ds := c.S - (last.SOnLine(c.N) + adv)
 				dn := math.Max(0, math.Max(c.NMin-last.NMax, last.NMin-c.NMax))
 				if math.Abs(ds) > l.opt.GateS || dn > l.opt.GateN {
 					continue
@@ -114,6 +114,9 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 			if frame-l.lastSeen[tr] > 1 {
 				l.stats.GapsBridged++
 			}
+			prev := &tr.Crests[len(tr.Crests)-1]
+			c.Path = prev.Path + Advance(*prev, c, math.Max(2*c.Width, 5*c.polyStep))
+			prev.poly = nil // only the latest crest of a track keeps its line
 			tr.Crests = append(tr.Crests, c)
 			l.lastSeen[tr] = frame
 			taken[i] = true
@@ -135,6 +138,7 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 }
 
 func (l *Linker) finish(tr *Track) {
+	tr.Crests[len(tr.Crests)-1].poly = nil
 	l.stats.Deaths++
 	delete(l.lastSeen, tr)
 	l.done = append(l.done, *tr)

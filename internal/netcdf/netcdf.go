@@ -106,19 +106,36 @@ type Type int
 
 // NetCDF external types. Int8 is NetCDF's NC_BYTE (signed); Uint8 is NC_UBYTE.
 const (
-	Int8    Type = C.NC_BYTE
-	Char    Type = C.NC_CHAR
-	Int16   Type = C.NC_SHORT
-	Int32   Type = C.NC_INT
-	Float32 Type = C.NC_FLOAT
-	Float64 Type = C.NC_DOUBLE
-	Uint8   Type = C.NC_UBYTE
-	Uint16  Type = C.NC_USHORT
-	Uint32  Type = C.NC_UINT
-	Int64   Type = C.NC_INT64
-	Uint64  Type = C.NC_UINT64
-	String  Type = C.NC_STRING
+	Int8    Type = 1  // NC_BYTE
+	Char    Type = 2  // NC_CHAR
+	Int16   Type = 3  // NC_SHORT
+	Int32   Type = 4  // NC_INT
+	Float32 Type = 5  // NC_FLOAT
+	Float64 Type = 6  // NC_DOUBLE
+	Uint8   Type = 7  // NC_UBYTE
+	Uint16  Type = 8  // NC_USHORT
+	Uint32  Type = 9  // NC_UINT
+	Int64   Type = 10 // NC_INT64
+	Uint64  Type = 11 // NC_UINT64
+	String  Type = 12 // NC_STRING
 )
+
+// The type values above are those of netcdf.h; a mismatch fails to compile.
+func _() {
+	var x [1]struct{}
+	_ = x[Int8-C.NC_BYTE]
+	_ = x[Char-C.NC_CHAR]
+	_ = x[Int16-C.NC_SHORT]
+	_ = x[Int32-C.NC_INT]
+	_ = x[Float32-C.NC_FLOAT]
+	_ = x[Float64-C.NC_DOUBLE]
+	_ = x[Uint8-C.NC_UBYTE]
+	_ = x[Uint16-C.NC_USHORT]
+	_ = x[Uint32-C.NC_UINT]
+	_ = x[Int64-C.NC_INT64]
+	_ = x[Uint64-C.NC_UINT64]
+	_ = x[String-C.NC_STRING]
+}
 
 // String returns the CDL name of the type ("float", "ubyte", ...).
 func (t Type) String() string {

@@ -1,0 +1,91 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func synthSmall(t *testing.T, dir string) string {
+	t.Helper()
+	cfg := filepath.Join(dir, "c.yaml")
+	os.WriteFile(cfg, []byte(`synthesize:
+  kind: jonswap
+  jonswap: {hs_m: 1.0, tp_s: 4.0, spreading_s: 15, seed: 3, components: 128, f_max_over_fp: 2.5}
+  grid: {nx: 96, ny: 64, duration_s: 40, frame_rate_hz: 10}
+`), 0o644)
+	out := filepath.Join(dir, "s.nc")
+	if _, _, err := run(t, "synthesize", "--config", cfg, "--out", out, "--quiet"); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+// Results must not depend on the number of workers (DESIGN.md rule).
+func TestTrackDeterministicAcrossWorkers(t *testing.T) {
+	dir := t.TempDir()
+	in := synthSmall(t, dir)
+	var outs [][]byte
+	for _, w := range []string{"1", "2"} {
+		od := filepath.Join(dir, "w"+w)
+		if _, _, err := run(t, "track", "--input", in, "--out", od, "--workers", w, "--quiet", "--no-report"); err != nil {
+			t.Fatal(err)
+		}
+		b, err := os.ReadFile(filepath.Join(od, "crests.csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		outs = append(outs, b)
+	}
+	if len(outs[0]) < 1000 || !bytes.Equal(outs[0], outs[1]) {
+		t.Fatalf("crests.csv differs between 1 and 2 workers (%d vs %d bytes)", len(outs[0]), len(outs[1]))
+	}
+	// the header is the documented one
+	if !strings.HasPrefix(string(outs[0]), "track_id,time_s,x_m,y_m,crest_elevation_m,zero_crossing_width_m,steepness_sc,crest_speed_mps,phase_speed_peak_mps,phase_speed_local_mps,ratio_peak,ratio_local") {
+		t.Fatalf("unexpected header: %.200s", outs[0])
+	}
+	var sum map[string]any
+	b, _ := os.ReadFile(filepath.Join(dir, "w1", "summary.json"))
+	if err := json.Unmarshal(b, &sum); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"tool", "frames", "sea_state", "crests", "crest_speed_ratio", "masked_fraction"} {
+		if _, ok := sum[k]; !ok {
+			t.Errorf("summary.json lacks %q", k)
+		}
+	}
+	// refuses to overwrite without --force
+	if _, _, err := run(t, "track", "--input", in, "--out", filepath.Join(dir, "w1"), "--quiet", "--no-report"); err == nil {
+		t.Error("track overwrote finished outputs without --force")
+	}
+}
+
+func TestTrackBadInput(t *testing.T) {
+	dir := t.TempDir()
+	notnc := filepath.Join(dir, "x.nc")
+	os.WriteFile(notnc, []byte("this is not a NetCDF file\n"), 0o644)
+	in := synthSmall(t, dir)
+	cases := [][]string{
+		{"track", "--input", filepath.Join(dir, "missing.nc"), "--out", filepath.Join(dir, "o1")},
+		{"track", "--input", notnc, "--out", filepath.Join(dir, "o2")},
+		{"track", "--input", in, "--out", filepath.Join(dir, "o3"), "--depth", "-4"},
+		{"track", "--input", in},
+		{"track", "--out", filepath.Join(dir, "o5")},
+	}
+	for _, args := range cases {
+		_, _, err := run(t, append(args, "--quiet", "--no-report")...)
+		if err == nil {
+			t.Errorf("%v: no error", args)
+			continue
+		}
+		t.Logf("%v → %s", args[1:], sentence(err))
+		for _, o := range []string{"o1", "o2", "o3", "o5"} {
+			if _, err := os.Stat(filepath.Join(dir, o, "crests.csv")); err == nil {
+				t.Errorf("%v left crests.csv behind", args)
+			}
+		}
+	}
+}
