@@ -215,3 +215,57 @@ func TestSynthesizeRejectsAbsurdSettings(t *testing.T) {
 		}
 	}
 }
+
+// The generated JONSWAP field must carry the target spectrum: Hm0 = 4√m0 of
+// the data (common practice) within 3 % of the target Hs (Hasselmann et al.
+// 1973 in the DNV-RP-C205 normalisation) over a long record, and the peak of
+// its Welch spectrum within one frequency bin of 1/Tp. Series at several
+// points are averaged, as a wave buoy array would be.
+func TestJONSWAPRecordSpectrum(t *testing.T) {
+	sc := smallScenario(KindJONSWAP)
+	sc.JONSWAP.Components = 300
+	sc.JONSWAP.FMaxRatio = 4
+	sea, err := sc.Sea()
+	if err != nil {
+		t.Fatal(err)
+	}
+	fs := 4.0
+	n := 16384 // 68 min at 4 Hz: long enough for a few per cent on m0
+	nperseg := 512
+	var psdSum []float64
+	var freqs []float64
+	pts := [][2]float64{{0, 0}, {37, 11}, {-52, 80}, {120, -45}}
+	for _, p := range pts {
+		x := make([]float64, n)
+		for i := range x {
+			x[i] = sea.Eta(p[0], p[1], float64(i)/fs)
+		}
+		f, psd, err := speed.Welch(x, fs, nperseg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if psdSum == nil {
+			psdSum = make([]float64, len(psd))
+			freqs = f
+		}
+		for i := range psd {
+			psdSum[i] += psd[i] / float64(len(pts))
+		}
+	}
+	hm0, err := speed.Hm0(freqs, psdSum)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rel := math.Abs(hm0-sc.JONSWAP.HsM) / sc.JONSWAP.HsM; rel > 0.03 {
+		t.Errorf("Hm0 of the data %.4f m, target Hs %.4f m (%.1f %%)", hm0, sc.JONSWAP.HsM, 100*rel)
+	}
+	fp, err := speed.PeakParabola(freqs, psdSum)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bin := fs / float64(nperseg)
+	if d := math.Abs(fp - 1/sc.JONSWAP.TpS); d > bin {
+		t.Errorf("peak frequency %.4f Hz, 1/Tp = %.4f Hz: off by %.2f bins", fp, 1/sc.JONSWAP.TpS, d/bin)
+	}
+	t.Logf("Hm0 %.4f m (target %.2f), fp %.4f Hz (1/Tp %.4f, bin %.4f)", hm0, sc.JONSWAP.HsM, fp, 1/sc.JONSWAP.TpS, bin)
+}
