@@ -200,8 +200,14 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 	lambdaP := cp * ss.Tp
 	linker := tracking.NewLinker(tracking.LinkOptions{
 		MaxGapFrames: opt.MaxGapFrames,
-		GateS:        0.2 * lambdaP,
-		GateN:        0.5 * lambdaP,
+		// Along θ0 a crest moves about c·Δt between frames; the gate allows
+		// a tenth of a peak wavelength of error, far less than the spacing
+		// of successive crests. Across θ0 the new segment must overlap the
+		// old one (within two sampling steps): in 1/10 s a crest does not
+		// jump sideways, and a looser gate lets tracks hop between the short
+		// crests of a short-crested sea.
+		GateS: math.Max(0.1*lambdaP, 4*det.Step()),
+		GateN: 2 * det.Step(),
 		Speed:        ref.Predict,
 	})
 	t00 := meta.Times[0]

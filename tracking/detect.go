@@ -92,21 +92,23 @@ type Crest struct {
 func Advance(prev, c Crest, reach float64) float64 {
 	if len(prev.poly) > 0 && len(c.poly) > 0 && prev.polyStep == c.polyStep {
 		off := int(math.Round((c.polyN0 - prev.polyN0) / c.polyStep)) // prev index of c's first line
-		var sum float64
-		var n int
-		for i, v := range c.poly {
-			j := i + off
-			if j < 0 || j >= len(prev.poly) {
-				continue
+		for _, r := range []float64{reach, math.Inf(1)} { // near the tip, else all common lines
+			var sum float64
+			var n int
+			for i, v := range c.poly {
+				j := i + off
+				if j < 0 || j >= len(prev.poly) {
+					continue
+				}
+				if math.Abs(c.polyN0+float64(i)*c.polyStep-c.N) > r {
+					continue
+				}
+				sum += float64(v) - float64(prev.poly[j])
+				n++
 			}
-			if math.Abs(c.polyN0+float64(i)*c.polyStep-c.N) > reach {
-				continue
+			if n > 0 {
+				return sum / float64(n)
 			}
-			sum += float64(v) - float64(prev.poly[j])
-			n++
-		}
-		if n > 0 {
-			return sum / float64(n)
 		}
 	}
 	return c.S - prev.SOnLine(c.N)
@@ -222,6 +224,9 @@ func (d *Detector) toSN(x, y float64) (s, n float64) {
 func (d *Detector) toXY(s, n float64) (x, y float64) {
 	return s*d.cosT - n*d.sinT, s*d.sinT + n*d.cosT
 }
+
+// Step returns the sampling step along and across θ0, metres.
+func (d *Detector) Step() float64 { return d.step }
 
 // Samples returns the number of line samples per frame (a cost measure).
 func (d *Detector) Samples() int { return d.nSamples }

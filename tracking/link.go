@@ -115,7 +115,7 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 				l.stats.GapsBridged++
 			}
 			prev := &tr.Crests[len(tr.Crests)-1]
-			c.Path = prev.Path + Advance(*prev, c, math.Max(2*c.Width, 5*c.polyStep))
+			c.Path = prev.Path + Advance(*prev, c, math.Max(0.5*c.Width, 3*c.polyStep))
 			prev.poly = nil // only the latest crest of a track keeps its line
 			tr.Crests = append(tr.Crests, c)
 			l.lastSeen[tr] = frame
