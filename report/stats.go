@@ -20,7 +20,34 @@ type Stats struct {
 	Mode   float64 `json:"mode"` // maximum of the Gaussian kernel density estimate
 	P05    float64 `json:"p05"`
 	P95    float64 `json:"p95"`
+	// Tracks is the number of distinct crest tracks the N values come from;
+	// rows of one track are correlated, so this is the number of
+	// independent units behind the statistics.
+	Tracks int `json:"tracks"`
+	// MeanCI, MedianCI and ModeCI are bootstrap percentile confidence
+	// intervals at level CILevel, resampling whole tracks (see
+	// BootstrapTracks); NaN when not computed or not computable.
+	MeanCI   Interval `json:"mean_ci90"`
+	MedianCI Interval `json:"median_ci90"`
+	ModeCI   Interval `json:"mode_ci90"`
 }
+
+// CILevel is the confidence level of the intervals in Stats.
+const CILevel = 0.90
+
+// Interval is a confidence interval [Lo, Hi]; both NaN when unknown.
+type Interval struct{ Lo, Hi float64 }
+
+// NoInterval is the unknown interval.
+func NoInterval() Interval { return Interval{math.NaN(), math.NaN()} }
+
+// Known reports whether both ends are finite numbers.
+func (iv Interval) Known() bool {
+	return !math.IsNaN(iv.Lo) && !math.IsNaN(iv.Hi) && !math.IsInf(iv.Lo, 0) && !math.IsInf(iv.Hi, 0)
+}
+
+// Contains reports whether v lies in [Lo, Hi].
+func (iv Interval) Contains(v float64) bool { return iv.Known() && v >= iv.Lo && v <= iv.Hi }
 
 // Quantile returns the q-quantile of sorted data by linear interpolation
 // between order statistics (Hyndman & Fan 1996, definition 7; the default
@@ -125,7 +152,7 @@ func Summarise(values []float64, scMin, scMax float64) Stats {
 		}
 	}
 	sort.Float64s(v)
-	st := Stats{ScMin: scMin, ScMax: scMax, N: len(v)}
+	st := Stats{ScMin: scMin, ScMax: scMax, N: len(v), MeanCI: NoInterval(), MedianCI: NoInterval(), ModeCI: NoInterval()}
 	if len(v) == 0 {
 		st.Mean, st.Median, st.Mode, st.P05, st.P95 = math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()
 		return st

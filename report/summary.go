@@ -30,6 +30,7 @@ type Summary struct {
 	Caution  string                `json:"caution"`
 	Config   any                   `json:"config"`
 	Inputs   []FileInfo            `json:"inputs"`
+	Record   RecordSummary         `json:"record"`
 	Frames   FramesSummary         `json:"frames"`
 	SeaState SeaStateSummary       `json:"sea_state"`
 	Masked   float64               `json:"masked_fraction"`
@@ -38,6 +39,18 @@ type Summary struct {
 	Method   map[string]any        `json:"method"`
 	Timings  map[string]float64    `json:"timings_s"`
 	Outputs  map[string]string     `json:"outputs"`
+}
+
+// RecordSummary describes the analysed record: its title and text
+// attributes (site, source, ...), the CF units of its time axis (the
+// time_s column of crests.csv counts seconds in these units; "" when the
+// input gave none) and the time span covered.
+type RecordSummary struct {
+	Title      string            `json:"title"`
+	Attributes map[string]string `json:"attributes"`
+	TimeUnits  string            `json:"time_units"`
+	FirstTimeS float64           `json:"first_time_s"`
+	LastTimeS  float64           `json:"last_time_s"`
 }
 
 // FramesSummary counts frames.
@@ -97,6 +110,13 @@ func BuildSummary(rec *speed.Record, run RunInfo) *Summary {
 		Masked:  rec.MaskedFraction,
 		Timings: map[string]float64{},
 		Outputs: map[string]string{},
+	}
+	s.Record = RecordSummary{Title: rec.Meta.Title, Attributes: rec.Meta.Attrs, TimeUnits: rec.Meta.TimeUnits}
+	if s.Record.Attributes == nil {
+		s.Record.Attributes = map[string]string{}
+	}
+	if n := len(rec.Meta.Times); n > 0 {
+		s.Record.FirstTimeS, s.Record.LastTimeS = rec.Meta.Times[0], rec.Meta.Times[n-1]
 	}
 	s.Frames = FramesSummary{InFile: len(rec.Meta.Times), Read: rec.FramesRead, SkippedReasons: map[string]int{}, IntervalS: rec.FrameInterval}
 	for k, v := range rec.Skipped {
@@ -168,6 +188,7 @@ func sanitise(v any) any {
 		m["caution"] = t.Caution
 		m["config"] = t.Config
 		m["inputs"] = t.Inputs
+		m["record"] = t.Record
 		m["frames"] = t.Frames
 		m["sea_state"] = fixFloats(t.SeaState)
 		m["masked_fraction"] = jsonNum(t.Masked)
@@ -191,10 +212,13 @@ func fixFloats(ss SeaStateSummary) map[string]any {
 	}
 }
 
-// TrackOutputs are the files "crestspeed track" writes.
-var TrackOutputs = []string{"crests.csv", "tracks.csv", "summary.json"}
+// TrackOutputs are the files "crestspeed track" writes. spectrum.csv holds
+// the record's frequency spectrum (frequency_hz, psd_m2_per_hz), so that
+// the report can be rebuilt from the files alone.
+var TrackOutputs = []string{"crests.csv", "tracks.csv", "spectrum.csv", "summary.json"}
 
-// WriteTrackOutputs writes crests.csv, tracks.csv and summary.json into dir.
+// WriteTrackOutputs writes crests.csv, tracks.csv, spectrum.csv and
+// summary.json into dir.
 // All files are written to temporaries first and renamed together at the
 // end, so a failure leaves none of them behind.
 func WriteTrackOutputs(dir string, rec *speed.Record, run RunInfo) (*Summary, error) {
@@ -212,6 +236,11 @@ func WriteTrackOutputs(dir string, rec *speed.Record, run RunInfo) (*Summary, er
 		return nil, err
 	}
 	if err := tw.write(dir, "tracks.csv", func(f *os.File) error { return WriteTracksCSV(f, SummariseTracks(rec.Rows)) }); err != nil {
+		return nil, err
+	}
+	if err := tw.write(dir, "spectrum.csv", func(f *os.File) error {
+		return WriteSpectrumCSV(f, rec.SeaState.Freqs, rec.SeaState.PSD)
+	}); err != nil {
 		return nil, err
 	}
 	js, err := sum.JSON()

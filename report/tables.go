@@ -166,23 +166,33 @@ type RatioStats struct {
 func ClassStatistics(rows []speed.CrestRow, inner []float64, ratio func(speed.CrestRow) float64) RatioStats {
 	bounds := ClassBounds(inner)
 	per := make([][]float64, len(bounds))
+	perTracks := make([]map[int]bool, len(bounds))
+	for k := range perTracks {
+		perTracks[k] = map[int]bool{}
+	}
+	allTracks := map[int]bool{}
 	var all []float64
 	for _, r := range rows {
 		v := ratio(r)
-		if math.IsNaN(v) {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
 			continue
 		}
 		all = append(all, v)
+		allTracks[r.TrackID] = true
 		for k, b := range bounds {
 			if r.Steepness >= b[0] && r.Steepness < b[1] {
 				per[k] = append(per[k], v)
+				perTracks[k][r.TrackID] = true
 				break
 			}
 		}
 	}
 	out := RatioStats{All: Summarise(all, 0, math.Inf(1))}
+	out.All.Tracks = len(allTracks)
 	for k, b := range bounds {
-		out.Classes = append(out.Classes, Summarise(per[k], b[0], b[1]))
+		st := Summarise(per[k], b[0], b[1])
+		st.Tracks = len(perTracks[k])
+		out.Classes = append(out.Classes, st)
 	}
 	return out
 }
@@ -193,8 +203,10 @@ func (s Stats) MarshalJSON() ([]byte, error) {
 		k string
 		v any
 	}{
-		{"sc_min", jsonNum(s.ScMin)}, {"sc_max", jsonNum(s.ScMax)}, {"n", s.N},
-		{"mean", jsonNum(s.Mean)}, {"median", jsonNum(s.Median)}, {"mode", jsonNum(s.Mode)},
+		{"sc_min", jsonNum(s.ScMin)}, {"sc_max", jsonNum(s.ScMax)}, {"n", s.N}, {"tracks", s.Tracks},
+		{"mean", jsonNum(s.Mean)}, {"mean_ci90", jsonInterval(s.MeanCI)},
+		{"median", jsonNum(s.Median)}, {"median_ci90", jsonInterval(s.MedianCI)},
+		{"mode", jsonNum(s.Mode)}, {"mode_ci90", jsonInterval(s.ModeCI)},
 		{"p05", jsonNum(s.P05)}, {"p95", jsonNum(s.P95)},
 	}
 	b := []byte{'{'}
@@ -210,6 +222,63 @@ func (s Stats) MarshalJSON() ([]byte, error) {
 		b = append(append(append(b, kb...), ':'), vb...)
 	}
 	return append(b, '}'), nil
+}
+
+// jsonInterval writes a known interval as [lo, hi] and an unknown one as
+// null.
+func jsonInterval(iv Interval) any {
+	if !iv.Known() {
+		return nil
+	}
+	return []float64{iv.Lo, iv.Hi}
+}
+
+// UnmarshalJSON reads what MarshalJSON writes: null numbers become NaN (a
+// null sc_max is the open upper end, +Inf), null intervals unknown.
+func (s *Stats) UnmarshalJSON(b []byte) error {
+	var m struct {
+		ScMin, ScMax, Mean, Median, Mode, P05, P95 *float64
+		N, Tracks                                  int
+		MeanCI                                     []float64 `json:"mean_ci90"`
+		MedianCI                                   []float64 `json:"median_ci90"`
+		ModeCI                                     []float64 `json:"mode_ci90"`
+	}
+	aux := map[string]json.RawMessage{}
+	if err := json.Unmarshal(b, &aux); err != nil {
+		return err
+	}
+	fields := map[string]any{
+		"sc_min": &m.ScMin, "sc_max": &m.ScMax, "mean": &m.Mean, "median": &m.Median, "mode": &m.Mode,
+		"p05": &m.P05, "p95": &m.P95, "n": &m.N, "tracks": &m.Tracks,
+		"mean_ci90": &m.MeanCI, "median_ci90": &m.MedianCI, "mode_ci90": &m.ModeCI,
+	}
+	for k, raw := range aux {
+		if dst, ok := fields[k]; ok {
+			if err := json.Unmarshal(raw, dst); err != nil {
+				return fmt.Errorf("statistics field %q: %v", k, err)
+			}
+		}
+	}
+	num := func(p *float64, null float64) float64 {
+		if p == nil {
+			return null
+		}
+		return *p
+	}
+	iv := func(v []float64) Interval {
+		if len(v) != 2 {
+			return NoInterval()
+		}
+		return Interval{v[0], v[1]}
+	}
+	nan := math.NaN()
+	*s = Stats{
+		ScMin: num(m.ScMin, nan), ScMax: num(m.ScMax, math.Inf(1)), N: m.N, Tracks: m.Tracks,
+		Mean: num(m.Mean, nan), Median: num(m.Median, nan), Mode: num(m.Mode, nan),
+		P05: num(m.P05, nan), P95: num(m.P95, nan),
+		MeanCI: iv(m.MeanCI), MedianCI: iv(m.MedianCI), ModeCI: iv(m.ModeCI),
+	}
+	return nil
 }
 
 // jsonNum maps NaN and ±Inf to nil so they encode as null.

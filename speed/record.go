@@ -208,7 +208,7 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 		// crests of a short-crested sea.
 		GateS: math.Max(0.1*lambdaP, 4*det.Step()),
 		GateN: 2 * det.Step(),
-		Speed:        ref.Predict,
+		Speed: ref.Predict,
 	})
 	t00 := meta.Times[0]
 	frameNo := func(t float64) int { return int(math.Round((t - t00) / dt)) }

@@ -92,7 +92,7 @@ type Crest struct {
 func Advance(prev, c Crest, reach float64) float64 {
 	if len(prev.poly) > 0 && len(c.poly) > 0 && prev.polyStep == c.polyStep {
 		off := int(math.Round((c.polyN0 - prev.polyN0) / c.polyStep)) // prev index of c's first line
-		for _, r := range []float64{reach, math.Inf(1)} { // near the tip, else all common lines
+		for _, r := range []float64{reach, math.Inf(1)} {             // near the tip, else all common lines
 			var sum float64
 			var n int
 			for i, v := range c.poly {
