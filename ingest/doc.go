@@ -47,4 +47,20 @@
 // _FillValue NaN) and provenance attributes (Conventions, title, source,
 // history, water_depth_m). The file is written under a temporary name and
 // appears under its final name only on [ElevationWriter.Commit].
+//
+// # Stereo frames
+//
+// A [StereoSource] yields the synchronised image pairs of a stereo rig as
+// [StereoFrame] values (two 8-bit grey gocv.Mat images and a time in
+// seconds), in time order, one pair per call to Next: [OpenPairs] reads image
+// files (PNG, TIFF, JPEG; a record folder or left and right globs), timed by
+// a timestamps file (frame,time_s,left,right), by the time or frame number in
+// the file names, or by a frame rate, and pairs left with right by that time
+// or number; [OpenVideoPair] and [OpenSideBySideVideo] read video files
+// through OpenCV, timed by the stream or by a frame rate. Problems with the
+// whole record (no files, no time base, a size that does not match the rig
+// for video) are errors at open; problems with single frames (a missing
+// partner, an unreadable image, a wrong size, a time going backwards or
+// repeated) are skipped and counted by reason in Skipped, like the frames of
+// elevation maps.
 package ingest
