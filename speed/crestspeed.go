@@ -71,6 +71,8 @@ type CrestRow struct {
 	PhaseSpeedLocal float64 // c_loc, m/s, smoothed along the track (NaN if no local wavelength)
 	RatioPeak       float64 // c_cr / c_p
 	RatioLocal      float64 // c_cr / c_loc
+	SurfaceSpeed    float64 // u_s, linear surface orbital speed at the tip, m/s (NaN if not computed)
+	BreakingIndex   float64 // B_x = u_s / (c_cr cos φ), φ the crest line's angle (NaN if not computed)
 }
 
 // References are the reference phase speeds of a record.
@@ -119,7 +121,8 @@ func TrackRows(tr tracking.Track, ref References, half float64, dst []CrestRow) 
 	}
 	win := make([]float64, 0, 64)
 	for i, c := range tr.Crests {
-		row := CrestRow{TrackID: tr.ID, Crest: c, Steepness: c.Steepness(), PhaseSpeedPeak: ref.PeakPhaseSpeed}
+		row := CrestRow{TrackID: tr.ID, Crest: c, Steepness: c.Steepness(), PhaseSpeedPeak: ref.PeakPhaseSpeed,
+			SurfaceSpeed: math.NaN(), BreakingIndex: math.NaN()}
 		row.CrestSpeed, _ = LocalQuadraticSlope(t, s, i, half, 5)
 		win = win[:0]
 		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {

@@ -36,6 +36,13 @@ type RecordOptions struct {
 	SpeedWindowS float64
 	// Workers run crest detection on frames in parallel; ≤ 0 means one.
 	Workers int
+	// BreakingIndex turns on the third pass: the linear surface speed from
+	// a dispersion-filtered 3-D FFT (SurfaceVelocity) and B_x = u_s/c_cr at
+	// every crest tip.
+	BreakingIndex bool
+	// VelocityWindowS is the length of the 3-D FFT windows in seconds;
+	// 0 means 3 Tp (capped so two windows of the grid fit in 1.5 GiB).
+	VelocityWindowS float64
 	// Progress, if set, is told how far each pass has got.
 	Progress func(pass string, done, total int)
 }
@@ -59,6 +66,8 @@ func (o RecordOptions) Validate() error {
 		return fmt.Errorf("maximum gap of %d frames is outside 0–100", o.MaxGapFrames)
 	case !(o.SpeedWindowS >= 0):
 		return fmt.Errorf("crest-speed window %g s is negative", o.SpeedWindowS)
+	case !(o.VelocityWindowS >= 0):
+		return fmt.Errorf("surface-velocity window %g s is negative", o.VelocityWindowS)
 	}
 	return nil
 }
@@ -80,6 +89,9 @@ type Record struct {
 	Tracks         []tracking.Track
 	Link           tracking.LinkStats
 	Rows           []CrestRow
+	// VelocityWindowFrames is the 3-D FFT window of the breaking-index
+	// pass (0 when the pass did not run); RowsWithBx counts rows with B_x.
+	VelocityWindowFrames, RowsWithBx int
 	// RowsWithoutSpeed counts crest rows whose speed window was incomplete
 	// (track ends, tracks shorter than the window).
 	RowsWithoutSpeed int
@@ -268,6 +280,13 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 		}
 	}
 	rec.Timings["crest speeds"] = time.Since(t0)
+	if opt.BreakingIndex {
+		t0 = time.Now()
+		if err := rec.breakingIndex(ctx, src, mean, opt); err != nil {
+			return nil, err
+		}
+		rec.Timings["breaking index"] = time.Since(t0)
+	}
 	rec.checkRecord()
 	return rec, nil
 }
@@ -356,4 +375,97 @@ func detectParallel(ctx context.Context, src *ingest.ElevationSource, det *track
 	close(results)
 	collectWG.Wait()
 	return readErr
+}
+
+// maxVelocityBytes bounds the memory of the surface-velocity windows.
+const maxVelocityBytes = 1.5 * (1 << 30)
+
+// breakingIndex streams the record a third time through SurfaceVelocity
+// and sets SurfaceSpeed and BreakingIndex on every row whose frame and
+// position the velocity estimate covers.
+func (rec *Record) breakingIndex(ctx context.Context, src *ingest.ElevationSource, mean []float32, opt RecordOptions) error {
+	meta := rec.Meta
+	nx, ny := meta.Grid.Nx(), meta.Grid.Ny()
+	dt := rec.FrameInterval
+	winS := opt.VelocityWindowS
+	if winS == 0 {
+		winS = 3 * rec.SeaState.Tp
+	}
+	nw := int(math.Round(winS/dt/2)) * 2
+	capFrames := int(maxVelocityBytes/(2*16*float64(nx*ny))) / 2 * 2
+	nw = max(min(nw, capFrames), 8)
+	rec.VelocityWindowFrames = nw
+	byFrame := map[int][]int{}
+	for i, r := range rec.Rows {
+		byFrame[r.Frame] = append(byFrame[r.Frame], i)
+	}
+	g := meta.Grid
+	sv, err := NewSurfaceVelocity(nx, ny, g.Dx(), g.Dy(), dt, SurfaceVelocityOptions{
+		Window: nw, Theta: rec.Refs.Theta, DepthM: rec.Refs.DepthM, Current: rec.Refs.Current, Workers: opt.Workers,
+	}, func(frame int, u []float32, ok bool) {
+		if !ok {
+			return
+		}
+		for _, i := range byFrame[frame] {
+			r := &rec.Rows[i]
+			us := bilinearAt(u, nx, ny, (r.X-g.X[0])/g.Dx(), (r.Y-g.Y[0])/g.Dy())
+			if math.IsNaN(us) {
+				continue
+			}
+			r.SurfaceSpeed = us
+			// crest speed normal to the crest: the crest line makes the
+			// angle atan(ds/dn) with the lines across θ0
+			cn := r.CrestSpeed * math.Cos(math.Atan(r.SlopeSN))
+			r.BreakingIndex = us / cn
+			if !math.IsNaN(r.BreakingIndex) {
+				rec.RowsWithBx++
+			}
+		}
+	})
+	if err != nil {
+		return err
+	}
+	src.Rewind()
+	var f ingest.Frame
+	t00 := meta.Times[0]
+	next := 0
+	buf := make([]float32, nx*ny)
+	for {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		err := src.Next(&f)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		fn := int(math.Round((f.Time - t00) / dt))
+		for ; next < fn; next++ {
+			sv.Push(nil) // dropped or skipped frame
+		}
+		for i, v := range f.Eta {
+			buf[i] = v - mean[i]
+		}
+		sv.Push(buf)
+		next++
+		if opt.Progress != nil {
+			opt.Progress("breaking index", f.Index+1, len(meta.Times))
+		}
+	}
+	sv.Close()
+	return nil
+}
+
+// bilinearAt interpolates a row-major field at fractional cell
+// coordinates; NaN outside the grid or next to an unknown cell.
+func bilinearAt(u []float32, nx, ny int, fx, fy float64) float64 {
+	if fx < 0 || fy < 0 || fx > float64(nx-1) || fy > float64(ny-1) {
+		return math.NaN()
+	}
+	ix, iy := min(int(fx), nx-2), min(int(fy), ny-2)
+	wx, wy := fx-float64(ix), fy-float64(iy)
+	i := iy*nx + ix
+	return (1-wy)*((1-wx)*float64(u[i])+wx*float64(u[i+1])) + wy*((1-wx)*float64(u[i+nx])+wx*float64(u[i+nx+1]))
 }

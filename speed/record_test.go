@@ -211,3 +211,25 @@ func TestJONSWAPMaskedWithDroppedFrames(t *testing.T) {
 		}
 	}
 }
+
+// Breaking-inception index of a linear regular wave: at the crest the
+// surface orbital speed is u_s = aσ coth(kh) and the crest moves at c = σ/k,
+// so B_x = a·k·coth(kh) (linear wave theory, Dean & Dalrymple 1991). The
+// median B_x over all crests must match within 2 %.
+func TestBreakingIndexRegularWave(t *testing.T) {
+	a, T, h := 0.3, 4.0, 12.0
+	sc := samples.Scenario{Kind: samples.KindRegular,
+		Regular: samples.RegularWave{HeightM: 2 * a, PeriodS: T, DirectionDeg: 25, DepthM: h},
+		Grid:    grid(128, 112, 1, 10, 60)}
+	rec, truth := analyse(t, sc, speed.RecordOptions{BreakingIndex: true})
+	k := truth.Components[0].K
+	want := a * k / math.Tanh(k*h)
+	mb, n := medianOf(rec.Rows, func(r speed.CrestRow) float64 { return r.BreakingIndex })
+	t.Logf("median B_x %.4f over %d rows (window %d frames), a·k·coth(kh) = %.4f", mb, n, rec.VelocityWindowFrames, want)
+	if n < 50 {
+		t.Fatalf("only %d rows with B_x", n)
+	}
+	if math.Abs(mb-want)/want > 0.02 {
+		t.Errorf("median B_x %.4f, linear theory %.4f (off by %.1f %%)", mb, want, 100*math.Abs(mb-want)/want)
+	}
+}
