@@ -1,8 +1,28 @@
 // Package report turns analysed crest tracks into what a scientist reads and
-// publishes: statistics of crest-speed ratios per steepness class, CSV and
-// JSON records of the run, and (as the package grows) figures, an HTML page
-// and CF NetCDF trajectories. It computes statistics, never physics: every
-// speed and ratio comes from package speed.
+// publishes. It computes statistics, never physics: every speed and ratio
+// comes from package speed.
+//
+// # Model
+//
+// A report is built from a Deployment: the crest table (one row per crest
+// tip per frame, the columns of crests.csv), the summary of the tracking
+// run (summary.json: sea state, counts, provenance) and the record's
+// frequency spectrum (spectrum.csv). "crestspeed track" hands it over in
+// memory (DeploymentFromRecord); "crestspeed report" reads it back from
+// those files (LoadDeployment), and both give the same numbers because the
+// CSV files keep every float64 exactly.
+//
+// For each crest-speed ratio (c_cr/c_p and c_cr/c_loc) and each steepness
+// class, and for all crests, DistributionsOf gives the statistics (n,
+// tracks, mean, median, mode, 5 and 95 % points), a Freedman–Diaconis
+// histogram, a Gaussian kernel density curve and bootstrap confidence
+// intervals. Rows of one crest track are correlated, so the bootstrap
+// resamples whole tracks (BootstrapTracks).
+//
+// WriteReport writes report.html (self-contained), the six figures as PNG
+// and SVG, the crest tracks as CF-1.8 trajectories (crest_tracks.nc) and
+// summary.json with the intervals and the path of every output; all files
+// appear together or not at all.
 package report
 
 import (

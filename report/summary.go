@@ -28,6 +28,7 @@ type RunInfo struct {
 type Summary struct {
 	Tool     map[string]string     `json:"tool"`
 	Caution  string                `json:"caution"`
+	Warnings []string              `json:"warnings"`
 	Config   any                   `json:"config"`
 	Inputs   []FileInfo            `json:"inputs"`
 	Record   RecordSummary         `json:"record"`
@@ -111,6 +112,7 @@ func BuildSummary(rec *speed.Record, run RunInfo) *Summary {
 		Timings: map[string]float64{},
 		Outputs: map[string]string{},
 	}
+	s.Warnings = append([]string{}, rec.Warnings...)
 	s.Record = RecordSummary{Title: rec.Meta.Title, Attributes: rec.Meta.Attrs, TimeUnits: rec.Meta.TimeUnits}
 	if s.Record.Attributes == nil {
 		s.Record.Attributes = map[string]string{}
@@ -186,6 +188,7 @@ func sanitise(v any) any {
 		m := map[string]any{}
 		m["tool"] = t.Tool
 		m["caution"] = t.Caution
+		m["warnings"] = t.Warnings
 		m["config"] = t.Config
 		m["inputs"] = t.Inputs
 		m["record"] = t.Record

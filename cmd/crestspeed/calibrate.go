@@ -1,5 +1,169 @@
 package main
 
-// CalibrateConfig configures "crestspeed calibrate" (placeholder until the
-// calibration verb lands).
-type CalibrateConfig struct{}
+import (
+	"fmt"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"crestspeed/calib"
+)
+
+// CalibrateConfig configures "crestspeed calibrate".
+type CalibrateConfig struct {
+	Left       string  `yaml:"left"`        // glob of the left-camera chessboard images
+	Right      string  `yaml:"right"`       // glob of the right-camera chessboard images
+	Pattern    string  `yaml:"pattern"`     // inner corners, COLSxROWS
+	SquareM    float64 `yaml:"square_m"`    // side of one square, metres (no default)
+	Detector   string  `yaml:"detector"`    // classic | sb
+	DropFactor float64 `yaml:"drop_factor"` // drop views above this × the median error; 0 keeps all
+	MinViews   int     `yaml:"min_views"`   // fewest good views accepted
+	FixK3      bool    `yaml:"fix_k3"`      // hold k3 at zero
+	Figures    bool    `yaml:"figures"`     // write the worst-view picture and the residual plot
+}
+
+func init() { extraCommands = append(extraCommands, newCalibrateCmd) }
+
+func newCalibrateCmd(app *App) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "calibrate --left GLOB --right GLOB --pattern 9x6 --square M --out rig.yaml",
+		Short: "Calibrate the stereo rig from chessboard image pairs",
+		Long: `Calibrate the stereo rig from pairs of chessboard pictures taken by both
+cameras at the same instants, and write the rig file (YAML: intrinsics,
+distortion, pose of the right camera, and the calibration's quality).
+
+Pairs are matched by the number in the file names (left_07.png with
+right_07.png) when every name has one, otherwise by sorted order. Pairs in
+which the whole board is not found in both images are skipped and listed.
+Views whose reprojection error exceeds drop_factor times the median are
+dropped and the calibration repeated.
+
+Quality figures are printed and stored in the rig file: RMS reprojection error
+overall and per view, rectified epipolar error (mean and 95th percentile: how
+many rows apart the same corner lands in the two rectified images) and the
+baseline. Beside the rig file go OUT-worst-view.png (the worst view's corners
+and residuals) and OUT-residuals.png (residuals and per-view errors).`,
+		Args: func(cmd *cobra.Command, args []string) error {
+			if len(args) > 0 {
+				return usageError{fmt.Errorf("calibrate takes no file arguments but got %d (%s ...); quote the --left and --right patterns so that the shell does not expand them", len(args), args[0])}
+			}
+			return nil
+		},
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return app.calibrate(cmd)
+		},
+	}
+	f := cmd.Flags()
+	f.String("left", "", "glob of the left-camera images (quote it), e.g. \"calib/left_*.png\"")
+	f.String("right", "", "glob of the right-camera images (quote it)")
+	f.String("pattern", "", "chessboard inner corners, COLSxROWS, e.g. 9x6")
+	f.Float64("square", 0, "side of one chessboard square (m)")
+	f.String("detector", "", "corner detector: classic or sb")
+	f.Float64("drop-factor", 0, "drop views whose error exceeds this times the median (0 keeps all)")
+	f.Int("min-views", 0, "fewest good views accepted")
+	f.Bool("fix-k3", false, "hold the r⁶ distortion coefficient k3 at zero")
+	f.Bool("figures", true, "write the worst-view picture and the residual plot")
+	bindFlag(app, cmd, "left", "calibrate.left")
+	bindFlag(app, cmd, "right", "calibrate.right")
+	bindFlag(app, cmd, "pattern", "calibrate.pattern")
+	bindFlag(app, cmd, "square", "calibrate.square_m")
+	bindFlag(app, cmd, "detector", "calibrate.detector")
+	bindFlag(app, cmd, "drop-factor", "calibrate.drop_factor")
+	bindFlag(app, cmd, "min-views", "calibrate.min_views")
+	bindFlag(app, cmd, "fix-k3", "calibrate.fix_k3")
+	bindFlag(app, cmd, "figures", "calibrate.figures")
+	return cmd
+}
+
+// calibrateOutputs names the files written beside the rig file.
+func calibrateOutputs(out string) (worst, residuals string) {
+	stem := strings.TrimSuffix(out, filepath.Ext(out))
+	return stem + "-worst-view.png", stem + "-residuals.png"
+}
+
+func (app *App) calibrate(cmd *cobra.Command) error {
+	cfg := app.cfg.Calibrate
+	out := app.cfg.Out
+	if out == "" {
+		return usageError{fmt.Errorf("give the rig file to write with --out, like --out rig.yaml")}
+	}
+	if ext := strings.ToLower(filepath.Ext(out)); ext != ".yaml" && ext != ".yml" {
+		return usageError{fmt.Errorf("rig file %s should end in .yaml", out)}
+	}
+	cols, rows, err := calib.ParsePattern(cfg.Pattern)
+	if err != nil {
+		return usageError{fmt.Errorf("--pattern: %v", err)}
+	}
+	if cfg.SquareM == 0 {
+		return usageError{fmt.Errorf("give the side of one chessboard square in metres with --square (calibrate.square_m)")}
+	}
+	opt := calib.Options{
+		Pattern:    calib.Pattern{Cols: cols, Rows: rows, SquareM: cfg.SquareM},
+		Detector:   cfg.Detector,
+		DropFactor: cfg.DropFactor,
+		MinViews:   cfg.MinViews,
+		FixK3:      cfg.FixK3,
+		Workers:    app.cfg.Workers,
+	}
+	if err := opt.Validate(); err != nil {
+		return usageError{err}
+	}
+	worstPath, residualPath := calibrateOutputs(out)
+	outputs := []string{out}
+	if cfg.Figures {
+		outputs = append(outputs, worstPath, residualPath)
+	}
+	for _, p := range outputs {
+		if err := refuseOverwrite(p, app.cfg.Force); err != nil {
+			return err
+		}
+	}
+	pairs, err := calib.PairGlobs(cfg.Left, cfg.Right)
+	if err != nil {
+		return usageError{err}
+	}
+	t0 := time.Now()
+	app.logf("calibrate: %d image pairs, %s chessboard of %g m squares", len(pairs), opt.Pattern, opt.Pattern.SquareM)
+	pr := app.newProgress("corners", len(pairs))
+	opt.Progress = pr.set
+	res, err := calib.Calibrate(cmd.Context(), pairs, opt)
+	pr.done()
+	if err != nil {
+		return err
+	}
+	rig, q := res.Rig, res.Rig.Quality
+	for _, v := range q.Views {
+		switch v.Status {
+		case calib.ViewSkipped:
+			app.logf("calibrate: skipped pair %s (%s, %s): %s", v.Name, v.Left, v.Right, v.Reason)
+		case calib.ViewDropped:
+			app.logf("calibrate: dropped pair %s: %s", v.Name, v.Reason)
+		}
+	}
+	for _, v := range q.Views {
+		if v.Status == calib.ViewUsed {
+			app.logf("calibrate: pair %-6s RMS left %.3f px, right %.3f px, epipolar %.3f px", v.Name, v.RMSLeftPx, v.RMSRightPx, v.EpiMeanPx)
+		}
+	}
+	app.logf("calibrate: %d of %d pairs used in %d round(s); RMS reprojection error %.3f px (left %.3f, right %.3f; cameras alone %.3f, %.3f)",
+		q.ViewsUsed, len(q.Views), res.Rounds, q.RMSPx, q.LeftRMSPx, q.RightRMSPx, res.LeftAloneRMSPx, res.RightAloneRMSPx)
+	app.logf("calibrate: rectified epipolar error mean %.3f px, 95th percentile %.3f px; baseline %.4f m; focal length %.1f / %.1f px",
+		q.EpiMeanPx, q.EpiP95Px, rig.Baseline(), rig.Left.Fx, rig.Right.Fx)
+	if err := rig.Save(out); err != nil {
+		return err
+	}
+	if cfg.Figures {
+		if err := res.WriteWorstViewPNG(worstPath); err != nil {
+			return err
+		}
+		if err := res.WriteResidualPlot(residualPath); err != nil {
+			return err
+		}
+		app.logf("calibrate: wrote %s, %s and %s in %s", out, worstPath, residualPath, elapsed(t0))
+	} else {
+		app.logf("calibrate: wrote %s in %s", out, elapsed(t0))
+	}
+	return nil
+}

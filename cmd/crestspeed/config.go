@@ -33,6 +33,7 @@ type Config struct {
 	Force      bool             `yaml:"force"`
 	Synthesize SynthesizeConfig `yaml:"synthesize"`
 	Track      TrackConfig      `yaml:"track"`
+	Report     ReportConfig     `yaml:"report"` // defined in report.go
 	Demo       DemoConfig       `yaml:"demo"`
 	Calibrate  CalibrateConfig  `yaml:"calibrate"` // defined in calibrate.go
 	// Extra holds the sections of verbs that register themselves from

@@ -30,7 +30,9 @@ speed and the direction it flows toward; --vorticity is dU/dz of a linear
 shear current: positive means the current grows toward the surface in the
 direction the waves travel.
 
-Writes crests.csv, tracks.csv and summary.json in the output folder.`,
+Writes crests.csv, tracks.csv, spectrum.csv and summary.json in the output
+folder, then the report (report.html, figures, crest_tracks.nc; see
+"crestspeed report") unless --no-report is given.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			cfg := app.cfg
@@ -88,6 +90,14 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 	if err := checkSteepnessBounds(tc.SteepnessBounds); err != nil {
 		return nil, usageError{err}
 	}
+	if tc.Report {
+		if err := app.cfg.Report.options().Validate(); err != nil {
+			return nil, usageError{err}
+		}
+		if err := refuseReportOverwrite(dir, false, app.cfg.Force); err != nil {
+			return nil, err
+		}
+	}
 	started := time.Now()
 	src, err := ingest.OpenElevation(input, ingest.ElevationOptions{})
 	if err != nil {
@@ -131,6 +141,9 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 	if err != nil {
 		return nil, err
 	}
+	for _, w := range rec.Warnings {
+		app.logf("track: warning: %s", w)
+	}
 	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
 		Version: version, Config: app.resolvedConfig(), Inputs: []report.FileInfo{in},
 		SteepnessBounds: tc.SteepnessBounds, Started: started,
@@ -140,6 +153,11 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 	}
 	app.printTrackSummary(sum)
 	app.logf("track: wrote %s in %s", dir, elapsed(started))
+	if tc.Report {
+		if err := app.writeReport(report.DeploymentFromRecord(rec, sum, dir), dir, time.Now()); err != nil {
+			return nil, err
+		}
+	}
 	return sum, nil
 }
 
