@@ -35,6 +35,8 @@ const (
 	ColAcross
 	ColWavelength
 	ColLength
+	ColSurfaceSpeed
+	ColBx
 	numCrestCols
 )
 
@@ -65,13 +67,15 @@ var crestMeta = [numCrestCols]crestColumn{
 	ColAcross:          {nc: "across", units: "m", long: "crest tip position across the mean direction of travel"},
 	ColWavelength:      {nc: "local_wavelength", units: "m", long: "down-crossing to down-crossing wavelength around the crest"},
 	ColLength:          {nc: "crest_length", units: "m", long: "length of the crest segment across the mean direction"},
+	ColSurfaceSpeed:    {nc: "surface_speed", units: "m s-1", long: "linear surface orbital speed u_s at the crest tip"},
+	ColBx:              {nc: "bx", units: "1", long: "breaking-inception index B_x = u_s / c_cr normal to the crest (linear estimate)"},
 }
 
 // CrestTable is the crest table of a deployment held column by column, in
 // the order and with the meaning of CrestColumns (crests.csv): one row per
 // crest tip per frame, rows of one track contiguous and in time order.
 // Integer columns (track_id, frame) hold whole numbers; unknown values
-// are NaN. Columns take 8 bytes per row each, 136 bytes per row in all.
+// are NaN. Columns take 8 bytes per row each, 152 bytes per row in all.
 type CrestTable struct {
 	Cols [numCrestCols][]float64
 }
@@ -116,6 +120,8 @@ func TableFromRows(rows []speed.CrestRow) *CrestTable {
 		c[ColAcross][i] = r.N
 		c[ColWavelength][i] = r.Wavelength
 		c[ColLength][i] = r.Length
+		c[ColSurfaceSpeed][i] = r.SurfaceSpeed
+		c[ColBx][i] = r.BreakingIndex
 	}
 	t.normalise()
 	return t

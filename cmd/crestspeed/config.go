@@ -60,6 +60,9 @@ type TrackConfig struct {
 	MaxGapFrames        int       `yaml:"max_gap_frames"`
 	SpeedWindowS        float64   `yaml:"speed_window_s"`
 	SteepnessBounds     []float64 `yaml:"steepness_bounds"`
+	BreakingIndex       bool      `yaml:"breaking_index"`
+	VelocityWindowS     float64   `yaml:"velocity_window_s"`
+	BxThreshold         float64   `yaml:"bx_threshold"`
 	Report              bool      `yaml:"report"`
 }
 

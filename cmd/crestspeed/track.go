@@ -90,6 +90,9 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 	if err := checkSteepnessBounds(tc.SteepnessBounds); err != nil {
 		return nil, usageError{err}
 	}
+	if !(tc.BxThreshold > 0 && tc.BxThreshold < 5) {
+		return nil, usageError{fmt.Errorf("breaking-index threshold %g is outside (0, 5)", tc.BxThreshold)}
+	}
 	if tc.Report {
 		if err := app.cfg.Report.options().Validate(); err != nil {
 			return nil, usageError{err}
@@ -119,6 +122,8 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 		MaxGapFrames:     tc.MaxGapFrames,
 		SpeedWindowS:     tc.SpeedWindowS,
 		Workers:          app.cfg.Workers,
+		BreakingIndex:    tc.BreakingIndex,
+		VelocityWindowS:  tc.VelocityWindowS,
 	}
 	if err := opt.Validate(); err != nil {
 		return nil, usageError{err}
