@@ -37,6 +37,7 @@ const (
 	ColLength
 	ColSurfaceSpeed
 	ColBx
+	ColFoam
 	numCrestCols
 )
 
@@ -69,13 +70,14 @@ var crestMeta = [numCrestCols]crestColumn{
 	ColLength:          {nc: "crest_length", units: "m", long: "length of the crest segment across the mean direction"},
 	ColSurfaceSpeed:    {nc: "surface_speed", units: "m s-1", long: "linear surface orbital speed u_s at the crest tip"},
 	ColBx:              {nc: "bx", units: "1", long: "breaking-inception index B_x = u_s / c_cr normal to the crest (linear estimate)"},
+	ColFoam:            {nc: "foam", units: "1", long: "1 when the crest carried a whitecap in this frame", integer: true},
 }
 
 // CrestTable is the crest table of a deployment held column by column, in
 // the order and with the meaning of CrestColumns (crests.csv): one row per
 // crest tip per frame, rows of one track contiguous and in time order.
 // Integer columns (track_id, frame) hold whole numbers; unknown values
-// are NaN. Columns take 8 bytes per row each, 152 bytes per row in all.
+// are NaN. Columns take 8 bytes per row each, 160 bytes per row in all.
 type CrestTable struct {
 	Cols [numCrestCols][]float64
 }
@@ -122,6 +124,9 @@ func TableFromRows(rows []speed.CrestRow) *CrestTable {
 		c[ColLength][i] = r.Length
 		c[ColSurfaceSpeed][i] = r.SurfaceSpeed
 		c[ColBx][i] = r.BreakingIndex
+		if r.Foam {
+			c[ColFoam][i] = 1
+		}
 	}
 	t.normalise()
 	return t

@@ -40,6 +40,10 @@ type Summary struct {
 	Method   map[string]any        `json:"method"`
 	Timings  map[string]float64    `json:"timings_s"`
 	Outputs  map[string]string     `json:"outputs"`
+	// Whitecaps and Inception are present when the record had a foam mask
+	// and when B_x was computed.
+	Whitecaps *WhitecapsSummary `json:"whitecaps,omitempty"`
+	Inception *speed.Inception  `json:"inception,omitempty"`
 }
 
 // RecordSummary describes the analysed record: its title and text
@@ -152,6 +156,8 @@ func BuildSummary(rec *speed.Record, run RunInfo) *Summary {
 		"peak":  ClassStatistics(rec.Rows, run.SteepnessBounds, func(r speed.CrestRow) float64 { return r.RatioPeak }),
 		"local": ClassStatistics(rec.Rows, run.SteepnessBounds, func(r speed.CrestRow) float64 { return r.RatioLocal }),
 	}
+	s.Whitecaps = SummariseWhitecaps(rec.Whitecaps, run.SteepnessBounds)
+	s.Inception = rec.Inception
 	s.Method = map[string]any{
 		"steepness":            "S_c = a_c * pi / w_c (a_c crest elevation, w_c zero-crossing width)",
 		"steepness_bounds":     run.SteepnessBounds,
@@ -200,6 +206,12 @@ func sanitise(v any) any {
 		m["method"] = t.Method
 		m["timings_s"] = t.Timings
 		m["outputs"] = t.Outputs
+		if t.Whitecaps != nil {
+			m["whitecaps"] = jsonSafe(t.Whitecaps)
+		}
+		if t.Inception != nil {
+			m["inception"] = jsonSafe(t.Inception)
+		}
 		return m
 	}
 	return v
@@ -245,6 +257,19 @@ func WriteTrackOutputs(dir string, rec *speed.Record, run RunInfo) (*Summary, er
 		return WriteSpectrumCSV(f, rec.SeaState.Freqs, rec.SeaState.PSD)
 	}); err != nil {
 		return nil, err
+	}
+	if wc := rec.Whitecaps; wc != nil {
+		for name, fill := range map[string]func(*os.File) error{
+			"whitecaps.csv": func(f *os.File) error { return WriteWhitecapsCSV(f, wc.Rows) },
+			"lambda.csv":    func(f *os.File) error { return WriteLambdaCSV(f, wc.Breaking) },
+			"coverage.csv":  func(f *os.File) error { return WriteCoverageCSV(f, wc.Coverage) },
+		} {
+			if err := tw.write(dir, name, fill); err != nil {
+				return nil, err
+			}
+			abs, _ := filepath.Abs(filepath.Join(dir, name))
+			sum.Outputs[name] = abs
+		}
 	}
 	js, err := sum.JSON()
 	if err != nil {

@@ -22,7 +22,7 @@ var CrestColumns = []string{
 	"steepness_sc", "crest_speed_mps", "phase_speed_peak_mps", "phase_speed_local_mps",
 	"ratio_peak", "ratio_local",
 	"frame", "along_m", "across_m", "local_wavelength_m", "crest_length_m",
-	"surface_speed_mps", "bx",
+	"surface_speed_mps", "bx", "foam",
 }
 
 // TrackColumns is the header of tracks.csv, one row per track.
@@ -66,6 +66,10 @@ func WriteCrestsCSV(w io.Writer, rows []speed.CrestRow) error {
 		rec[16] = num(r.Length)
 		rec[17] = num(r.SurfaceSpeed)
 		rec[18] = num(r.BreakingIndex)
+		rec[19] = "0"
+		if r.Foam {
+			rec[19] = "1"
+		}
 		if _, err := bw.WriteString(joinCSV(rec)); err != nil {
 			return err
 		}

@@ -81,6 +81,7 @@ type Scenario struct {
 	Packet  FocusingPacket `json:"packet,omitempty" yaml:"packet"`
 	Grid    GridSpec       `json:"grid" yaml:"grid"`
 	Defects Defects        `json:"defects" yaml:"defects"`
+	Foam    FoamSpec       `json:"foam,omitempty" yaml:"foam"`
 }
 
 // Defects are deliberate faults written into a synthetic record.
@@ -97,16 +98,17 @@ type Defects struct {
 // Truth is what the generator knows about a synthetic record, written as
 // JSON beside it.
 type Truth struct {
-	Scenario         Scenario    `json:"scenario"`
-	DepthM           float64     `json:"depth_m"`
-	Hm0M             float64     `json:"hm0_m"`                // 4√(Σ a²/2) of the components
-	PeakPeriodS      float64     `json:"peak_period_s"`        // period of the spectral peak (absolute)
-	PeakPhaseSpeed   float64     `json:"peak_phase_speed_mps"` // nominal phase speed at the peak, along the mean direction
-	MeanDirectionDeg float64     `json:"mean_direction_deg"`
-	Frames           int         `json:"frames_written"`
-	MaskedFraction   float64     `json:"masked_fraction"`
-	Components       []Component `json:"components"`
-	Generated        string      `json:"generator"`
+	Scenario         Scenario       `json:"scenario"`
+	DepthM           float64        `json:"depth_m"`
+	Hm0M             float64        `json:"hm0_m"`                // 4√(Σ a²/2) of the components
+	PeakPeriodS      float64        `json:"peak_period_s"`        // period of the spectral peak (absolute)
+	PeakPhaseSpeed   float64        `json:"peak_phase_speed_mps"` // nominal phase speed at the peak, along the mean direction
+	MeanDirectionDeg float64        `json:"mean_direction_deg"`
+	Frames           int            `json:"frames_written"`
+	MaskedFraction   float64        `json:"masked_fraction"`
+	Components       []Component    `json:"components"`
+	Generated        string         `json:"generator"`
+	Whitecaps        *WhitecapTruth `json:"whitecaps,omitempty"`
 }
 
 // Sea builds the scenario's LinearSea.
@@ -183,10 +185,15 @@ func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers i
 	st, _ := time.Parse(time.RFC3339, start)
 	xs, ys := s.Grid.Axes()
 	grid := ingest.Grid{X: xs, Y: ys}
+	foam, foamTruth, err := s.Foam.setupFoam(s, sea, xs, ys)
+	if err != nil {
+		return Truth{}, err
+	}
 	w, err := ingest.CreateElevation(path, grid, ingest.WriteOptions{
 		Deflate:   deflate,
 		TimeUnits: "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z"),
 		DepthM:    truth.DepthM,
+		WithFoam:  foam != nil,
 		Title:     "crestspeed synthetic sea surface elevation (" + s.Kind + ")",
 		Attrs: map[string]string{
 			"source":  "crestspeed synthesize: linear superposition of free wave components",
@@ -210,6 +217,10 @@ func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers i
 	}
 	eval := NewFrameEvaluator(sea, xs, ys, workers)
 	buf := make([]float32, s.Grid.Nx*s.Grid.Ny)
+	var foamBuf []uint8
+	if foam != nil {
+		foamBuf = make([]uint8, len(buf))
+	}
 	total := s.Grid.Frames()
 	nan := float32(math.NaN())
 	for i := 0; i < total; i++ {
@@ -231,7 +242,10 @@ func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers i
 				buf[j] = nan
 			}
 		}
-		if err := w.WriteFrame(tt, buf, nil); err != nil {
+		if foam != nil {
+			foam.Paint(i, tt, foamBuf)
+		}
+		if err := w.WriteFrame(tt, buf, foamBuf); err != nil {
 			return Truth{}, err
 		}
 		truth.Frames++
@@ -241,6 +255,7 @@ func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers i
 	}
 	truth.MaskedFraction = float64(len(mask)) / float64(len(buf))
 	truth.Generated = "crestspeed samples.Synthesize"
+	truth.Whitecaps = foamTruth
 	if err := writeJSONAtomic(TruthPath(path), truth); err != nil {
 		return Truth{}, err
 	}

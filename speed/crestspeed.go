@@ -73,6 +73,7 @@ type CrestRow struct {
 	RatioLocal      float64 // c_cr / c_loc
 	SurfaceSpeed    float64 // u_s, linear surface orbital speed at the tip, m/s (NaN if not computed)
 	BreakingIndex   float64 // B_x = u_s / (c_cr cos φ), φ the crest line's angle (NaN if not computed)
+	Foam            bool    // the crest carried a whitecap in this frame
 }
 
 // References are the reference phase speeds of a record.

@@ -43,6 +43,13 @@ type RecordOptions struct {
 	// VelocityWindowS is the length of the 3-D FFT windows in seconds;
 	// 0 means 3 Tp (capped so two windows of the grid fit in 1.5 GiB).
 	VelocityWindowS float64
+	// BxThreshold is the B_x at which a crest is flagged (default 0.855).
+	BxThreshold float64
+	// Whitecaps turns on whitecap analysis for records with a foam mask,
+	// with the settings in Breaking (SpeedWindowS and MaxGapFrames are
+	// taken from this record's).
+	Whitecaps bool
+	Breaking  BreakingOptions
 	// Progress, if set, is told how far each pass has got.
 	Progress func(pass string, done, total int)
 }
@@ -66,6 +73,8 @@ func (o RecordOptions) Validate() error {
 		return fmt.Errorf("maximum gap of %d frames is outside 0–100", o.MaxGapFrames)
 	case !(o.SpeedWindowS >= 0):
 		return fmt.Errorf("crest-speed window %g s is negative", o.SpeedWindowS)
+	case !(o.BxThreshold >= 0 && o.BxThreshold < 5):
+		return fmt.Errorf("breaking-index threshold %g is outside (0, 5)", o.BxThreshold)
 	case !(o.VelocityWindowS >= 0):
 		return fmt.Errorf("surface-velocity window %g s is negative", o.VelocityWindowS)
 	}
@@ -96,6 +105,10 @@ type Record struct {
 	// (track ends, tracks shorter than the window).
 	RowsWithoutSpeed int
 	Timings          map[string]time.Duration
+	// Whitecaps is the whitecap analysis (nil without a foam mask), and
+	// Inception the breaking-inception flags (nil without B_x).
+	Whitecaps *WhitecapResult
+	Inception *Inception
 	// Warnings say where the record is too short, too coarse or too small
 	// for the estimates to be trusted; they are reported, not fatal.
 	Warnings []string
@@ -256,13 +269,30 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 	})
 	t00 := meta.Times[0]
 	frameNo := func(t float64) int { return int(math.Round((t - t00) / dt)) }
+	var wa *WhitecapAnalyser
+	var waErr error
+	if opt.Whitecaps && meta.HasFoam {
+		bo := opt.Breaking
+		bo.SpeedWindowS = rec.SpeedWindowS
+		bo.MaxGapFrames = opt.MaxGapFrames
+		wa, err = NewWhitecapAnalyser(g, ref, bo)
+		if err != nil {
+			return nil, err
+		}
+	}
 	err = detectParallel(ctx, src, det, mean, max(opt.Workers, 1), func(fr frameResult) {
 		rec.Detections += len(fr.crests)
+		if wa != nil && waErr == nil && fr.foam != nil {
+			waErr = wa.Add(frameNo(fr.time), fr.time, fr.foam, fr.valid, fr.crests)
+		}
 		linker.Push(frameNo(fr.time), fr.time, fr.crests)
 		progress("crests", fr.index+1)
 	}, frameNo)
 	if err != nil {
 		return nil, err
+	}
+	if waErr != nil {
+		return nil, fmt.Errorf("%s: whitecaps: %v", src.Path(), waErr)
 	}
 	rec.Tracks, rec.Link = linker.Finish()
 	rec.Skipped = src.Skipped()
@@ -287,6 +317,18 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 		}
 		rec.Timings["breaking index"] = time.Since(t0)
 	}
+	if wa != nil {
+		t0 = time.Now()
+		rec.Whitecaps, err = wa.Finish(rec.Rows)
+		if err != nil {
+			return nil, fmt.Errorf("%s: whitecaps: %v", src.Path(), err)
+		}
+		rec.markFoam()
+		rec.Timings["whitecaps"] = time.Since(t0)
+	}
+	if opt.BreakingIndex {
+		rec.Inception = InceptionOf(rec.Rows, rec.Whitecaps, opt.BxThreshold)
+	}
 	rec.checkRecord()
 	return rec, nil
 }
@@ -295,6 +337,8 @@ type frameResult struct {
 	index  int
 	time   float64
 	crests []tracking.Crest
+	foam   []uint8 // the frame's foam mask (nil without one); valid only during the sink call
+	valid  []bool
 }
 
 // detectParallel reads frames in order on the calling goroutine, detects
@@ -326,7 +370,7 @@ func detectParallel(ctx context.Context, src *ingest.ElevationSource, det *track
 			sc := det.NewScratch()
 			for j := range jobs {
 				cr := det.Detect(j.f.Eta, mean, frameNo(j.f.Time), j.f.Time, sc)
-				results <- result{seq: j.seq, frameResult: frameResult{index: j.f.Index, time: j.f.Time, crests: cr}, f: j.f}
+				results <- result{seq: j.seq, frameResult: frameResult{index: j.f.Index, time: j.f.Time, crests: cr, foam: j.f.Foam, valid: j.f.Valid}, f: j.f}
 			}
 		}()
 	}

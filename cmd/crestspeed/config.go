@@ -63,6 +63,11 @@ type TrackConfig struct {
 	BreakingIndex       bool      `yaml:"breaking_index"`
 	VelocityWindowS     float64   `yaml:"velocity_window_s"`
 	BxThreshold         float64   `yaml:"bx_threshold"`
+	Whitecaps           bool      `yaml:"whitecaps"`
+	FoamSaturation      float64   `yaml:"foam_saturation_fraction"`
+	MinFoamPatchArea    float64   `yaml:"min_foam_patch_area_m2"`
+	LambdaBinWidth      float64   `yaml:"lambda_bin_width_mps"`
+	BreakingParameter   float64   `yaml:"breaking_parameter_b"`
 	Report              bool      `yaml:"report"`
 }
 

@@ -10,6 +10,7 @@ import (
 
 	"crestspeed/calib"
 	"crestspeed/samples"
+	"crestspeed/speed"
 )
 
 func newDemoCmd(app *App) *cobra.Command {
@@ -40,7 +41,15 @@ Everything is synthetic; nothing here describes a real site.`,
 			if app.cfg.Force {
 				os.Remove(maps)
 			}
-			truth, err := app.synthesize(cmd, app.cfg.Synthesize, maps)
+			sc := app.cfg.Synthesize
+			if !sc.Foam.Enabled && sc.Kind == samples.KindJONSWAP {
+				foam, err := demoFoam(sc.Scenario)
+				if err != nil {
+					return err
+				}
+				sc.Foam = foam
+			}
+			truth, err := app.synthesize(cmd, sc, maps)
 			if err != nil {
 				return err
 			}
@@ -82,4 +91,37 @@ func (app *App) demoCalibration(cmd *cobra.Command, dir string) error {
 	app.logf("demo: calibration against the rig's truth: baseline %.4f m (truth %.4f m), left focal length %.1f px (truth %.1f px), relative rotation error %.3f°",
 		got.Baseline(), rig.Baseline(), got.Left.Fx, rig.Left.Fx, calib.RotationAngle(calib.RelativeRotation(got.R, rig.R))*180/math.Pi)
 	return nil
+}
+
+// demoFoam paints a set of whitecaps on the demo sea: fronts moving along
+// the mean direction at 0.7–0.9 of the peak phase speed (the range reported
+// for breaking crests, PHYSICS.md §5), spread over the record and the grid,
+// so that the whitecap stage has a known truth to find.
+func demoFoam(sc samples.Scenario) (samples.FoamSpec, error) {
+	j := sc.JONSWAP
+	dir := j.DirectionDeg * math.Pi / 180
+	cp, err := speed.PhaseSpeedFromPeriod(j.TpS, j.DepthM, j.Current, dir, 0)
+	if err != nil {
+		return samples.FoamSpec{}, err
+	}
+	g := sc.Grid
+	xs, ys := g.Axes()
+	w, h := xs[len(xs)-1]-xs[0], ys[len(ys)-1]-ys[0]
+	spec := samples.FoamSpec{Enabled: true}
+	ratios := []float64{0.7, 0.75, 0.8, 0.85, 0.9}
+	n := int(g.Duration / 6)
+	for i := 0; i < n; i++ {
+		r := ratios[i%len(ratios)]
+		spec.Patches = append(spec.Patches, samples.FoamPatch{
+			StartS:       3 + float64(i)*6,
+			FrontXM:      xs[0] + w*(0.2+0.25*float64(i%3)),
+			FrontYM:      ys[0] + h*(0.25+0.2*float64((i/3)%3)),
+			DirectionDeg: j.DirectionDeg,
+			SpeedMPS:     r * cp,
+			FrontLengthM: 6 + float64(i%4)*2,
+			LengthM:      3,
+			DurationS:    2.5,
+		})
+	}
+	return spec, nil
 }

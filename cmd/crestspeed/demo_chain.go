@@ -25,9 +25,19 @@ func (app *App) demoChain(cmd *cobra.Command, dir, maps string, truth samples.Tr
 	app.logf("  %-22s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, ss.Tp)
 	app.logf("  %-22s %10.1f %10.1f", "mean direction (°)", truth.MeanDirectionDeg, ss.MeanDirection)
 	app.logf("  %-22s %10.3f %10.3f", "peak phase speed (m/s)", truth.PeakPhaseSpeed, ss.PeakPhaseSpeed)
+	if wt := truth.Whitecaps; wt != nil && len(wt.Patches) > 0 && sum.Whitecaps != nil {
+		var mean float64
+		for _, p := range wt.Patches {
+			mean += p.SpeedMPS / truth.PeakPhaseSpeed
+		}
+		mean /= float64(len(wt.Patches))
+		app.logf("  %-22s %10d %10d", "whitecaps", len(wt.Patches), sum.Whitecaps.Whitecaps)
+		app.logf("  %-22s %10.3f %10.3f", "mean c_br/c_p (track)", mean, sum.Whitecaps.MedianTrackSpeedRatio)
+	}
 	if math.Abs(ss.Hm0-truth.Hm0M) > 0.1*truth.Hm0M {
 		app.logf("demo: warning: measured Hm0 differs from the truth by more than 10 %%")
 	}
 	app.logf("demo: outputs in %s", out)
+	app.logf("demo: report %s", filepath.Join(out, "report.html"))
 	return nil
 }

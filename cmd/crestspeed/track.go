@@ -124,6 +124,14 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 		Workers:          app.cfg.Workers,
 		BreakingIndex:    tc.BreakingIndex,
 		VelocityWindowS:  tc.VelocityWindowS,
+		BxThreshold:      tc.BxThreshold,
+		Whitecaps:        tc.Whitecaps,
+		Breaking: speed.BreakingOptions{
+			MaxFoamFraction:   tc.FoamSaturation,
+			MinPatchArea:      tc.MinFoamPatchArea,
+			BinWidth:          tc.LambdaBinWidth,
+			BreakingParameter: tc.BreakingParameter,
+		},
 	}
 	if err := opt.Validate(); err != nil {
 		return nil, usageError{err}
@@ -157,6 +165,7 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 		return nil, err
 	}
 	app.printTrackSummary(sum)
+	app.printBreaking(sum)
 	app.logf("track: wrote %s in %s", dir, elapsed(started))
 	if tc.Report {
 		if err := app.writeReport(report.DeploymentFromRecord(rec, sum, dir), dir, time.Now()); err != nil {
@@ -202,6 +211,22 @@ func (app *App) printTrackSummary(s *report.Summary) {
 				label = "all"
 			}
 			app.logf("  %-14s %7d %7.3f %7.3f %7.3f %7.3f %7.3f", label, c.N, c.Mean, c.Median, c.Mode, c.P05, c.P95)
+		}
+	}
+}
+
+func (app *App) printBreaking(s *report.Summary) {
+	if w := s.Whitecaps; w != nil {
+		app.logf("whitecaps: %d tracked over %d frames (%d rows); mean coverage %.4f; passage rate R %.3g 1/s; dissipation %.3g W/m² (b = %.2g, an order-of-magnitude estimate)",
+			w.Whitecaps, w.FramesAnalysed, w.Rows, w.MeanCoverage, w.PassageRate, w.Dissipation, w.BreakingParameter)
+		a := w.Ratio["peak"].All
+		app.logf("whitecaps: front speed c_br/c_p: n %d, median %.3f, p05 %.3f, p95 %.3f; median whole-track c_br/c_p %.3f", a.N, a.Median, a.P05, a.P95, w.MedianTrackSpeedRatio)
+	}
+	if in := s.Inception; in != nil {
+		app.logf("breaking inception: %d of %d crest tracks reached B_x ≥ %.3g", len(in.Flags), in.TracksWithBx, in.Threshold)
+		if in.HaveFoam {
+			app.logf("breaking inception: flagged & foamed %d, flagged only %d, foamed only %d, neither %d",
+				in.FlaggedFoamed, in.FlaggedNotFoamed, in.NotFlaggedFoamed, in.NotFlaggedNotFoamed)
 		}
 	}
 }
