@@ -26,33 +26,8 @@ func LocalQuadraticSlope(t, x []float64, i int, half float64, minPoints int) (sl
 	if n < max(minPoints, 3) || lo == i || hi == i {
 		return math.NaN(), false
 	}
-	// Fit x = b0 + b1 τ + b2 τ², τ = t − t[i]; slope at τ = 0 is b1.
-	// Normal equations in centred form for conditioning.
-	var s0, s1, s2, s3, s4, y0, y1, y2 float64
-	for j := lo; j <= hi; j++ {
-		tau := t[j] - t[i]
-		tau2 := tau * tau
-		s0++
-		s1 += tau
-		s2 += tau2
-		s3 += tau2 * tau
-		s4 += tau2 * tau2
-		y0 += x[j]
-		y1 += x[j] * tau
-		y2 += x[j] * tau2
-	}
-	// Solve the 3×3 symmetric system by Cramer's rule.
-	a := [3][3]float64{{s0, s1, s2}, {s1, s2, s3}, {s2, s3, s4}}
-	b := [3]float64{y0, y1, y2}
-	det := det3(a)
-	if math.Abs(det) < 1e-300 {
-		return math.NaN(), false
-	}
-	a1 := a
-	for r := 0; r < 3; r++ {
-		a1[r][1] = b[r]
-	}
-	return det3(a1) / det, true
+	// Fit x = b0 + b1 τ + b2 τ², τ = t − t[i]; the slope at τ = 0 is b1.
+	return quadraticSlopeAt(t, x, lo, hi, t[i])
 }
 
 func det3(a [3][3]float64) float64 {
