@@ -28,6 +28,10 @@ type Figure struct {
 	// Title and Caption are shown with the figure in report.html.
 	Title, Caption string
 	PNG, SVG       []byte
+	// Section is the id of the page section the figure belongs to: "" for
+	// the figures of the crest speeds, "breaking" for the whitecap and
+	// breaking-inception figures.
+	Section string
 }
 
 // FigureDPI is the resolution of the PNG figures.
@@ -158,6 +162,9 @@ type figureInput struct {
 	t0               float64 // time origin of the record, s
 	highest          int
 	ratioLo, ratioHi float64 // display range of the ratios
+	// breaking holds the whitecap and inception inputs of the "Whitecaps
+	// and breaking" figures, and receives what they computed.
+	breaking *breakingInput
 }
 
 // classLabel names a steepness class.
@@ -228,15 +235,40 @@ func xyLine(xs, ys []float64, c color.Color, width float64, dashes ...vg.Length)
 	return l, nil
 }
 
-// pdfFigure draws the PDFs of one ratio by steepness class (figures 1
-// and 2).
+// pdfStyle is what differs between the ratio PDF figures: the axis label,
+// the names of the sample and of its independent units, the reference
+// line's label, the class-label prefix and the display range.
+type pdfStyle struct {
+	xLabel      string
+	allNoun     string // "all crests"
+	unitNoun    string // "tracks"
+	refLabel    string // "c_cr = c_p"
+	classPrefix string // put before the class label, e.g. "parent "
+	lo, hi      float64
+}
+
+// pdfFigure draws the PDFs of one crest-speed ratio by steepness class
+// (figures 1 and 2).
 func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.Canvas), error) {
+	return in.ratioPDF(rd, pdfStyle{
+		xLabel:   fmt.Sprintf("crest speed ratio c_cr/%s (dimensionless)", sym),
+		allNoun:  "all crests",
+		unitNoun: "tracks",
+		refLabel: fmt.Sprintf("c_cr = %s", sym),
+		lo:       in.ratioLo, hi: in.ratioHi,
+	})
+}
+
+// ratioPDF draws the PDFs of a ratio by steepness class: the
+// normalised histogram of the whole sample, its kernel density curve and
+// one kernel density curve per class, with the ratio 1 marked.
+func (in *figureInput) ratioPDF(rd RatioDistributions, st pdfStyle) (func(draw.Canvas), error) {
 	p := newPlot()
-	p.X.Label.Text = fmt.Sprintf("crest speed ratio c_cr/%s (dimensionless)", sym)
+	p.X.Label.Text = st.xLabel
 	p.Y.Label.Text = "probability density (per unit ratio)"
-	lo, hi := in.ratioLo, in.ratioHi
+	lo, hi := st.lo, st.hi
 	ymax := 0.0
-	// histogram of all crests
+	// histogram of the whole sample
 	if h := rd.All.Hist; len(h.Counts) > 0 {
 		hist := &plotter.Histogram{Width: h.Width(), FillColor: lightGrey}
 		hist.LineStyle = draw.LineStyle{Color: color.Gray{0xc4}, Width: vg.Points(0.3)}
@@ -249,7 +281,7 @@ func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.C
 		}
 		if len(hist.Bins) > 0 {
 			p.Add(hist)
-			p.Legend.Add(fmt.Sprintf("all crests, histogram (%s bins)", h.Rule), hist)
+			p.Legend.Add(fmt.Sprintf("%s, histogram (%s bins)", st.allNoun, h.Rule), hist)
 		}
 	}
 	curve := func(c Curve, col color.Color, width float64, label string, dashes ...vg.Length) error {
@@ -269,11 +301,11 @@ func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.C
 		p.Legend.Add(label, l)
 		return nil
 	}
-	if err := curve(rd.All.PDF, black, 1.2, fmt.Sprintf("all crests, KDE (n = %d, %d tracks)", rd.All.Stats.N, rd.All.Stats.Tracks), vg.Points(4), vg.Points(2.5)); err != nil {
+	if err := curve(rd.All.PDF, black, 1.2, fmt.Sprintf("%s, KDE (n = %d, %d %s)", st.allNoun, rd.All.Stats.N, rd.All.Stats.Tracks, st.unitNoun), vg.Points(4), vg.Points(2.5)); err != nil {
 		return nil, err
 	}
 	for k, d := range rd.Classes {
-		label := fmt.Sprintf("%s (n = %d, %d tracks)", classLabel(in.bounds[k][0], in.bounds[k][1]), d.Stats.N, d.Stats.Tracks)
+		label := fmt.Sprintf("%s%s (n = %d, %d %s)", st.classPrefix, classLabel(in.bounds[k][0], in.bounds[k][1]), d.Stats.N, d.Stats.Tracks, st.unitNoun)
 		if len(d.PDF.X) == 0 {
 			continue
 		}
@@ -289,7 +321,7 @@ func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.C
 		return nil, err
 	}
 	p.Add(ref)
-	p.Legend.Add(fmt.Sprintf("c_cr = %s", sym), ref)
+	p.Legend.Add(st.refLabel, ref)
 	p.X.Min, p.X.Max = lo, hi
 	p.Y.Min, p.Y.Max = 0, 1.45*ymax // headroom for the legend
 	p.Legend.Top = true
@@ -715,7 +747,8 @@ func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
 	return func(dc draw.Canvas) { p.Draw(dc) }, stride, nil
 }
 
-// makeFigures draws the six figures of the report.
+// makeFigures draws the six figures of the crest speeds, then those of
+// the whitecaps and breaking inception that the data allow.
 func (in *figureInput) makeFigures() ([]Figure, error) {
 	in.ratioLo, in.ratioHi = displayRange(in.peak, in.local)
 	W, H := vg.Inch*7, vg.Inch*4.2
@@ -801,6 +834,13 @@ func (in *figureInput) makeFigures() ([]Figure, error) {
 		"Crest speed ratio c_cr/c_p of every crest row against its local steepness S_c, coloured by steepness class; "+
 			"dashed vertical lines: class boundaries; dotted: c_cr = c_p. "+thin+" The vertical range is that of figure 1.", W, H, fn); err != nil {
 		return nil, err
+	}
+	if in.breaking != nil {
+		more, err := in.breakingFigures(len(figs) + 1)
+		if err != nil {
+			return nil, err
+		}
+		figs = append(figs, more...)
 	}
 	return figs, nil
 }

@@ -86,6 +86,7 @@ type htmlData struct {
 	Config                              string
 	FewTracks                           int
 	Level                               int
+	Breaking                            *htmlBreaking
 }
 
 // renderHTML writes report.html.
@@ -225,14 +226,20 @@ func renderHTML(sum *Summary, d *Deployment, res *Result, bounds []float64, B in
 		sym(fmt.Sprintf("Classes with fewer than %d tracks are marked ◦ in the tables; read them as indications only.", FewTracks)),
 	}
 
+	hd.Glance = append(hd.Glance, breakingGlance(sum)...)
+
 	// figures
 	for _, f := range res.Figures {
+		if f.Section != "" {
+			continue
+		}
 		hd.Figures = append(hd.Figures, htmlFigure{
 			ID: f.Name, Title: sym(f.Title), Caption: sym(f.Caption),
 			Src: template.URL("data:image/png;base64," + base64.StdEncoding.EncodeToString(f.PNG)),
 			PNG: "figures/" + f.Name + ".png", SVG: "figures/" + f.Name + ".svg",
 		})
 	}
+	hd.Breaking = breakingSection(sum, res, bounds)
 
 	// method
 	window := "T<sub>p</sub>/4"
@@ -268,6 +275,9 @@ func renderHTML(sum *Summary, d *Deployment, res *Result, bounds []float64, B in
 		"Silverman, B. W. (1986). <i>Density Estimation for Statistics and Data Analysis</i>. Chapman &amp; Hall.",
 		"Welch, P. D. (1967). The use of fast Fourier transform for the estimation of power spectra. <i>IEEE Transactions on Audio and Electroacoustics</i> 15, 70–73.",
 		"Eaton, B. et al. NetCDF Climate and Forecast (CF) Metadata Conventions, version 1.8 (2020).",
+	}
+	if sum.Whitecaps != nil || sum.Inception != nil {
+		hd.References = append(hd.References, breakingReferences...)
 	}
 
 	// provenance
@@ -370,6 +380,9 @@ pre { background: var(--band); padding: .6rem .8rem; font-size: .78rem; overflow
 code, .path { font-family: "Liberation Mono", "DejaVu Sans Mono", monospace; font-size: .85rem; overflow-wrap: anywhere; }
 table.stats td:first-child { white-space: nowrap; }
 table.stats th, table.stats td { padding: .28rem .42rem; font-size: .86rem; }
+table.kv td.note { font-size: .82rem; }
+table.confusion { min-width: 28rem; }
+table.confusion td:first-child { white-space: nowrap; }
 footer { margin-top: 2.5rem; color: var(--muted); font-size: .85rem; border-top: 1px solid var(--rule); padding-top: .6rem; }
 @media print {
   html { font-size: 10.5pt; }
@@ -441,6 +454,7 @@ footer { margin-top: 2.5rem; color: var(--muted); font-size: .85rem; border-top:
 </figure>
 {{end}}</section>
 
+{{template "breaking" .Breaking}}
 <section id="method">
 <h2>Method</h2>
 <dl class="method">

@@ -119,6 +119,9 @@ func ReadSummary(path string) (*Summary, error) {
 	if aux.Masked != nil {
 		s.Masked = *aux.Masked
 	}
+	if err := restoreNaNs(b, &s); err != nil {
+		return nil, fmt.Errorf("%s is not a crestspeed summary (%v); regenerate it with \"crestspeed track\"", path, err)
+	}
 	if s.Tool["name"] != "crestspeed" {
 		return nil, fmt.Errorf("%s was not written by crestspeed (no tool name); regenerate it with \"crestspeed track\"", path)
 	}
@@ -161,17 +164,22 @@ func (s *Summary) SteepnessBounds() ([]float64, error) {
 }
 
 // Deployment is everything a report is built from: the crest table, the
-// summary of the tracking run and the record's spectrum.
+// summary of the tracking run, the record's spectrum and, when the record
+// had a foam mask, the whitecap files.
 type Deployment struct {
 	Crests   *CrestTable
 	Summary  *Summary
 	Spectrum Spectrum
+	// Whitecaps holds whitecaps.csv, lambda.csv and coverage.csv; nil when
+	// the summary has no whitecaps block (no foam mask analysed).
+	Whitecaps *WhitecapFiles
 	// TracksDir is the folder the crest files came from.
 	TracksDir string
 }
 
 // LoadDeployment reads crests.csv, summary.json and spectrum.csv from a
-// folder written by "crestspeed track".
+// folder written by "crestspeed track", and whitecaps.csv, lambda.csv and
+// coverage.csv when summary.json has whitecap results.
 func LoadDeployment(dir string) (*Deployment, error) {
 	fi, err := os.Stat(dir)
 	if err != nil {
@@ -204,7 +212,13 @@ func LoadDeployment(dir string) (*Deployment, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &Deployment{Crests: tab, Summary: sum, Spectrum: sp, TracksDir: dir}, nil
+	d := &Deployment{Crests: tab, Summary: sum, Spectrum: sp, TracksDir: dir}
+	if sum.Whitecaps != nil {
+		if d.Whitecaps, err = loadWhitecapFiles(dir, sum.Whitecaps); err != nil {
+			return nil, err
+		}
+	}
+	return d, nil
 }
 
 // DeploymentFromRecord makes the report input from an analysed record and
@@ -217,5 +231,6 @@ func DeploymentFromRecord(rec *speed.Record, sum *Summary, tracksDir string) *De
 		Summary:   &s,
 		Spectrum:  Spectrum{Freq: append([]float64(nil), rec.SeaState.Freqs...), PSD: append([]float64(nil), rec.SeaState.PSD...)},
 		TracksDir: tracksDir,
+		Whitecaps: WhitecapFilesFromResult(rec.Whitecaps),
 	}
 }

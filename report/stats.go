@@ -19,8 +19,8 @@
 // intervals. Rows of one crest track are correlated, so the bootstrap
 // resamples whole tracks (BootstrapTracks).
 //
-// WriteReport writes report.html (self-contained), the six figures as PNG
-// and SVG, the crest tracks as CF-1.8 trajectories (crest_tracks.nc) and
+// WriteReport writes report.html (self-contained), the figures as PNG and
+// SVG (six on crest speeds, up to four on whitecaps and breaking), the crest tracks as CF-1.8 trajectories (crest_tracks.nc) and
 // summary.json with the intervals and the path of every output; all files
 // appear together or not at all.
 package report

@@ -308,6 +308,11 @@ func (a *atomicSet) write(dir, name string, fill func(*os.File) error) error {
 
 func (a *atomicSet) commit() error {
 	for i := range a.tmp {
+		// CreateTemp makes files readable by their owner only; outputs are
+		// for everybody who can read the folder.
+		if err := os.Chmod(a.tmp[i], 0o644); err != nil {
+			return fmt.Errorf("cannot write %s: %v", a.final[i], err)
+		}
 		if err := os.Rename(a.tmp[i], a.final[i]); err != nil {
 			return fmt.Errorf("cannot write %s: %v", a.final[i], err)
 		}

@@ -38,7 +38,7 @@ func WriteWhitecapsCSV(w io.Writer, rows []speed.WhitecapRow) error {
 // WriteLambdaCSV writes the Phillips Λ(c) bins.
 func WriteLambdaCSV(w io.Writer, b speed.BreakingStats) error {
 	bw := bufio.NewWriter(w)
-	bw.WriteString("speed_min_mps,speed_max_mps,lambda_m-2_s,front_samples,front_length_m\n")
+	bw.WriteString(joinCSV(LambdaColumns))
 	for _, x := range b.Bins {
 		bw.WriteString(joinCSV([]string{num(x.CLow), num(x.CHigh), num(x.Lambda), strconv.Itoa(x.Fronts), num(x.Length)}))
 	}
@@ -48,7 +48,7 @@ func WriteLambdaCSV(w io.Writer, b speed.BreakingStats) error {
 // WriteCoverageCSV writes the whitecap coverage W(t).
 func WriteCoverageCSV(w io.Writer, rows []speed.CoverageRow) error {
 	bw := bufio.NewWriter(w)
-	bw.WriteString("time_s,frame,coverage,foam_cells,valid_cells,area_m2\n")
+	bw.WriteString(joinCSV(CoverageColumns))
 	for _, r := range rows {
 		bw.WriteString(joinCSV([]string{num(r.Time), strconv.Itoa(r.Frame), num(r.Coverage),
 			strconv.Itoa(r.FoamCells), strconv.Itoa(r.ValidCells), num(r.Area)}))

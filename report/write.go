@@ -62,13 +62,17 @@ type Result struct {
 	Summary     *Summary
 	Peak, Local RatioDistributions
 	Figures     []Figure
+	// Breaking is what the "Whitecaps and breaking" section computed; nil
+	// when the deployment has neither whitecap results nor B_x.
+	Breaking *BreakingResult
 	// HTML is the path of report.html.
 	HTML string
 }
 
 // WriteReport builds the deployment report from d into dir: report.html
 // (self-contained: figures embedded, no scripts, fonts or styles from
-// elsewhere), figures/*.png and *.svg, crest_tracks.nc (CF-1.8
+// elsewhere; with a "Whitecaps and breaking" section when d has whitecap
+// results or B_x), figures/*.png and *.svg, crest_tracks.nc (CF-1.8
 // trajectories) and summary.json (the summary of the tracking run with
 // the statistics recomputed from the crest table, their bootstrap
 // confidence intervals, the report's timings and the path of every
@@ -121,11 +125,20 @@ func WriteReport(dir string, d *Deployment, opt Options) (*Result, error) {
 	}
 	fin := &figureInput{tab: d.Crests, peak: res.Peak, local: res.Local, bounds: ClassBounds(bounds),
 		spectrum: d.Spectrum, sea: d.Summary.SeaState, t0: t00, highest: opt.HighestCrests}
+	if d.Whitecaps != nil || d.Summary.Whitecaps != nil || d.Summary.Inception != nil {
+		if d.Whitecaps != nil && d.Summary.Whitecaps == nil {
+			return nil, fmt.Errorf("the deployment from %s has whitecap files but its summary has no whitecaps block; rerun \"crestspeed track\"", d.TracksDir)
+		}
+		fin.breaking = &breakingInput{wc: d.Whitecaps, ws: d.Summary.Whitecaps, inc: d.Summary.Inception}
+	}
 	figs, err := fin.makeFigures()
 	if err != nil {
 		return nil, err
 	}
 	res.Figures = figs
+	if fin.breaking != nil {
+		res.Breaking = &fin.breaking.out
+	}
 	timings["report: figures"] = time.Since(t0).Seconds()
 
 	var st staged
@@ -169,6 +182,10 @@ func WriteReport(dir string, d *Deployment, opt Options) (*Result, error) {
 	sum.Method["confidence_intervals"] = fmt.Sprintf("bootstrap percentile intervals at %.0f %%, resampling whole crest tracks with replacement (Efron & Tibshirani 1993)", 100*CILevel)
 	sum.Method["bootstrap_resamples"] = B
 	sum.Method["bootstrap_seed"] = opt.Bootstrap.Seed
+	if res.Breaking != nil && !math.IsNaN(res.Breaking.Reference.Amplitude) {
+		sum.Method["lambda_reference_line"] = "Lambda = A c^-6 (Phillips 1985) drawn for comparison: only A fitted, by least squares on log Lambda over the bins above the peak of Lambda; the exponent is not fitted"
+		sum.Method["lambda_reference_amplitude_m4_per_s5"] = res.Breaking.Reference.Amplitude
+	}
 	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
 	for _, name := range TrackOutputs {
 		if _, ok := sum.Outputs[name]; !ok {

@@ -33,9 +33,11 @@ func newReportCmd(app *App) *cobra.Command {
 		Use:   "report --tracks DIR [--out DIR]",
 		Short: "Write the deployment report from the files of a tracking run",
 		Long: `Rebuild the deployment report from the files "crestspeed track" wrote
-(crests.csv, summary.json, spectrum.csv): crest-speed ratio statistics per
-steepness class with bootstrap confidence intervals (resampling whole
-tracks), six figures (PNG and SVG), a self-contained report.html, the crest
+(crests.csv, summary.json, spectrum.csv, and whitecaps.csv, lambda.csv and
+coverage.csv when the record had a foam mask): crest-speed ratio statistics
+per steepness class with bootstrap confidence intervals (resampling whole
+tracks), the figures (PNG and SVG) — crest speeds, and whitecaps and the
+breaking-inception index when present — a self-contained report.html, the crest
 tracks as CF-1.8 trajectories (crest_tracks.nc) and summary.json with the
 intervals and the path of every output.
 
