@@ -27,15 +27,16 @@ var configTemplate string
 
 // Config is the resolved configuration of a run. Keys are the yaml tags.
 type Config struct {
-	Out        string           `yaml:"out"`
-	Workers    int              `yaml:"workers"`
-	Quiet      bool             `yaml:"quiet"`
-	Force      bool             `yaml:"force"`
-	Synthesize SynthesizeConfig `yaml:"synthesize"`
-	Track      TrackConfig      `yaml:"track"`
-	Report     ReportConfig     `yaml:"report"` // defined in report.go
-	Demo       DemoConfig       `yaml:"demo"`
-	Calibrate  CalibrateConfig  `yaml:"calibrate"` // defined in calibrate.go
+	Out         string            `yaml:"out"`
+	Workers     int               `yaml:"workers"`
+	Quiet       bool              `yaml:"quiet"`
+	Force       bool              `yaml:"force"`
+	Synthesize  SynthesizeConfig  `yaml:"synthesize"`
+	Track       TrackConfig       `yaml:"track"`
+	Report      ReportConfig      `yaml:"report"` // defined in report.go
+	Demo        DemoConfig        `yaml:"demo"`
+	Calibrate   CalibrateConfig   `yaml:"calibrate"`   // defined in calibrate.go
+	Reconstruct ReconstructConfig `yaml:"reconstruct"` // defined in reconstruct.go
 	// Extra holds the sections of verbs that register themselves from
 	// their own files (calibration, reconstruction, ...).
 	Extra map[string]any `yaml:",remain"`

@@ -1,0 +1,323 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"path/filepath"
+	"sort"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"crestspeed/calib"
+	"crestspeed/ingest"
+	"crestspeed/surface"
+)
+
+// ReconstructConfig configures "crestspeed reconstruct".
+type ReconstructConfig struct {
+	Rig              string           `yaml:"rig"`        // rig file
+	Left             string           `yaml:"left"`       // glob of the left images
+	Right            string           `yaml:"right"`      // glob of the right images
+	Frames           string           `yaml:"frames"`     // record folder (instead of left/right)
+	Timestamps       string           `yaml:"timestamps"` // timestamps file
+	FPS              float64          `yaml:"fps"`        // time base for bare frame numbers
+	StartUTC         string           `yaml:"start_utc"`  // instant of time 0 in the output
+	DepthM           float64          `yaml:"depth_m"`    // water depth written to the output
+	RectifyAlpha     float64          `yaml:"rectify_alpha"`
+	ElevationMarginM float64          `yaml:"elevation_margin_m"`
+	PlanePrewarp     bool             `yaml:"plane_prewarp"`
+	MaxRangeM        float64          `yaml:"max_range_m"`
+	MinPoints        int              `yaml:"min_points"`
+	MaxAbsElevationM float64          `yaml:"max_abs_elevation_m"`
+	MinFrameCoverage float64          `yaml:"min_frame_coverage"`
+	Deflate          int              `yaml:"deflate"`
+	SGBM             ReconstructSGBM  `yaml:"sgbm"`
+	Grid             ReconstructGrid  `yaml:"grid"`
+	Plane            ReconstructPlane `yaml:"plane"`
+}
+
+// ReconstructSGBM holds the semi-global matcher's settings.
+type ReconstructSGBM struct {
+	MinDisparity    int     `yaml:"min_disparity"`
+	NumDisparities  int     `yaml:"num_disparities"`
+	BlockSize       int     `yaml:"block_size"`
+	P1              int     `yaml:"p1"`
+	P2              int     `yaml:"p2"`
+	Disp12MaxDiff   int     `yaml:"disp12_max_diff"`
+	PreFilterCap    int     `yaml:"pre_filter_cap"`
+	UniquenessRatio int     `yaml:"uniqueness_ratio"`
+	SpeckleWindowPx int     `yaml:"speckle_window_px"`
+	SpeckleRangePx  int     `yaml:"speckle_range_px"`
+	Mode            string  `yaml:"mode"`
+	LRCheck         bool    `yaml:"lr_check"`
+	LRMaxDiffPx     float64 `yaml:"lr_max_diff_px"`
+}
+
+// ReconstructGrid holds the output grid settings; absent bounds mean the
+// automatic rectangle and dx_m 0 the automatic spacing.
+type ReconstructGrid struct {
+	X0M       *float64 `yaml:"x0_m"`
+	X1M       *float64 `yaml:"x1_m"`
+	Y0M       *float64 `yaml:"y0_m"`
+	Y1M       *float64 `yaml:"y1_m"`
+	DxM       float64  `yaml:"dx_m"`
+	Coverage  float64  `yaml:"coverage"`
+	GSDFactor float64  `yaml:"gsd_factor"`
+}
+
+// ReconstructPlane holds the mean-sea-plane fit settings.
+type ReconstructPlane struct {
+	Frames           int     `yaml:"frames"`
+	SpanS            float64 `yaml:"span_s"`
+	RansacIterations int     `yaml:"ransac_iterations"`
+	RansacThresholdM float64 `yaml:"ransac_threshold_m"`
+	PixelStride      int     `yaml:"pixel_stride"`
+	Seed             uint64  `yaml:"seed"`
+	Refit            bool    `yaml:"refit"`
+}
+
+func init() { extraCommands = append(extraCommands, newReconstructCmd) }
+
+// planeSpanCaution is the shortest span of fitted pairs, seconds, below
+// which the fitted sea plane is flagged: several periods of the waves
+// (common practice), 30 s covering at least three of most wind seas.
+const planeSpanCaution = 30
+
+func newReconstructCmd(app *App) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "reconstruct --rig rig.yaml (--left GLOB --right GLOB | --frames DIR) --out maps.nc",
+		Short: "Reconstruct sea-surface elevation maps from stereo image pairs",
+		Long: `Reconstruct gridded sea-surface elevation maps η(t, y, x) from a record of
+synchronised stereo image pairs and the rig file of the cameras, and write them
+as an elevation-map NetCDF file (CF-1.8), with the number of stereo points per
+cell in OUT-points.nc beside it.
+
+Each pair is rectified, matched by OpenCV's semi-global block matcher (with a
+left-right consistency check), reprojected to 3-D, put in the world frame of
+the mean sea plane (z up from the plane, x along the left camera's horizontal
+view direction, origin below the left camera) and binned on the grid: the
+mean elevation of the points in a cell with at least min_points of them, NaN
+elsewhere.
+
+When the rig file has no sea plane, the plane is fitted (RANSAC and least
+squares) to the points of plane.frames pairs spread over the first
+plane.span_s seconds, and the rig with its plane is written to OUT-rig.yaml.
+Without grid bounds the grid is the largest rectangle along the world x axis
+well covered by both cameras in those pairs, at a spacing chosen from the
+ground footprint of a pixel at the far edge; it is printed and stored in the
+output's attributes.
+
+Pairs are matched by the times or frame numbers in their names, or by a
+timestamps file (frame,time_s,left,right); when names carry bare frame numbers
+and there is no timestamps file, --fps sets the time base. Pairs that cannot
+be used are skipped and listed with their reasons.`,
+		Args: func(cmd *cobra.Command, args []string) error {
+			if len(args) > 0 {
+				return usageError{fmt.Errorf("reconstruct takes no file arguments but got %d (%s ...); quote the --left and --right patterns so that the shell does not expand them", len(args), args[0])}
+			}
+			return nil
+		},
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return app.reconstruct(cmd)
+		},
+	}
+	f := cmd.Flags()
+	f.String("rig", "", "rig file from \"crestspeed calibrate\"")
+	f.String("left", "", "glob of the left images (quote it), e.g. \"run1/left_*.png\"")
+	f.String("right", "", "glob of the right images (quote it)")
+	f.String("frames", "", "record folder with left_*/right_* images or left/ and right/ subfolders")
+	f.String("timestamps", "", "timestamps file (CSV: frame,time_s,left,right)")
+	f.Float64("fps", 0, "frame rate (Hz) for names that carry bare frame numbers")
+	f.String("start", "", "UTC instant of time 0 (RFC 3339), for the output's time units")
+	f.Float64("x0", 0, "grid: x of the first cell centre (m); give x0, x1, y0, y1 together")
+	f.Float64("x1", 0, "grid: x of the last cell centre (m)")
+	f.Float64("y0", 0, "grid: y of the first cell centre (m)")
+	f.Float64("y1", 0, "grid: y of the last cell centre (m)")
+	f.Float64("dx", 0, "grid spacing (m); 0 = from the ground sampling distance")
+	f.Int("min-points", 0, "fewest stereo points for a cell's elevation")
+	f.Int("plane-frames", 0, "pairs fitted for the mean sea plane")
+	f.Bool("refit-plane", false, "fit the mean sea plane even when the rig file has one")
+	f.Float64("max-range", 0, "drop points beyond this horizontal range (m); 0 = no limit")
+	for flag, key := range map[string]string{
+		"rig": "reconstruct.rig", "left": "reconstruct.left", "right": "reconstruct.right",
+		"frames": "reconstruct.frames", "timestamps": "reconstruct.timestamps", "fps": "reconstruct.fps",
+		"start": "reconstruct.start_utc",
+		"x0":    "reconstruct.grid.x0_m", "x1": "reconstruct.grid.x1_m",
+		"y0": "reconstruct.grid.y0_m", "y1": "reconstruct.grid.y1_m", "dx": "reconstruct.grid.dx_m",
+		"min-points": "reconstruct.min_points", "plane-frames": "reconstruct.plane.frames",
+		"refit-plane": "reconstruct.plane.refit", "max-range": "reconstruct.max_range_m",
+	} {
+		bindFlag(app, cmd, flag, key)
+	}
+	return cmd
+}
+
+// reconstructOutputs names the files written beside the elevation maps.
+func reconstructOutputs(out string) (points, rig string) {
+	stem := strings.TrimSuffix(out, filepath.Ext(out))
+	return stem + "-points.nc", stem + "-rig.yaml"
+}
+
+// surfaceOptions turns the configuration into surface.Options.
+func (c ReconstructConfig) surfaceOptions(workers int) surface.Options {
+	o := surface.DefaultOptions()
+	s := c.SGBM
+	o.Matcher = surface.Matcher{
+		MinDisparity: s.MinDisparity, NumDisparities: s.NumDisparities, BlockSize: s.BlockSize,
+		P1: s.P1, P2: s.P2, Disp12MaxDiff: s.Disp12MaxDiff, PreFilterCap: s.PreFilterCap,
+		UniquenessRatio: s.UniquenessRatio, SpeckleWindowSize: s.SpeckleWindowPx, SpeckleRange: s.SpeckleRangePx,
+		Mode: s.Mode, LRCheck: s.LRCheck, LRMaxDiffPx: s.LRMaxDiffPx,
+	}
+	p := c.Plane
+	o.Plane = surface.PlaneOptions{
+		Frames: p.Frames, SpanS: p.SpanS, Iterations: p.RansacIterations, ThresholdM: p.RansacThresholdM,
+		Stride: p.PixelStride, Seed: p.Seed, Refit: p.Refit,
+	}
+	g := c.Grid
+	o.Grid = surface.GridSpec{X0: g.X0M, X1: g.X1M, Y0: g.Y0M, Y1: g.Y1M, D: g.DxM, Coverage: g.Coverage, GSDFactor: g.GSDFactor}
+	o.RectifyAlpha = c.RectifyAlpha
+	o.ElevationMarginM = c.ElevationMarginM
+	o.Prewarp = c.PlanePrewarp
+	o.MaxRangeM = c.MaxRangeM
+	o.MinPoints = c.MinPoints
+	o.MaxAbsElevationM = c.MaxAbsElevationM
+	o.MinFrameCoverage = c.MinFrameCoverage
+	o.Workers = workers
+	return o
+}
+
+func (app *App) reconstruct(cmd *cobra.Command) error {
+	cfg := app.cfg.Reconstruct
+	out := app.cfg.Out
+	switch {
+	case out == "":
+		return usageError{fmt.Errorf("give the elevation-map file to write with --out, like --out maps.nc")}
+	case strings.ToLower(filepath.Ext(out)) != ".nc":
+		return usageError{fmt.Errorf("elevation-map file %s should end in .nc", out)}
+	case cfg.Rig == "":
+		return usageError{fmt.Errorf("give the rig file with --rig (reconstruct.rig); make one with \"crestspeed calibrate\"")}
+	case cfg.Frames == "" && cfg.Left == "" && cfg.Right == "" && cfg.Timestamps == "":
+		return usageError{fmt.Errorf("give the images with --left and --right patterns or a record folder with --frames")}
+	case cfg.Frames != "" && (cfg.Left != "" || cfg.Right != ""):
+		return usageError{fmt.Errorf("give either --frames or --left and --right, not both")}
+	}
+	units := ingest.DefaultTimeUnits
+	if cfg.StartUTC != "" {
+		st, err := time.Parse(time.RFC3339, cfg.StartUTC)
+		if err != nil {
+			return usageError{fmt.Errorf("--start (reconstruct.start_utc) %q is not an RFC 3339 instant like 2026-06-14T09:00:00Z", cfg.StartUTC)}
+		}
+		units = "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z")
+	}
+	opt := cfg.surfaceOptions(app.cfg.Workers)
+	if err := opt.Validate(); err != nil {
+		return usageError{fmt.Errorf("reconstruct settings: %v", err)}
+	}
+	rig, err := calib.LoadRig(cfg.Rig)
+	if err != nil {
+		return err
+	}
+	pointsPath, rigPath := reconstructOutputs(out)
+	outputs := []string{out, pointsPath}
+	fitPlane := rig.SeaPlane == nil || cfg.Plane.Refit
+	if fitPlane {
+		outputs = append(outputs, rigPath)
+	}
+	for _, p := range outputs {
+		if err := refuseOverwrite(p, app.cfg.Force); err != nil {
+			return err
+		}
+	}
+	spec := ingest.PairSpec{Dir: cfg.Frames, LeftGlob: cfg.Left, RightGlob: cfg.Right, TimestampsFile: cfg.Timestamps, FPS: cfg.FPS}
+	first, err := ingest.OpenPairs(spec)
+	if err != nil {
+		return usageError{err}
+	}
+	total := first.Len()
+	first.Close()
+	open := func() (ingest.StereoSource, error) { return ingest.OpenPairs(spec) }
+
+	t0 := time.Now()
+	app.logf("reconstruct: %d image pairs, rig %s (%d×%d px, baseline %.3f m), %d workers", total, cfg.Rig, rig.Size.X, rig.Size.Y, rig.Baseline(), app.cfg.Workers)
+	var pr *progress
+	var prName string
+	opt.Progress = func(pass string, done, n int) {
+		if pass != prName {
+			if pr != nil {
+				pr.done()
+			}
+			pr, prName = app.newProgress(pass, n), pass
+		}
+		pr.set(done, n)
+	}
+	sink := &surface.FileSink{Path: out, PointsPath: pointsPath, Options: ingest.WriteOptions{
+		Deflate: cfg.Deflate, TimeUnits: units, DepthM: cfg.DepthM,
+		Attrs: map[string]string{"rig_file": cfg.Rig},
+	}}
+	res, err := surface.Run(cmd.Context(), rig, open, opt, sink)
+	if pr != nil {
+		pr.done()
+	}
+	if err != nil {
+		sink.Abort()
+		var se *surface.SizeError
+		if errors.As(err, &se) {
+			return fmt.Errorf("the frames are %d×%d px (first pair %s) but rig file %s describes %d×%d px cameras; give the rig file of the cameras that took these frames",
+				se.Got.X, se.Got.Y, se.Path, cfg.Rig, se.Want.X, se.Want.Y)
+		}
+		return err
+	}
+	s := res.Setup
+	if err := sink.Commit(); err != nil {
+		return err
+	}
+	p := s.Rig.SeaPlane
+	if s.PlaneFit != nil {
+		app.logf("reconstruct: mean sea plane fitted to %d points of %d pairs: camera %.3f m above it, %d inliers within %g m, RMS %.3f m",
+			s.PlaneFit.Points, s.PlanePairs, p.OffsetM, s.PlaneFit.Inliers, opt.Plane.ThresholdM, s.PlaneFit.RMSM)
+		if s.PlaneFit.SpanS < planeSpanCaution {
+			app.logf("reconstruct: caution: the plane was fitted to pairs spanning only %.1f s, too short for the waves to average out, so the plane and the mean level of the maps may be off by a fraction of Hs; fit over a longer record (plane.span_s) or give the plane in the rig file", s.PlaneFit.SpanS)
+		}
+		if err := s.Rig.Save(rigPath); err != nil {
+			return err
+		}
+	} else {
+		app.logf("reconstruct: mean sea plane from the rig file: camera %.3f m above it", p.OffsetM)
+	}
+	g := s.Grid
+	app.logf("reconstruct: grid x %.2f–%.2f m, y %.2f–%.2f m, %d × %d cells of %g m (%s)",
+		g.X[0], g.X[len(g.X)-1], g.Y[0], g.Y[len(g.Y)-1], g.Nx(), g.Ny(), g.Dx(), s.GridNote)
+	app.logf("reconstruct: disparities %d to %d px%s; %d workers × %d OpenCV threads",
+		s.SGBM.MinDisparity, s.SGBM.MinDisparity+s.SGBM.NumDisparities-1, map[bool]string{true: " (residual about the sea plane's)", false: ""}[s.Prewarped],
+		s.Workers, s.OpenCVThreads)
+	for _, k := range sortedSkipReasons(res.Skipped) {
+		app.logf("reconstruct: skipped %d pairs: %s", res.Skipped[k], k)
+	}
+	tm := res.Times
+	if n := time.Duration(max(tm.Pairs, 1)); tm.Pairs > 0 {
+		app.logf("reconstruct: per pair (summed over workers): remap %s, matching %s, reprojection %s, gridding %s",
+			(tm.Remap / n).Round(time.Millisecond), (tm.Match / n).Round(time.Millisecond),
+			(tm.Reproject / n).Round(time.Millisecond), (tm.Grid / n).Round(time.Millisecond))
+	}
+	written := out + " and " + pointsPath
+	if s.PlaneFit != nil {
+		written = out + ", " + pointsPath + " and " + rigPath
+	}
+	app.logf("reconstruct: %d maps, %.0f %% of cells with elevations on average (lowest %.0f %%); wrote %s in %s",
+		res.Frames, 100*res.CoverageMean, 100*res.CoverageMin, written, elapsed(t0))
+	return nil
+}
+
+// sortedSkipReasons lists skip reasons in a fixed order.
+func sortedSkipReasons(c ingest.SkipCounts) []string {
+	keys := make([]string, 0, len(c))
+	for k, v := range c {
+		if v > 0 {
+			keys = append(keys, k)
+		}
+	}
+	sort.Strings(keys)
+	return keys
+}

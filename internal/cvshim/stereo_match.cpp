@@ -1,0 +1,244 @@
+// stereo_match.cpp: semi-global block matching, the left-right check and
+// reprojection to 3-D, behind the C interface of stereo_match.h. Every
+// function catches every exception and returns it as a malloc'd message;
+// the cv::Mat values made here are locals (RAII) or members of the matcher,
+// which cs_sgbm_free releases.
+
+#include "stereo_match.h"
+
+#include <cstdlib>
+#include <cstring>
+#include <limits>
+#include <exception>
+#include <stdexcept>
+#include <string>
+
+#include <opencv2/calib3d.hpp>
+#include <opencv2/core.hpp>
+#include <opencv2/ximgproc/disparity_filter.hpp>
+
+struct cs_sgbm {
+	cv::Ptr<cv::StereoSGBM> left;
+	cv::Ptr<cv::StereoMatcher> right;
+	cv::Mat dispRight;  // work buffer of the right view, reused
+	int minDisparity;
+	int numDisparities;
+};
+
+namespace {
+
+char *errorString(const std::string &msg) {
+	char *s = static_cast<char *>(std::malloc(msg.size() + 1));
+	if (s == nullptr) {
+		// Out of memory while reporting an error: NULL would read as
+		// success, so stop here rather than return garbage.
+		std::abort();
+	}
+	std::memcpy(s, msg.c_str(), msg.size() + 1);
+	return s;
+}
+
+// fail turns the exception being handled into an error string.
+char *fail(const char *what_call) {
+	try {
+		throw;
+	} catch (const cv::Exception &e) {
+		return errorString(std::string(what_call) + ": " + e.err + " (" + e.func + ")");
+	} catch (const std::exception &e) {
+		return errorString(std::string(what_call) + ": " + e.what());
+	} catch (...) {
+		return errorString(std::string(what_call) + ": unknown C++ exception");
+	}
+}
+
+cv::Mat &matRef(void *p, const char *name) {
+	if (p == nullptr) {
+		throw std::invalid_argument(std::string(name) + " Mat is null");
+	}
+	return *static_cast<cv::Mat *>(p);
+}
+
+void checkPair(const cv::Mat &l, const cv::Mat &r) {
+	if (l.empty() || r.empty()) {
+		throw std::invalid_argument("an input image is empty");
+	}
+	if (l.type() != CV_8UC1 || r.type() != CV_8UC1) {
+		throw std::invalid_argument("images must be 8-bit single-channel (grey)");
+	}
+	if (l.size() != r.size()) {
+		throw std::invalid_argument("left and right images differ in size");
+	}
+}
+
+}  // namespace
+
+extern "C" {
+
+char *cs_sgbm_new(cs_sgbm_params p, cs_sgbm **out) {
+	try {
+		if (out == nullptr) {
+			throw std::invalid_argument("no place for the matcher");
+		}
+		*out = nullptr;
+		cs_sgbm *m = new cs_sgbm();
+		try {
+			m->left = cv::StereoSGBM::create(p.min_disparity, p.num_disparities, p.block_size,
+			                                 p.p1, p.p2, p.disp12_max_diff, p.pre_filter_cap,
+			                                 p.uniqueness_ratio, p.speckle_window_size,
+			                                 p.speckle_range, p.mode);
+			m->right = cv::ximgproc::createRightMatcher(m->left);
+			m->minDisparity = p.min_disparity;
+			m->numDisparities = p.num_disparities;
+		} catch (...) {
+			delete m;
+			throw;
+		}
+		*out = m;
+		return nullptr;
+	} catch (...) {
+		return fail("cv::StereoSGBM::create");
+	}
+}
+
+char *cs_sgbm_free(cs_sgbm *m) {
+	try {
+		delete m;
+		return nullptr;
+	} catch (...) {
+		return fail("cs_sgbm_free");
+	}
+}
+
+char *cs_sgbm_compute(cs_sgbm *m, void *left, void *right, void *disp) {
+	try {
+		if (m == nullptr) {
+			throw std::invalid_argument("matcher is null");
+		}
+		cv::Mat &l = matRef(left, "left image"), &r = matRef(right, "right image");
+		cv::Mat &d = matRef(disp, "disparity");
+		checkPair(l, r);
+		m->left->compute(l, r, d);
+		return nullptr;
+	} catch (...) {
+		return fail("cv::StereoSGBM::compute");
+	}
+}
+
+char *cs_sgbm_compute_checked(cs_sgbm *m, void *left, void *right, void *disp, int max_diff16,
+                              int *valid_before, int *valid_after) {
+	try {
+		if (m == nullptr) {
+			throw std::invalid_argument("matcher is null");
+		}
+		if (max_diff16 < 0) {
+			throw std::invalid_argument("left-right tolerance is negative");
+		}
+		cv::Mat &l = matRef(left, "left image"), &r = matRef(right, "right image");
+		cv::Mat &d = matRef(disp, "disparity");
+		checkPair(l, r);
+		m->left->compute(l, r, d);
+		// The right view's matcher searches the mirrored range, so its
+		// disparities are the negated left-view disparities:
+		// right(x) ~ left(x - dR), dR in [-(min+num)+1, -min].
+		m->right->compute(r, l, m->dispRight);
+		if (d.type() != CV_16SC1 || m->dispRight.type() != CV_16SC1 || m->dispRight.size() != d.size()) {
+			throw std::runtime_error("StereoSGBM returned an unexpected disparity type");
+		}
+		const int invalidL = (m->minDisparity - 1) * 16;
+		const int minValidL = m->minDisparity * 16;
+		const int minValidR = (-(m->minDisparity + m->numDisparities) + 1) * 16;
+		const int cols = d.cols;
+		int before = 0, after = 0;
+		for (int y = 0; y < d.rows; y++) {
+			short *pl = d.ptr<short>(y);
+			const short *pr = m->dispRight.ptr<short>(y);
+			for (int x = 0; x < cols; x++) {
+				const int dl = pl[x];
+				if (dl < minValidL) {
+					continue;
+				}
+				before++;
+				// Nearest right-view pixel of the match, rounding half up.
+				const int xr = x - ((dl + 8) >> 4);
+				bool ok = xr >= 0 && xr < cols;
+				if (ok) {
+					const int dr = pr[xr];
+					ok = dr >= minValidR && std::abs(dl + dr) <= max_diff16;
+				}
+				if (ok) {
+					after++;
+				} else {
+					pl[x] = static_cast<short>(invalidL);
+				}
+			}
+		}
+		if (valid_before != nullptr) {
+			*valid_before = before;
+		}
+		if (valid_after != nullptr) {
+			*valid_after = after;
+		}
+		return nullptr;
+	} catch (...) {
+		return fail("cv::StereoSGBM::compute (left-right checked)");
+	}
+}
+
+char *cs_disparity_to_float(void *disp16, void *out, int min_raw, int max_raw) {
+	try {
+		cv::Mat &d = matRef(disp16, "disparity");
+		cv::Mat &o = matRef(out, "disparity in pixels");
+		if (d.empty() || d.type() != CV_16SC1) {
+			throw std::invalid_argument("disparity must be a non-empty CV_16SC1 Mat");
+		}
+		o.create(d.size(), CV_32FC1);
+		const float nan = std::numeric_limits<float>::quiet_NaN();
+		const float scale = 1.0f / 16;
+		for (int y = 0; y < d.rows; y++) {
+			const short *dp = d.ptr<short>(y);
+			float *op = o.ptr<float>(y);
+			for (int x = 0; x < d.cols; x++) {
+				const int raw = dp[x];
+				op[x] = (raw < min_raw || raw >= max_raw) ? nan : raw * scale;
+			}
+		}
+		return nullptr;
+	} catch (...) {
+		return fail("disparity conversion");
+	}
+}
+
+char *cs_reproject(void *disp, const double *Q, void *xyz) {
+	try {
+		cv::Mat &d = matRef(disp, "disparity");
+		cv::Mat &out = matRef(xyz, "3-D image");
+		if (Q == nullptr) {
+			throw std::invalid_argument("Q is null");
+		}
+		cv::Mat q = cv::Mat(4, 4, CV_64F, const_cast<double *>(Q)).clone();
+		cv::reprojectImageTo3D(d, out, q, false, CV_32F);
+		return nullptr;
+	} catch (...) {
+		return fail("cv::reprojectImageTo3D");
+	}
+}
+
+char *cs_set_num_threads(int n) {
+	try {
+		cv::setNumThreads(n);
+		return nullptr;
+	} catch (...) {
+		return fail("cv::setNumThreads");
+	}
+}
+
+char *cs_get_num_threads(int *n) {
+	try {
+		*n = cv::getNumThreads();
+		return nullptr;
+	} catch (...) {
+		return fail("cv::getNumThreads");
+	}
+}
+
+}  // extern "C"

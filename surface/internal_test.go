@@ -1,0 +1,286 @@
+package surface
+
+import (
+	"bytes"
+	"encoding/json"
+	"image"
+	"math"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"testing"
+
+	"crestspeed/calib"
+)
+
+// testRig is a 640×512 two-camera rig 2.5 m apart, slightly toed in and
+// with lens distortion, posed 13.5 m above the sea looking 30° down.
+func testRig() *calib.Rig {
+	c := math.Cos(3 * math.Pi / 180)
+	s := math.Sin(3 * math.Pi / 180)
+	// Right camera turned 3° toward the left one (about y), 2.5 m to the
+	// right of it.
+	R := [9]float64{c, 0, -s, 0, 1, 0, s, 0, c}
+	centre := [3]float64{2.5, 0.01, 0.05}
+	var T [3]float64
+	for i := 0; i < 3; i++ {
+		T[i] = -(R[3*i]*centre[0] + R[3*i+1]*centre[1] + R[3*i+2]*centre[2])
+	}
+	plane := calib.PlaneFromPose(13.5, 30, 0.5)
+	return &calib.Rig{
+		Size:  image.Pt(640, 512),
+		Left:  calib.Camera{Fx: 700, Fy: 700.5, Cx: 320.3, Cy: 255.1, K1: -0.1, K2: 0.05},
+		Right: calib.Camera{Fx: 698, Fy: 698.4, Cx: 318.9, Cy: 256.4, K1: -0.09, K2: 0.04},
+		R:     R, T: T, SeaPlane: &plane,
+	}
+}
+
+// pyRun runs a script with Debian's /usr/bin/python3 (numpy), giving it
+// the JSON of in as sys.argv[1] and decoding its output into out.
+func pyRun(t *testing.T, script string, in, out any) {
+	t.Helper()
+	dir := t.TempDir()
+	data, err := json.Marshal(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(dir, "in.json")
+	if err := os.WriteFile(p, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	cmd := exec.Command("/usr/bin/python3", "-c", script, p)
+	cmd.Stdout, cmd.Stderr = &stdout, &stderr
+	if err := cmd.Run(); err != nil {
+		t.Fatalf("/usr/bin/python3 with numpy is needed for this check (scripts/setup-deps installs it): %v\n%s", err, stderr.String())
+	}
+	if err := json.Unmarshal(stdout.Bytes(), out); err != nil {
+		t.Fatalf("python output cannot be read: %v\n%s", err, stdout.String())
+	}
+}
+
+// TestFitPlane: a plane recovered from noisy points with a third of gross
+// outliers, and its least-squares step against numpy's SVD on the same
+// inliers (reference: numpy.linalg.svd, the total-least-squares plane
+// being the right singular vector of the smallest singular value of the
+// centred points).
+func TestFitPlane(t *testing.T) {
+	truth := calib.PlaneFromPose(12, 25, 1.5)
+	w, err := truth.World()
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	var pts [][3]float32
+	const sigma = 0.2
+	for i := 0; i < 30000; i++ {
+		x, y := 10+60*rng.Float64(), -20+40*rng.Float64()
+		z := sigma * rng.NormFloat64()
+		if i%3 == 0 {
+			z = -30 + 60*rng.Float64() // gross mismatch
+		}
+		X := w.ToCamera([3]float64{x, y, z})
+		pts = append(pts, [3]float32{float32(X[0]), float32(X[1]), float32(X[2])})
+	}
+	fit, err := FitPlane(pts, 300, 1, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dot := 0.0
+	for i := 0; i < 3; i++ {
+		dot += fit.Plane.Normal[i] * truth.Normal[i]
+	}
+	ang := math.Acos(math.Min(1, dot)) * 180 / math.Pi
+	t.Logf("fitted normal %v offset %.4f (truth %v, %.4f): %.4f°; %d of %d inliers, RMS %.3f m",
+		fit.Plane.Normal, fit.Plane.OffsetM, truth.Normal, truth.OffsetM, ang, fit.Inliers, fit.Points, fit.RMSM)
+	// Standard errors of a least-squares plane through N = 20000 points of
+	// σ = 0.2 m spread uniformly over 60 m × 40 m (common practice:
+	// regression standard errors): slopes σ/(√N·L/√12) ≈ 8e-5 and 1.2e-4
+	// rad, about 0.008° together; height at the centroid σ/√N ≈ 1.4 mm,
+	// and at the camera's foot, 40 m away, about 6 mm. Bounds at five
+	// standard errors.
+	if ang > 0.05 || math.Abs(fit.Plane.OffsetM-truth.OffsetM) > 0.03 {
+		t.Errorf("plane off by %.4f° and %.4f m", ang, fit.Plane.OffsetM-truth.OffsetM)
+	}
+	if fit.Plane.OffsetM < 0 {
+		t.Error("plane normal does not point toward the camera")
+	}
+	// The final least-squares plane against numpy on its own inliers.
+	var in [][3]float64
+	for _, p := range pts {
+		X := [3]float64{float64(p[0]), float64(p[1]), float64(p[2])}
+		if math.Abs(fit.Plane.Height(X)) <= 1 {
+			in = append(in, X)
+		}
+	}
+	var ref struct {
+		Normal [3]float64 `json:"normal"`
+		Offset float64    `json:"offset"`
+	}
+	pyRun(t, `
+import json, sys
+import numpy as np
+p = np.array(json.load(open(sys.argv[1]))['points'])
+c = p.mean(axis=0)
+_, _, vt = np.linalg.svd(p - c, full_matrices=False)
+n = vt[-1]
+off = -n @ c
+if off < 0:
+    n, off = -n, -off
+print(json.dumps(dict(normal=n.tolist(), offset=float(off))))
+`, map[string]any{"points": in}, &ref)
+	for i := 0; i < 3; i++ {
+		if math.Abs(ref.Normal[i]-fit.Plane.Normal[i]) > 1e-7 {
+			t.Errorf("normal %v differs from numpy's %v", fit.Plane.Normal, ref.Normal)
+			break
+		}
+	}
+	if math.Abs(ref.Offset-fit.Plane.OffsetM) > 1e-5 {
+		t.Errorf("offset %.7f differs from numpy's %.7f", fit.Plane.OffsetM, ref.Offset)
+	}
+	if _, err := FitPlane(pts[:2], 10, 1, 1); err == nil {
+		t.Error("FitPlane accepted two points")
+	}
+}
+
+// TestLargestRectangle against exhaustive search (the definition) on random
+// masks.
+func TestLargestRectangle(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for trial := 0; trial < 200; trial++ {
+		nx, ny := 1+rng.IntN(9), 1+rng.IntN(9)
+		mask := make([]bool, nx*ny)
+		for i := range mask {
+			mask[i] = rng.Float64() < 0.75
+		}
+		best := 0
+		for j0 := 0; j0 < ny; j0++ {
+			for j1 := j0 + 1; j1 <= ny; j1++ {
+				for i0 := 0; i0 < nx; i0++ {
+					for i1 := i0 + 1; i1 <= nx; i1++ {
+						full := true
+						for j := j0; j < j1 && full; j++ {
+							for i := i0; i < i1; i++ {
+								if !mask[j*nx+i] {
+									full = false
+									break
+								}
+							}
+						}
+						if full {
+							best = max(best, (j1-j0)*(i1-i0))
+						}
+					}
+				}
+			}
+		}
+		i0, i1, j0, j1 := largestRectangle(mask, nx, ny)
+		got := (i1 - i0) * (j1 - j0)
+		if best == 0 {
+			got = 0
+		}
+		if got != best {
+			t.Fatalf("trial %d: area %d, exhaustive search %d", trial, got, best)
+		}
+		for j := j0; j < j1; j++ {
+			for i := i0; i < i1; i++ {
+				if !mask[j*nx+i] {
+					t.Fatalf("trial %d: rectangle [%d,%d)×[%d,%d) holds an uncovered cell", trial, i0, i1, j0, j1)
+				}
+			}
+		}
+	}
+}
+
+// TestNiceSpacing: rounding up to two significant digits (the definition).
+func TestNiceSpacing(t *testing.T) {
+	for _, c := range []struct{ in, want float64 }{
+		{0.627, 0.63}, {0.63, 0.63}, {1, 1}, {1.001, 1.1}, {12.01, 13}, {0.0999, 0.1}, {0.1101, 0.12},
+	} {
+		if got := niceSpacing(c.in); math.Abs(got-c.want) > 1e-12 {
+			t.Errorf("niceSpacing(%g) = %g, want %g", c.in, got, c.want)
+		}
+	}
+}
+
+// TestPlaneDisparityAndPrewarpGeometry checks the prewarp algebra against
+// the camera model: points of the sea plane projected into both cameras
+// (calib's Brown–Conrady projection) and rectified (calib.Rectification)
+// have the disparity PlaneDisparity gives; and a residual disparity of zero
+// reprojects (through the prewarped Q) onto the plane at the pixel's own
+// ray.
+func TestPlaneDisparityAndPrewarpGeometry(t *testing.T) {
+	rig := testRig()
+	r, err := New(rig, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	if !r.Prewarped() {
+		t.Fatal("the default options with a sea plane should prewarp")
+	}
+	rc := r.Rectification()
+	w := r.World()
+	worst, worstQ := 0.0, 0.0
+	for _, xy := range [][2]float64{{15, 0}, {25, -5}, {40, 8}, {60, -15}, {30, 12}} {
+		X := w.ToCamera([3]float64{xy[0], xy[1], 0})
+		pl, okl := rc.RectifyLeft(rig.ProjectLeft(X))
+		pr, okr := rc.RectifyRight(rig.ProjectRight(X))
+		if !okl || !okr {
+			t.Fatalf("point %v cannot be rectified", xy)
+		}
+		d := pl[0] - pr[0]
+		dp := r.PlaneDisparity(pl[0], pl[1])
+		worst = math.Max(worst, math.Abs(d-dp))
+		// Zero residual disparity through qWorld: the point of the plane.
+		q := &r.qWorld
+		v := [4]float64{pl[0], pl[1], 0, 1}
+		var h [4]float64
+		for i := 0; i < 4; i++ {
+			for k := 0; k < 4; k++ {
+				h[i] += q[4*i+k] * v[k]
+			}
+		}
+		for i := 0; i < 3; i++ {
+			h[i] /= h[3]
+		}
+		worstQ = math.Max(worstQ, math.Hypot(math.Hypot(h[0]-xy[0], h[1]-xy[1]), h[2]))
+	}
+	t.Logf("plane disparity: largest difference %.2e px; zero residual reprojects within %.2e m", worst, worstQ)
+	// Rectification is exact up to the iterative undistortion (≈1e-6 px).
+	if worst > 1e-3 {
+		t.Errorf("PlaneDisparity differs from the projected disparity by %g px", worst)
+	}
+	if worstQ > 1e-3 {
+		t.Errorf("zero residual disparity reprojects %g m from the plane point", worstQ)
+	}
+	minD, numD := r.DisparityRange()
+	if !(minD < 0 && minD+numD > 0 && numD%16 == 0) {
+		t.Errorf("residual disparity range %d + %d does not straddle zero", minD, numD)
+	}
+}
+
+// TestOptionsValidate: each bad setting is one error naming it.
+func TestOptionsValidate(t *testing.T) {
+	if err := DefaultOptions().Validate(); err != nil {
+		t.Fatalf("defaults: %v", err)
+	}
+	x := 1.0
+	for name, mod := range map[string]func(*Options){
+		"block":     func(o *Options) { o.Matcher.BlockSize = 4 },
+		"num":       func(o *Options) { o.Matcher.NumDisparities = 20 },
+		"mode":      func(o *Options) { o.Matcher.Mode = "fast" },
+		"points":    func(o *Options) { o.MinPoints = 0 },
+		"partial":   func(o *Options) { o.Grid.X0 = &x },
+		"coverage":  func(o *Options) { o.Grid.Coverage = 0 },
+		"threshold": func(o *Options) { o.Plane.ThresholdM = 0 },
+		"alpha":     func(o *Options) { o.RectifyAlpha = 2 },
+	} {
+		o := DefaultOptions()
+		mod(&o)
+		if err := o.Validate(); err == nil {
+			t.Errorf("%s: accepted", name)
+		}
+	}
+}

@@ -1,0 +1,239 @@
+package surface
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"crestspeed/internal/cvshim"
+)
+
+// Matcher configures the disparity stage. Zero values take the defaults
+// given beside the fields (see [DefaultOptions]).
+type Matcher struct {
+	// MinDisparity and NumDisparities fix the disparity search range,
+	// pixels of the rectified images. NumDisparities 0 means automatic
+	// (see the package documentation); MinDisparity is then ignored.
+	MinDisparity   int
+	NumDisparities int
+	// BlockSize is the matched block side, odd (default 5).
+	BlockSize int
+	// P1 and P2 are the smoothness penalties; 0 gives 2·b² and 8·b² for
+	// block size b, a quarter of the 8·b² and 32·b² OpenCV's documentation
+	// suggests for grey images: on rendered seas the weaker smoothing keeps
+	// the amplitude of waves whose disparity varies by a fraction of a pixel
+	// (measured gain at the spectral peak 0.98 instead of 0.95) and lowers
+	// the noise.
+	P1, P2 int
+	// Disp12MaxDiff is OpenCV's internal left-right check in whole pixels;
+	// negative turns it off (default 1).
+	Disp12MaxDiff int
+	// PreFilterCap clips the prefiltered image derivative (default 63).
+	PreFilterCap int
+	// UniquenessRatio (percent): the best matching cost must beat the
+	// second best by this margin (default 10).
+	UniquenessRatio int
+	// SpeckleWindowSize is the largest connected blob of disparities, in
+	// pixels, removed as a speckle when its disparities vary by at most
+	// SpeckleRange pixels (defaults 100 and 2); 0 turns the filter off.
+	SpeckleWindowSize, SpeckleRange int
+	// Mode is "sgbm" (five directions, default), "hh" (eight directions,
+	// two passes, much more memory), "3way" (three directions, faster) or
+	// "hh4" (four directions).
+	Mode string
+	// LRCheck enables the explicit left-right consistency check, with
+	// tolerance LRMaxDiffPx pixels (default on, 1 px).
+	LRCheck     bool
+	LRMaxDiffPx float64
+}
+
+// PlaneOptions configure the mean-sea-plane fit.
+type PlaneOptions struct {
+	// Frames is the number of pairs fitted (default 20), spread evenly
+	// over the first SpanS seconds of the record (default 60 s; the whole
+	// record when shorter or when SpanS is 0).
+	Frames int
+	SpanS  float64
+	// Iterations of RANSAC (default 500) and the inlier distance ThresholdM
+	// from the plane, metres (default 1).
+	Iterations int
+	ThresholdM float64
+	// Stride subsamples the pixels whose points are fitted: one in
+	// Stride×Stride (default 4).
+	Stride int
+	// Seed of the RANSAC sampler (the same seed, the same plane).
+	Seed uint64
+	// Refit fits a plane even when the rig has one.
+	Refit bool
+}
+
+// GridSpec configures the output grid. Either all four bounds are given
+// (cell centres from X0 to X1 and Y0 to Y1, metres, in the world frame) or
+// none, for the automatic rectangle; D is the cell spacing, 0 for the
+// automatic spacing.
+type GridSpec struct {
+	X0, X1, Y0, Y1 *float64
+	D              float64
+	// Coverage is the fraction of plane-pass frames in which a cell must
+	// hold MinPoints points to be inside the automatic rectangle (default
+	// 0.8).
+	Coverage float64
+	// GSDFactor is the automatic spacing in units of the longer side of a
+	// pixel's footprint at the far edge of the view (default 2).
+	GSDFactor float64
+}
+
+// Options configure a reconstruction. Start from [DefaultOptions].
+type Options struct {
+	Matcher Matcher
+	Plane   PlaneOptions
+	Grid    GridSpec
+	// RectifyAlpha is OpenCV's free scaling of the rectification, 0 (only
+	// valid pixels, the default) to 1 (every source pixel).
+	RectifyAlpha float64
+	// ElevationMarginM is the band about the mean plane searched by the
+	// automatic disparity range, metres (default 4): at least the highest
+	// crest and deepest trough expected (about 1.3·Hs).
+	ElevationMarginM float64
+	// Prewarp shears the right image by the mean plane's disparity before
+	// matching, so that the matcher searches only the waves' residual
+	// disparity (default on; used only with the automatic range).
+	Prewarp bool
+	// MaxRangeM limits the horizontal distance from the left camera of
+	// the points used, metres; 0 means no limit.
+	MaxRangeM float64
+	// MinPoints is the fewest points a cell needs for an elevation
+	// (default 3).
+	MinPoints int
+	// MaxAbsElevationM drops points farther than this from the mean plane
+	// as mismatches, metres (default 10).
+	MaxAbsElevationM float64
+	// MinFrameCoverage skips a frame whose supported cells are fewer than
+	// this fraction of the grid (default 0.1).
+	MinFrameCoverage float64
+	// Workers reconstruct pairs in parallel (≤ 0: one).
+	Workers int
+	// Progress, when set, is told how far each pass has got ("plane",
+	// "grid", "reconstruct"); total is -1 when unknown.
+	Progress func(pass string, done, total int) `json:"-"`
+}
+
+// DefaultOptions returns the defaults: SGBM of 5×5 blocks with penalties
+// 2·b² and 8·b², uniqueness 10 %, speckle filter 100 px / 2 px,
+// left-right check at 1 px, automatic disparity range, 3 points per cell,
+// automatic grid, plane from 20 pairs over 60 s.
+func DefaultOptions() Options {
+	return Options{
+		Matcher: Matcher{
+			BlockSize: 5, Disp12MaxDiff: 1, PreFilterCap: 63, UniquenessRatio: 10,
+			SpeckleWindowSize: 100, SpeckleRange: 2, Mode: "sgbm",
+			LRCheck: true, LRMaxDiffPx: 1,
+		},
+		Plane:            PlaneOptions{Frames: 20, SpanS: 60, Iterations: 500, ThresholdM: 1, Stride: 4, Seed: 1},
+		Grid:             GridSpec{Coverage: 0.8, GSDFactor: 2},
+		ElevationMarginM: 4,
+		Prewarp:          true,
+		MinPoints:        3,
+		MaxAbsElevationM: 10,
+		MinFrameCoverage: 0.1,
+		Workers:          1,
+	}
+}
+
+// sgbmModes maps Matcher.Mode to OpenCV's values.
+var sgbmModes = map[string]int{
+	"sgbm": cvshim.SGBMModeSGBM, "hh": cvshim.SGBMModeHH,
+	"3way": cvshim.SGBMMode3Way, "hh4": cvshim.SGBMModeHH4,
+}
+
+// Validate reports the first setting that cannot work, as one sentence
+// naming it.
+func (o Options) Validate() error {
+	m := o.Matcher
+	finite := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+	switch {
+	case m.NumDisparities < 0 || m.NumDisparities%16 != 0 || m.NumDisparities > 4096:
+		return fmt.Errorf("number of disparities %d is not 0 (automatic) or a positive multiple of 16 up to 4096", m.NumDisparities)
+	case m.BlockSize < 1 || m.BlockSize%2 == 0 || m.BlockSize > 51:
+		return fmt.Errorf("SGBM block size %d is not an odd number in 1–51 (3–11 usual)", m.BlockSize)
+	case m.P1 < 0 || m.P2 < 0 || (m.P2 > 0 && m.P2 <= m.P1):
+		return fmt.Errorf("SGBM penalties P1 = %d, P2 = %d must satisfy 0 ≤ P1 < P2 (0 for the defaults)", m.P1, m.P2)
+	case m.PreFilterCap < 1 || m.PreFilterCap > 255:
+		return fmt.Errorf("SGBM prefilter cap %d is outside 1–255 (63 usual)", m.PreFilterCap)
+	case m.UniquenessRatio < 0 || m.UniquenessRatio > 100:
+		return fmt.Errorf("SGBM uniqueness ratio %d %% is outside 0–100 (5–15 usual)", m.UniquenessRatio)
+	case m.SpeckleWindowSize < 0 || m.SpeckleRange < 0 || m.SpeckleRange > 1000:
+		return fmt.Errorf("SGBM speckle window %d px and range %d px must not be negative", m.SpeckleWindowSize, m.SpeckleRange)
+	case m.LRCheck && !(m.LRMaxDiffPx >= 0 && m.LRMaxDiffPx <= 100):
+		return fmt.Errorf("left-right check tolerance %g px is outside 0–100 px (1 usual)", m.LRMaxDiffPx)
+	case !(o.RectifyAlpha >= 0 && o.RectifyAlpha <= 1):
+		return fmt.Errorf("rectification alpha %g is outside 0–1", o.RectifyAlpha)
+	case !(o.ElevationMarginM > 0 && o.ElevationMarginM <= 100):
+		return fmt.Errorf("elevation margin %g m is outside (0, 100] m", o.ElevationMarginM)
+	case !(o.MaxRangeM >= 0) || !finite(o.MaxRangeM):
+		return fmt.Errorf("maximum range %g m is negative; use 0 for no limit", o.MaxRangeM)
+	case o.MinPoints < 1 || o.MinPoints > 1<<20:
+		return fmt.Errorf("minimum points per cell %d is below 1", o.MinPoints)
+	case !(o.MaxAbsElevationM > 0) || !finite(o.MaxAbsElevationM):
+		return fmt.Errorf("maximum elevation %g m is not positive", o.MaxAbsElevationM)
+	case !(o.MinFrameCoverage >= 0 && o.MinFrameCoverage <= 1):
+		return fmt.Errorf("minimum frame coverage %g is outside 0–1", o.MinFrameCoverage)
+	case o.Plane.Frames < 1 || o.Plane.Frames > 10000:
+		return fmt.Errorf("sea-plane frames %d is outside 1–10000", o.Plane.Frames)
+	case !(o.Plane.SpanS >= 0) || !finite(o.Plane.SpanS):
+		return fmt.Errorf("sea-plane span %g s is negative", o.Plane.SpanS)
+	case o.Plane.Iterations < 1 || o.Plane.Iterations > 1e6:
+		return fmt.Errorf("RANSAC iterations %d is outside 1–1000000", o.Plane.Iterations)
+	case !(o.Plane.ThresholdM > 0) || !finite(o.Plane.ThresholdM):
+		return fmt.Errorf("RANSAC threshold %g m is not positive", o.Plane.ThresholdM)
+	case o.Plane.Stride < 1 || o.Plane.Stride > 64:
+		return fmt.Errorf("sea-plane pixel stride %d is outside 1–64", o.Plane.Stride)
+	case !(o.Grid.D >= 0) || !finite(o.Grid.D) || o.Grid.D > 1000:
+		return fmt.Errorf("grid spacing %g m is negative; use 0 for the automatic spacing", o.Grid.D)
+	case !(o.Grid.Coverage > 0 && o.Grid.Coverage <= 1):
+		return fmt.Errorf("grid coverage %g is outside (0, 1]", o.Grid.Coverage)
+	case !(o.Grid.GSDFactor >= 0.5 && o.Grid.GSDFactor <= 100):
+		return fmt.Errorf("grid GSD factor %g is outside 0.5–100", o.Grid.GSDFactor)
+	}
+	if _, ok := sgbmModes[strings.ToLower(m.Mode)]; !ok {
+		return fmt.Errorf("SGBM mode %q is not one of sgbm, hh, 3way, hh4", m.Mode)
+	}
+	g := o.Grid
+	n := 0
+	for _, p := range []*float64{g.X0, g.X1, g.Y0, g.Y1} {
+		if p != nil {
+			n++
+			if !finite(*p) {
+				return fmt.Errorf("grid bound %g is not a finite number of metres", *p)
+			}
+		}
+	}
+	switch {
+	case n != 0 && n != 4:
+		return fmt.Errorf("grid bounds need all four of x0, x1, y0, y1 (or none, for the automatic rectangle); %d are given", n)
+	case n == 4 && !(*g.X1 > *g.X0 && *g.Y1 > *g.Y0):
+		return fmt.Errorf("grid bounds x %g–%g m, y %g–%g m are not increasing", *g.X0, *g.X1, *g.Y0, *g.Y1)
+	}
+	return nil
+}
+
+// params resolves the SGBM parameters for a disparity range.
+func (m Matcher) params(minD, numD int) cvshim.SGBMParams {
+	b := m.BlockSize
+	p1, p2 := m.P1, m.P2
+	if p1 == 0 {
+		p1 = 2 * b * b
+	}
+	if p2 == 0 {
+		p2 = 8 * b * b
+	}
+	if p2 <= p1 {
+		p2 = p1 + 1
+	}
+	return cvshim.SGBMParams{
+		MinDisparity: minD, NumDisparities: numD, BlockSize: b, P1: p1, P2: p2,
+		Disp12MaxDiff: m.Disp12MaxDiff, PreFilterCap: m.PreFilterCap,
+		UniquenessRatio: m.UniquenessRatio, SpeckleWindowSize: m.SpeckleWindowSize,
+		SpeckleRange: m.SpeckleRange, Mode: sgbmModes[strings.ToLower(m.Mode)],
+	}
+}

@@ -1,0 +1,762 @@
+package surface
+
+import (
+	"fmt"
+	"image"
+	"image/color"
+	"math"
+	"time"
+
+	"gocv.io/x/gocv"
+
+	"crestspeed/calib"
+	"crestspeed/ingest"
+	"crestspeed/internal/cvshim"
+)
+
+// Reconstructor holds what a run shares between its workers: the rig, its
+// rectification maps, the mean sea plane and world frame, the disparity
+// range and the grid. Make it with [New]; set the plane and the grid (or
+// let [Run] do it), then give each goroutine its own [Worker]. After the
+// setup it is read-only and safe for concurrent use by workers.
+type Reconstructor struct {
+	rig  calib.Rig
+	maps *calib.RectifyMaps
+	opt  Options
+
+	havePlane bool
+	plane     calib.Plane
+	world     calib.WorldFrame
+	qCam      [16]float64 // (u, v, disparity px, 1) → left camera frame
+	qWorld    [16]float64 // (u, v, disparity px, 1) → world frame
+	minD      int         // disparity search range, pixels
+	numD      int
+	autoRange bool
+	// Prewarp: the right image is sheared by the plane's disparity
+	// d_p = pa·u + pb·v + pc (see shearRightMap).
+	prewarp        bool
+	pa, pb, pc     float64
+	shearX, shearY gocv.Mat
+
+	// roughPlane is the rig's plane when a refit is asked for: it sets the
+	// prewarp of the refit.
+	roughPlane *calib.Plane
+
+	haveGrid bool
+	grid     ingest.Grid
+	gx0, gy0 float64
+	gd       float64
+}
+
+// New prepares a reconstruction with rig: it rectifies the rig and builds
+// the rectification maps. When the rig has a sea plane and
+// opt.Plane.Refit is false, that plane is used (see [Reconstructor.SetSeaPlane]).
+// The caller must Close the result.
+func New(rig *calib.Rig, opt Options) (*Reconstructor, error) {
+	if rig == nil {
+		return nil, fmt.Errorf("surface: no rig given; load one with calib.LoadRig")
+	}
+	if err := opt.Validate(); err != nil {
+		return nil, fmt.Errorf("surface: %v", err)
+	}
+	if err := rig.Validate(); err != nil {
+		return nil, fmt.Errorf("surface: the rig cannot be used: %v; recalibrate or correct the rig file", err)
+	}
+	maps, err := rig.RectifyMaps(opt.RectifyAlpha)
+	if err != nil {
+		return nil, fmt.Errorf("surface: %v", err)
+	}
+	r := &Reconstructor{rig: *rig, maps: maps, opt: opt}
+	r.rig.SeaPlane = nil
+	if m := opt.Matcher; m.NumDisparities > 0 {
+		r.minD, r.numD = m.MinDisparity, m.NumDisparities
+	} else {
+		r.autoRange = true
+		r.minD, r.numD = 0, roundUp16(float64(rig.Size.X)/4)
+	}
+	if err := r.checkRange(); err != nil {
+		maps.Close()
+		return nil, err
+	}
+	r.setQ()
+	if rig.SeaPlane != nil {
+		if opt.Plane.Refit {
+			p := *rig.SeaPlane
+			r.roughPlane = &p
+		} else if err := r.SetSeaPlane(*rig.SeaPlane); err != nil {
+			maps.Close()
+			return nil, err
+		}
+	}
+	return r, nil
+}
+
+// Close releases the rectification maps.
+func (r *Reconstructor) Close() error {
+	if r.maps != nil {
+		r.maps.Close()
+		r.maps = nil
+	}
+	for _, m := range []*gocv.Mat{&r.shearX, &r.shearY} {
+		if m.Ptr() != nil {
+			m.Close()
+			*m = gocv.Mat{}
+		}
+	}
+	return nil
+}
+
+// Rectification returns the rectified geometry of the rig.
+func (r *Reconstructor) Rectification() *calib.Rectification { return r.maps.Rectification }
+
+// Size returns the image size the rig was calibrated for.
+func (r *Reconstructor) Size() image.Point { return r.rig.Size }
+
+// SeaPlane returns the mean sea plane in the left camera's frame and
+// whether one is set.
+func (r *Reconstructor) SeaPlane() (calib.Plane, bool) { return r.plane, r.havePlane }
+
+// World returns the world frame of the sea plane (valid once a plane is set).
+func (r *Reconstructor) World() calib.WorldFrame { return r.world }
+
+// DisparityRange returns the disparity search range in pixels: the
+// smallest disparity and the number searched (of the residual disparity
+// about the plane's when prewarped; see [Reconstructor.Prewarped]).
+func (r *Reconstructor) DisparityRange() (minD, numD int) { return r.minD, r.numD }
+
+// Prewarped reports whether the right image is sheared by the sea plane's
+// disparity before matching.
+func (r *Reconstructor) Prewarped() bool { return r.prewarp }
+
+// Grid returns the output grid and whether one is set.
+func (r *Reconstructor) Grid() (ingest.Grid, bool) { return r.grid, r.haveGrid }
+
+// Options returns the options of the run.
+func (r *Reconstructor) Options() Options { return r.opt }
+
+// SetSeaPlane sets the mean sea plane (in the left camera's frame) and
+// the world frame that follows from it. With the automatic disparity range
+// it also sets the range the sea can produce and, when Options.Prewarp is
+// on, shears the right image's rectification map by the plane's disparity
+// (see [Reconstructor.PlaneDisparity]) so that the matcher searches only
+// the residual disparity of the waves about the plane.
+func (r *Reconstructor) SetSeaPlane(p calib.Plane) error {
+	w, err := p.World()
+	if err != nil {
+		return fmt.Errorf("surface: %v", err)
+	}
+	if !(p.OffsetM > 0) {
+		return fmt.Errorf("surface: the sea plane lies %g m above the left camera, not below it; check the sign of the plane's normal", -p.OffsetM)
+	}
+	r.plane, r.world, r.havePlane = p, w, true
+	r.prewarp = r.autoRange && r.opt.Prewarp
+	r.pa, r.pb, r.pc = r.planeDisparity()
+	if r.autoRange {
+		minD, numD, err := r.seaRange()
+		if err != nil {
+			return err
+		}
+		r.minD, r.numD = minD, numD
+	}
+	if err := r.checkRange(); err != nil {
+		return err
+	}
+	if r.prewarp {
+		if err := r.shearRightMap(); err != nil {
+			return err
+		}
+	}
+	r.setQ()
+	return nil
+}
+
+// setQ sets the matrices that take (u, v, matcher disparity in px, 1) to
+// the left camera frame and to the world frame.
+func (r *Reconstructor) setQ() {
+	rc := r.maps.Rectification
+	// A: the matcher's disparity in pixels (residual when prewarped) to
+	// the disparity d of the plain rectified pair.
+	A := [16]float64{1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1}
+	if r.prewarp {
+		A[8], A[9], A[10], A[11] = r.pa, r.pb, 1-r.pa, r.pc
+	}
+	q := mul4(&rc.Q, &A)
+	// Back from the rectified frame to the left camera frame: R1ᵀ.
+	var back [16]float64
+	for i := 0; i < 3; i++ {
+		for j := 0; j < 3; j++ {
+			back[4*i+j] = rc.R1[3*j+i]
+		}
+	}
+	back[15] = 1
+	r.qCam = mul4(&back, &q)
+	if !r.havePlane {
+		return
+	}
+	var m [16]float64
+	for i := 0; i < 3; i++ {
+		for j := 0; j < 3; j++ {
+			m[4*i+j] = r.world.R[3*i+j]
+		}
+		m[4*i+3] = r.world.T[i]
+	}
+	m[15] = 1
+	r.qWorld = mul4(&m, &r.qCam)
+}
+
+// planeDisparity returns the disparity of the mean plane in the rectified
+// pair as d = a·u + b·v + c. For a plane n·X + h = 0 (rectified left
+// frame) the depth of pixel (u, v) is Z = −h·f / (n·(u − cx, v − cy, f)),
+// and Q gives d = (f/Z − Q₃₃)/Q₃₂: affine in (u, v).
+func (r *Reconstructor) planeDisparity() (a, b, c float64) {
+	rc := r.maps.Rectification
+	Q := &rc.Q
+	cx, cy, f := -Q[3], -Q[7], Q[11]
+	q32, q33 := Q[14], Q[15]
+	var n [3]float64
+	for i := 0; i < 3; i++ {
+		n[i] = rc.R1[3*i]*r.plane.Normal[0] + rc.R1[3*i+1]*r.plane.Normal[1] + rc.R1[3*i+2]*r.plane.Normal[2]
+	}
+	h := r.plane.OffsetM
+	// f/Z = −(n0 (u − cx) + n1 (v − cy) + n2 f)/h
+	a = -n[0] / h / q32
+	b = -n[1] / h / q32
+	c = (-(n[2]*f-n[0]*cx-n[1]*cy)/h - q33) / q32
+	return a, b, c
+}
+
+// PlaneDisparity returns the disparity, pixels, that the mean sea plane
+// has at rectified left pixel (u, v) (valid once a plane is set).
+func (r *Reconstructor) PlaneDisparity(u, v float64) float64 {
+	return r.pa*u + r.pb*v + r.pc
+}
+
+// shearRightMap builds the right image's map of the prewarped pair:
+// rectified right pixel (x, v) is taken from the rectified right image at
+// column x − d_p(x, v), d_p the plane's disparity, so that the sea plane
+// has zero disparity. A left pixel u matched at residual disparity e then
+// has the disparity d = d_p(u, v) + (1 − a)·e of the plain rectified pair
+// (a = ∂d_p/∂u), which setQ folds into the reprojection.
+func (r *Reconstructor) shearRightMap() error {
+	mx, err := r.maps.RightX.DataPtrFloat32()
+	if err != nil {
+		return fmt.Errorf("surface: rectification map is not readable: %v", err)
+	}
+	my, err := r.maps.RightY.DataPtrFloat32()
+	if err != nil {
+		return fmt.Errorf("surface: rectification map is not readable: %v", err)
+	}
+	W, H := r.rig.Size.X, r.rig.Size.Y
+	if len(mx) != W*H || len(my) != W*H {
+		return fmt.Errorf("surface: rectification maps are %d values for %d×%d px", len(mx), W, H)
+	}
+	if r.shearX.Ptr() == nil {
+		r.shearX = gocv.NewMatWithSize(H, W, gocv.MatTypeCV32FC1)
+		r.shearY = gocv.NewMatWithSize(H, W, gocv.MatTypeCV32FC1)
+	}
+	sx, err := r.shearX.DataPtrFloat32()
+	if err != nil {
+		return fmt.Errorf("surface: %v", err)
+	}
+	sy, err := r.shearY.DataPtrFloat32()
+	if err != nil {
+		return fmt.Errorf("surface: %v", err)
+	}
+	for v := 0; v < H; v++ {
+		row := v * W
+		for u := 0; u < W; u++ {
+			xs := float64(u) - r.PlaneDisparity(float64(u), float64(v))
+			i := int(math.Floor(xs))
+			if i < 0 || i+1 >= W {
+				// Outside the rectified right image: black.
+				sx[row+u], sy[row+u] = -10, -10
+				continue
+			}
+			t := float32(xs - float64(i))
+			k := row + i
+			sx[row+u] = mx[k] + t*(mx[k+1]-mx[k])
+			sy[row+u] = my[k] + t*(my[k+1]-my[k])
+		}
+	}
+	return nil
+}
+
+func (r *Reconstructor) checkRange() error {
+	if r.numD >= r.rig.Size.X {
+		return fmt.Errorf("surface: the disparity search range %d–%d px is as wide as the %d px image; set max_range_m or a narrower range", r.minD, r.minD+r.numD, r.rig.Size.X)
+	}
+	return nil
+}
+
+// roundUp16 rounds a positive width up to a multiple of 16 (at least 16).
+func roundUp16(v float64) int {
+	n := int(math.Ceil(v/16)) * 16
+	return max(n, 16)
+}
+
+// rectRay returns the direction, in the world frame, of the ray through
+// rectified left pixel (u, v), scaled so that its depth in the rectified
+// frame is 1.
+func (r *Reconstructor) rectRay(u, v float64) [3]float64 {
+	rc := r.maps.Rectification
+	P := &rc.P1
+	ray := [3]float64{(u - P[2]) / P[0], (v - P[6]) / P[5], 1}
+	var cam [3]float64
+	for i := 0; i < 3; i++ {
+		cam[i] = rc.R1[i]*ray[0] + rc.R1[3+i]*ray[1] + rc.R1[6+i]*ray[2]
+	}
+	return r.world.DirectionToWorld(cam)
+}
+
+// seaRange finds the disparities of the planes ±ElevationMarginM about the
+// mean plane over the rectified image (every 4th pixel), limited to
+// MaxRangeM when set; when prewarped, the residual disparities about the
+// plane's.
+func (r *Reconstructor) seaRange() (minD, numD int, err error) {
+	rc := r.maps.Rectification
+	f, B := rc.FocalPx(), rc.BaselineM()
+	H := r.world.T[2]
+	hi := math.Min(r.opt.ElevationMarginM, 0.9*H)
+	lo := -r.opt.ElevationMarginM
+	dLo, dHi := math.Inf(1), math.Inf(-1)
+	maxR := r.opt.MaxRangeM
+	for v := 0; v < r.rig.Size.Y; v += 4 {
+		for u := 0; u < r.rig.Size.X; u += 4 {
+			d := r.rectRay(float64(u), float64(v))
+			horiz := math.Hypot(d[0], d[1])
+			if !(d[2] < 0) {
+				// Above the horizon: no sea here.
+				continue
+			}
+			tHi := (hi - H) / d[2]
+			if maxR > 0 && tHi*horiz > maxR {
+				continue
+			}
+			tLo := (lo - H) / d[2]
+			if maxR > 0 && tLo*horiz > maxR {
+				tLo = maxR / horiz
+			}
+			eHi, eLo := f*B/tHi, f*B/tLo
+			if r.prewarp {
+				dp := r.PlaneDisparity(float64(u), float64(v))
+				eHi, eLo = (eHi-dp)/(1-r.pa), (eLo-dp)/(1-r.pa)
+			}
+			dHi = math.Max(dHi, eHi)
+			dLo = math.Min(dLo, eLo)
+		}
+	}
+	if math.IsInf(dHi, -1) {
+		return 0, 0, fmt.Errorf("surface: no pixel of the rectified left image sees the sea within %g m; check the sea plane and max_range_m", maxR)
+	}
+	if maxR == 0 && !r.prewarp {
+		// Rays close to the horizon reach disparities near zero.
+		dLo = math.Max(0, dLo)
+	}
+	minD = int(math.Floor(dLo)) - 1
+	if !r.prewarp {
+		minD = max(minD, 0)
+	}
+	numD = roundUp16(math.Ceil(dHi) + 1 - float64(minD))
+	return minD, numD, nil
+}
+
+// SetGrid sets the output grid: regular, increasing axes of at least two
+// cells with the same spacing along x and y.
+func (r *Reconstructor) SetGrid(g ingest.Grid) error {
+	if len(g.X) < 2 || len(g.Y) < 2 {
+		return fmt.Errorf("surface: the grid needs at least 2 cells along x and y, has %d × %d", len(g.X), len(g.Y))
+	}
+	d := g.Dx()
+	if !(d > 0) || math.Abs(g.Dy()-d) > 1e-6*d {
+		return fmt.Errorf("surface: the grid spacing must be positive and the same along x (%g m) and y (%g m)", g.Dx(), g.Dy())
+	}
+	if int64(len(g.X))*int64(len(g.Y)) > 64<<20 {
+		return fmt.Errorf("surface: the grid of %d × %d cells is too large; use a coarser spacing or a smaller area", len(g.X), len(g.Y))
+	}
+	r.grid = ingest.Grid{X: append([]float64(nil), g.X...), Y: append([]float64(nil), g.Y...)}
+	r.gx0, r.gy0, r.gd = g.X[0], g.Y[0], d
+	r.haveGrid = true
+	return nil
+}
+
+// StageTimes accumulates the wall time of each stage of a worker.
+type StageTimes struct {
+	Remap, Match, Reproject, Grid time.Duration
+	Pairs                         int
+}
+
+// Add adds o to t.
+func (t *StageTimes) Add(o StageTimes) {
+	t.Remap += o.Remap
+	t.Match += o.Match
+	t.Reproject += o.Reproject
+	t.Grid += o.Grid
+	t.Pairs += o.Pairs
+}
+
+// FrameStats counts what happened to the pixels of one pair.
+type FrameStats struct {
+	Matched    int // left pixels with a disparity before the left-right check
+	Consistent int // left pixels with a disparity after it
+	Dropped    int // points dropped: beyond MaxAbsElevationM from the plane or beyond MaxRangeM
+	Gridded    int // points binned into grid cells
+	Cells      int // cells with at least MinPoints points
+}
+
+// Map is the elevation map of one pair.
+type Map struct {
+	Index               int     // the pair's index in the source
+	Time                float64 // seconds
+	LeftPath, RightPath string
+	// Eta holds the mean elevation per cell (row-major, y rows of x
+	// cells), NaN where fewer than MinPoints points fell; Points the
+	// number of points per cell.
+	Eta    []float32
+	Points []int32
+	Stats  FrameStats
+}
+
+// Coverage returns the fraction of cells with an elevation.
+func (m *Map) Coverage() float64 {
+	if len(m.Eta) == 0 {
+		return 0
+	}
+	return float64(m.Stats.Cells) / float64(len(m.Eta))
+}
+
+// Worker reconstructs pairs with the shared setup of a Reconstructor. It
+// owns a matcher and image buffers and is not safe for concurrent use:
+// make one per goroutine, and Close it.
+type Worker struct {
+	r    *Reconstructor
+	sgbm *cvshim.StereoSGBM
+	// Raw disparities (1/16 px) in [minValid, maxValid) are used: the
+	// search range without its two end pixels, where the matcher's cost
+	// minimum sits on the edge of the range (no sub-pixel fit; a match
+	// outside the range or in a region the other camera does not see).
+	minValid, maxValid int16
+	rectL              gocv.Mat
+	rectR              gocv.Mat
+	disp               gocv.Mat // raw matcher output, CV_16SC1, 1/16 px
+	dispF              gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
+	xyz                gocv.Mat
+	sum                []float64
+	// Times accumulates the wall time of the worker's stages.
+	Times StageTimes
+}
+
+// NewWorker makes a worker for the current disparity range.
+func (r *Reconstructor) NewWorker() (*Worker, error) {
+	p := r.opt.Matcher.params(r.minD, r.numD)
+	s, err := cvshim.NewStereoSGBM(p)
+	if err != nil {
+		return nil, fmt.Errorf("surface: %v", err)
+	}
+	return &Worker{
+		r: r, sgbm: s,
+		minValid: int16((r.minD + 1) * cvshim.DisparityScale),
+		maxValid: int16((r.minD + r.numD - 1) * cvshim.DisparityScale),
+		rectL:    gocv.NewMat(), rectR: gocv.NewMat(), disp: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
+	}, nil
+}
+
+// Close releases the worker's matcher and buffers.
+func (w *Worker) Close() error {
+	if w.sgbm != nil {
+		w.sgbm.Close()
+		w.sgbm = nil
+	}
+	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.disp, &w.dispF, &w.xyz} {
+		if m.Ptr() != nil {
+			m.Close()
+			*m = gocv.Mat{}
+		}
+	}
+	return nil
+}
+
+// SGBMParams returns the matcher parameters the worker uses.
+func (w *Worker) SGBMParams() cvshim.SGBMParams { return w.sgbm.Params() }
+
+// checkPair checks a source pair against the rig.
+func (w *Worker) checkPair(left, right gocv.Mat) error {
+	sz := w.r.rig.Size
+	switch {
+	case left.Empty() || right.Empty():
+		return fmt.Errorf("surface: an image of the pair is empty")
+	case left.Type() != gocv.MatTypeCV8UC1 || right.Type() != gocv.MatTypeCV8UC1:
+		return fmt.Errorf("surface: images must be 8-bit grey")
+	case left.Cols() != sz.X || left.Rows() != sz.Y || right.Cols() != sz.X || right.Rows() != sz.Y:
+		return fmt.Errorf("surface: the images are %d×%d and %d×%d px but the rig was calibrated for %d×%d px", left.Cols(), left.Rows(), right.Cols(), right.Rows(), sz.X, sz.Y)
+	}
+	return nil
+}
+
+// Rectify resamples a source pair into the worker's rectified images.
+func (w *Worker) Rectify(left, right gocv.Mat) error {
+	if err := w.checkPair(left, right); err != nil {
+		return err
+	}
+	t0 := time.Now()
+	r := w.r
+	if r.prewarp {
+		gocv.Remap(left, &w.rectL, &r.maps.LeftX, &r.maps.LeftY, gocv.InterpolationLinear, gocv.BorderConstant, color.RGBA{})
+		gocv.Remap(right, &w.rectR, &r.shearX, &r.shearY, gocv.InterpolationLinear, gocv.BorderConstant, color.RGBA{})
+	} else {
+		r.maps.Remap(left, right, &w.rectL, &w.rectR)
+	}
+	w.Times.Remap += time.Since(t0)
+	return nil
+}
+
+// Rectified returns the worker's last rectified pair (owned by the worker).
+func (w *Worker) Rectified() (left, right gocv.Mat) { return w.rectL, w.rectR }
+
+// Match computes the disparity of the last rectified pair, with the
+// left-right check when configured.
+func (w *Worker) Match() (cvshim.CheckStats, error) {
+	t0 := time.Now()
+	var st cvshim.CheckStats
+	var err error
+	if m := w.r.opt.Matcher; m.LRCheck {
+		st, err = w.sgbm.ComputeChecked(w.rectL, w.rectR, &w.disp, m.LRMaxDiffPx)
+	} else {
+		err = w.sgbm.Compute(w.rectL, w.rectR, &w.disp)
+		if err == nil {
+			st.ValidBefore = w.countValid()
+			st.ValidAfter = st.ValidBefore
+		}
+	}
+	if err == nil {
+		err = cvshim.DisparityToFloat(w.disp, w.minValid, w.maxValid, &w.dispF)
+	}
+	w.Times.Match += time.Since(t0)
+	if err != nil {
+		return st, fmt.Errorf("surface: %v", err)
+	}
+	return st, nil
+}
+
+// Disparity returns the worker's last raw disparity map (CV_16SC1,
+// 1/16 px; values below (MinDisparity+1)·16 or from
+// (MinDisparity+NumDisparities−1)·16 up are not used), owned by the worker.
+func (w *Worker) Disparity() gocv.Mat { return w.disp }
+
+// DisparityPx returns the worker's last disparity map in pixels (CV_32FC1,
+// NaN where there is none or where it is not used), owned by the worker.
+// When prewarped it is the residual disparity about the plane's.
+func (w *Worker) DisparityPx() gocv.Mat { return w.dispF }
+
+func (w *Worker) countValid() int {
+	d, err := w.disp.DataPtrInt16()
+	if err != nil {
+		return 0
+	}
+	n := 0
+	for _, v := range d {
+		if v >= w.minValid && v < w.maxValid {
+			n++
+		}
+	}
+	return n
+}
+
+// reproject turns the last disparity map into 3-D points, in the world
+// frame or in the left camera's frame.
+func (w *Worker) reproject(world bool) error {
+	t0 := time.Now()
+	q := w.r.qCam
+	if world {
+		if !w.r.havePlane {
+			return fmt.Errorf("surface: no sea plane is set, so points cannot be put in the world frame")
+		}
+		q = w.r.qWorld
+	}
+	err := cvshim.ReprojectImageTo3D(w.dispF, q, &w.xyz)
+	w.Times.Reproject += time.Since(t0)
+	if err != nil {
+		return fmt.Errorf("surface: %v", err)
+	}
+	return nil
+}
+
+// points returns the 3-D points of the last pair as a Go slice over the
+// Mat's memory (no copy): x, y, z per pixel, NaN where there is no
+// disparity.
+func (w *Worker) points() ([]float32, error) {
+	p, err := w.xyz.DataPtrFloat32()
+	if err != nil {
+		return nil, fmt.Errorf("surface: 3-D points are not readable: %v", err)
+	}
+	if len(p) != 3*w.xyz.Rows()*w.xyz.Cols() {
+		return nil, fmt.Errorf("surface: 3-D image has %d values for %d pixels", len(p), w.xyz.Rows()*w.xyz.Cols())
+	}
+	return p, nil
+}
+
+// CameraPoints reconstructs a pair and appends to dst the points, in the
+// left camera's frame (metres), of one pixel in stride×stride with a
+// disparity. Points farther than MaxRangeM (when set) are left out.
+func (w *Worker) CameraPoints(left, right gocv.Mat, stride int, dst [][3]float32) ([][3]float32, error) {
+	if stride < 1 {
+		return dst, fmt.Errorf("surface: pixel stride %d is below 1", stride)
+	}
+	if err := w.Rectify(left, right); err != nil {
+		return dst, err
+	}
+	if _, err := w.Match(); err != nil {
+		return dst, err
+	}
+	if err := w.reproject(false); err != nil {
+		return dst, err
+	}
+	p, err := w.points()
+	if err != nil {
+		return dst, err
+	}
+	cols := w.xyz.Cols()
+	maxR2 := w.r.opt.MaxRangeM * w.r.opt.MaxRangeM
+	for y := stride / 2; y < w.xyz.Rows(); y += stride {
+		row := y * cols
+		for x := stride / 2; x < cols; x += stride {
+			i := row + x
+			X, Y, Z := p[3*i], p[3*i+1], p[3*i+2]
+			if !(Z > 0) || math.IsInf(float64(Z), 0) || math.IsNaN(float64(X+Y)) {
+				continue
+			}
+			if maxR2 > 0 && float64(X*X+Y*Y+Z*Z) > maxR2 {
+				continue
+			}
+			dst = append(dst, [3]float32{X, Y, Z})
+		}
+	}
+	return dst, nil
+}
+
+// worldPoints runs a pair to world points (the worker's xyz buffer).
+func (w *Worker) worldPoints(left, right gocv.Mat) error {
+	if err := w.Rectify(left, right); err != nil {
+		return err
+	}
+	if _, err := w.Match(); err != nil {
+		return err
+	}
+	return w.reproject(true)
+}
+
+// forEachPoint calls fn with the world point of every valid pixel within
+// the elevation and range limits; it returns the number dropped by them.
+func (w *Worker) forEachPoint(fn func(x, y, z float32)) (dropped int, err error) {
+	p, err := w.points()
+	if err != nil {
+		return 0, err
+	}
+	zmax := float32(w.r.opt.MaxAbsElevationM)
+	maxR2 := float32(w.r.opt.MaxRangeM * w.r.opt.MaxRangeM)
+	for i := 0; i+2 < len(p); i += 3 {
+		x, y, z := p[i], p[i+1], p[i+2]
+		if z != z {
+			continue // no disparity
+		}
+		if !(z <= zmax && z >= -zmax) || (maxR2 > 0 && !(x*x+y*y <= maxR2)) {
+			dropped++
+			continue
+		}
+		fn(x, y, z)
+	}
+	return dropped, nil
+}
+
+// Reconstruct turns a source pair into an elevation map on the grid: it
+// fills m.Eta, m.Points and m.Stats (reusing their memory when large
+// enough). The sea plane and the grid must be set.
+func (w *Worker) Reconstruct(left, right gocv.Mat, m *Map) error {
+	r := w.r
+	if !r.havePlane || !r.haveGrid {
+		return fmt.Errorf("surface: set the sea plane and the grid before reconstructing")
+	}
+	if err := w.Rectify(left, right); err != nil {
+		return err
+	}
+	st, err := w.Match()
+	if err != nil {
+		return err
+	}
+	if err := w.reproject(true); err != nil {
+		return err
+	}
+	t0 := time.Now()
+	err = w.bin(m)
+	w.Times.Grid += time.Since(t0)
+	w.Times.Pairs++
+	m.Stats.Matched, m.Stats.Consistent = st.ValidBefore, st.ValidAfter
+	return err
+}
+
+// bin grids the world points of the last pair into m.
+func (w *Worker) bin(m *Map) error {
+	r := w.r
+	nx, ny := len(r.grid.X), len(r.grid.Y)
+	n := nx * ny
+	m.Eta = resize(m.Eta, n)
+	m.Points = resize(m.Points, n)
+	w.sum = resize(w.sum, n)
+	sum, cnt := w.sum, m.Points
+	clear(sum)
+	clear(cnt)
+	x0, y0, inv := r.gx0, r.gy0, 1/r.gd
+	gridded := 0
+	dropped, err := w.forEachPoint(func(x, y, z float32) {
+		fi := (float64(x)-x0)*inv + 0.5
+		fj := (float64(y)-y0)*inv + 0.5
+		if !(fi >= 0 && fj >= 0) {
+			return
+		}
+		i, j := int(fi), int(fj)
+		if i >= nx || j >= ny {
+			return
+		}
+		c := j*nx + i
+		sum[c] += float64(z)
+		cnt[c]++
+		gridded++
+	})
+	if err != nil {
+		return err
+	}
+	minPts := int32(r.opt.MinPoints)
+	cells := 0
+	nan := float32(math.NaN())
+	for c := range m.Eta {
+		if cnt[c] >= minPts {
+			m.Eta[c] = float32(sum[c] / float64(cnt[c]))
+			cells++
+		} else {
+			m.Eta[c] = nan
+		}
+	}
+	m.Stats.Dropped, m.Stats.Gridded, m.Stats.Cells = dropped, gridded, cells
+	return nil
+}
+
+func resize[T any](s []T, n int) []T {
+	if cap(s) >= n {
+		return s[:n]
+	}
+	return make([]T, n)
+}
+
+// mul4 multiplies row-major 4×4 matrices.
+func mul4(a, b *[16]float64) [16]float64 {
+	var c [16]float64
+	for i := 0; i < 4; i++ {
+		for j := 0; j < 4; j++ {
+			var s float64
+			for k := 0; k < 4; k++ {
+				s += a[4*i+k] * b[4*k+j]
+			}
+			c[4*i+j] = s
+		}
+	}
+	return c
+}
