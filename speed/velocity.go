@@ -68,6 +68,7 @@ type SurfaceVelocity struct {
 	gain       []float64 // transfer function per (f, ky, kx), 0 where removed
 
 	buf     []complex128 // current window, [t][y][x]
+	work    []complex128 // its transform, reused from window to window
 	frames  int          // frames pushed so far
 	filled  int          // frames in buf
 	limit   int          // frames at or beyond limit are padding (set by Close)
@@ -202,7 +203,10 @@ func (s *SurfaceVelocity) Push(eta []float32) {
 // window transforms, filters and adds the window starting at frame start.
 func (s *SurfaceVelocity) window(start int) {
 	nw, ny, nx := s.nw, s.ny, s.nx
-	work := make([]complex128, len(s.buf))
+	if s.work == nil {
+		s.work = make([]complex128, len(s.buf))
+	}
+	work := s.work
 	for t := 0; t < nw; t++ {
 		for i := 0; i < nx*ny; i++ {
 			work[t*nx*ny+i] = s.buf[t*nx*ny+i] * complex(s.hann[t]*s.taper[i], 0)

@@ -2,6 +2,8 @@ package surface_test
 
 import (
 	"context"
+	"fmt"
+	"image"
 	"math"
 	"path/filepath"
 	"testing"
@@ -15,13 +17,14 @@ import (
 	"crestspeed/surface"
 )
 
-// benchDeployment is the demo deployment at its full 1280×1024 px, 8
-// frames, rendered once and cached.
-func benchDeployment(b *testing.B) (string, *calib.Rig, ingest.Grid) {
+// benchDeployment is the demo deployment at the given image size (the
+// rig scaled to it), 8 frames, rendered once and cached.
+func benchDeployment(b *testing.B, size image.Point) (string, *calib.Rig, ingest.Grid) {
 	d := samples.DemoDeployment()
 	d.Frames = 8
 	d.CalibrationViews = 1
-	dir, _ := cachedDeployment(b, "bench-1280-v1", d)
+	d.ImageSize = size
+	dir, _ := cachedDeployment(b, fmt.Sprintf("bench-%d-v1", size.X), d)
 	rig, err := calib.LoadRig(filepath.Join(dir, samples.DeploymentRig))
 	if err != nil {
 		b.Fatal(err)
@@ -46,14 +49,21 @@ func benchOptions(g ingest.Grid, workers int) surface.Options {
 	return opt
 }
 
-// BenchmarkStages times each stage of one 1280×1024 pair on one core:
+// BenchmarkStages times each stage of one pair on one core, at 1280×1024
+// and 2448×2048 px:
 // remap, the bare SGBM call, matching as configured (SGBM with the
 // left-right check and the conversion to pixels), reprojection to world
 // points (the world transform is folded into Q, so it costs nothing
 // there; "world-transform" times it as a separate pass for comparison),
 // gridding, writing the map, and the whole pair.
 func BenchmarkStages(b *testing.B) {
-	dir, rig, g := benchDeployment(b)
+	for _, size := range []image.Point{{1280, 1024}, {2448, 2048}} {
+		b.Run(fmt.Sprintf("%dx%d", size.X, size.Y), func(b *testing.B) { benchStages(b, size) })
+	}
+}
+
+func benchStages(b *testing.B, size image.Point) {
+	dir, rig, g := benchDeployment(b, size)
 	if err := cvshim.SetNumThreads(1); err != nil {
 		b.Fatal(err)
 	}
@@ -79,7 +89,7 @@ func BenchmarkStages(b *testing.B) {
 	if err := w.Reconstruct(l, r, &m); err != nil {
 		b.Fatal(err)
 	}
-	b.Logf("1280×1024 pair: disparity range %v, %d of %d cells", w.SGBMParams(), m.Stats.Cells, len(m.Eta))
+	b.Logf("%d×%d pair: disparity range %v, %d of %d cells", size.X, size.Y, w.SGBMParams(), m.Stats.Cells, len(m.Eta))
 	b.Run("remap", func(b *testing.B) {
 		for b.Loop() {
 			if err := w.Rectify(l, r); err != nil {
@@ -182,7 +192,7 @@ func (d *discard) Write(m *surface.Map) error {
 // 1280×1024 px with 1 and 2 workers (OpenCV gets cores/workers threads)
 // and reports pairs per second.
 func BenchmarkFramesPerSecond(b *testing.B) {
-	dir, rig, g := benchDeployment(b)
+	dir, rig, g := benchDeployment(b, image.Pt(1280, 1024))
 	open := func() (ingest.StereoSource, error) {
 		return ingest.OpenPairs(ingest.PairSpec{Dir: filepath.Join(dir, samples.DeploymentFramesDir)})
 	}
