@@ -60,6 +60,12 @@ type Deployment struct {
 	Board            Chessboard `json:"board" yaml:"board"`                         // default DemoChessboard()
 
 	Render RenderOptions `json:"render" yaml:"render"`
+	// Foam paints whitecap patches on the rendered surface (shaded by
+	// FoamShading, see render_foam.go) and writes their true mask as the
+	// foam variable of truth_elevation.nc; automatic foam needs a
+	// focusing-packet sea.
+	Foam        FoamSpec    `json:"foam,omitempty" yaml:"foam"`
+	FoamShading FoamShading `json:"foam_shading,omitempty" yaml:"foam_shading"`
 	// AnalysisSpacingM is the cell size of the truth grid, default 0.25 m.
 	AnalysisSpacingM float64 `json:"analysis_spacing_m" yaml:"analysis_spacing_m"`
 	// Seed seeds the sensor noise, the roughness and the chessboard poses;
@@ -313,6 +319,16 @@ func WriteDeployment(ctx context.Context, d Deployment, dir string, workers int,
 		return nil, err
 	}
 	base.Generated = "crestspeed samples.WriteDeployment"
+	foam, foamTruth, err := d.Foam.setupFoam(d.Sea, sea, grid.X, grid.Y)
+	if err != nil {
+		return nil, err
+	}
+	if foam != nil {
+		if err := r.SetFoam(foamTruth.Patches, d.FoamShading); err != nil {
+			return nil, err
+		}
+		base.Whitecaps = foamTruth
+	}
 	rough := r.Roughness()
 	var rs2 float64
 	for _, c := range rough.Components {
@@ -359,6 +375,7 @@ func WriteDeployment(ctx context.Context, d Deployment, dir string, workers int,
 	ew, err := ingest.CreateElevation(ncPath, grid, ingest.WriteOptions{
 		TimeUnits: "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z"),
 		DepthM:    base.DepthM,
+		WithFoam:  foam != nil,
 		Title:     "crestspeed synthetic deployment: true sea-surface elevation",
 		Attrs: map[string]string{
 			"source":  "crestspeed samples.WriteDeployment: linear superposition of free wave components",
@@ -376,6 +393,10 @@ func WriteDeployment(ctx context.Context, d Deployment, dir string, workers int,
 	}
 	eval := NewFrameEvaluator(sea, grid.X, grid.Y, workers)
 	etaBuf := make([]float32, len(grid.X)*len(grid.Y))
+	var foamBuf []uint8
+	if foam != nil {
+		foamBuf = make([]uint8, len(etaBuf))
+	}
 
 	// Frames: render in this goroutine, encode and write in two others,
 	// with two pairs of image buffers in flight.
@@ -441,7 +462,10 @@ func WriteDeployment(ctx context.Context, d Deployment, dir string, workers int,
 			finish()
 			return nil, err
 		}
-		if err := ew.WriteFrame(t, etaBuf, nil); err != nil {
+		if foam != nil {
+			foam.Paint(i, t, foamBuf)
+		}
+		if err := ew.WriteFrame(t, etaBuf, foamBuf); err != nil {
 			finish()
 			return nil, err
 		}

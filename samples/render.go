@@ -270,11 +270,12 @@ type Renderer struct {
 	rays   [2][]float32  // per pixel: world direction (unit) and vignetting factor
 	w, h   int
 
-	long    gridEval  // the sea on the world grid
-	tile    gridEval  // the roughness on its tile
-	gamma   []float32 // gamma-encoding table, linear radiance → grey level
-	fresnel []float32 // Fresnel reflectance against the cosine of incidence
-	sky     []float32 // sky gradation against the cosine of the zenith angle
+	long    gridEval    // the sea on the world grid
+	tile    gridEval    // the roughness on its tile
+	gamma   []float32   // gamma-encoding table, linear radiance → grey level
+	fresnel []float32   // Fresnel reflectance against the cosine of incidence
+	sky     []float32   // sky gradation against the cosine of the zenith angle
+	foam    *foamShader // foam patches painted on the surface (render_foam.go); nil: none
 }
 
 // Marching constants.
@@ -1111,6 +1112,9 @@ func (r *Renderer) traceStrip(s *Surface, side, x0, x1 int, lin []float32, hits 
 			if ok {
 				gx, gy := s.Gradient(o[0]+t*d[0], o[1]+t*d[1])
 				L = r.shade(d, gx, gy, true)
+				if r.foam != nil {
+					L = r.foam.radiance(L, o[0]+t*d[0], o[1]+t*d[1], s.t)
+				}
 				have[c], rho[c], tanE[c], ux[c], uy[c] = dh > 0, t*dh, dz/dh, d[0]/dh, d[1]/dh
 			} else {
 				L = r.shade(d, 0, 0, false)

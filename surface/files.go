@@ -20,14 +20,16 @@ type FileSink struct {
 	// none).
 	Path, PointsPath string
 	// Options of the elevation file; the sink adds attributes describing
-	// the reconstruction (sea plane, grid, matcher) to Options.Attrs.
+	// the reconstruction (sea plane, grid, matcher) to Options.Attrs, and
+	// sets WithFoam when the run detects foam.
 	Options ingest.WriteOptions
 
-	ew *ingest.ElevationWriter
-	cw *netcdf.Writer
-	n  int
-	ny int
-	nx int
+	ew   *ingest.ElevationWriter
+	cw   *netcdf.Writer
+	n    int
+	ny   int
+	nx   int
+	foam bool // the file has the foam variable (Options.Foam.Enabled)
 }
 
 // Attributes returns the global attributes that describe a run's setup.
@@ -89,6 +91,8 @@ func (fs *FileSink) Start(s *Setup) error {
 	if opt.Title == "" {
 		opt.Title = "Sea-surface elevation maps reconstructed from stereo image pairs"
 	}
+	opt.WithFoam = s.Options.Foam.Enabled
+	fs.foam = opt.WithFoam
 	ew, err := ingest.CreateElevation(fs.Path, s.Grid, opt)
 	if err != nil {
 		return err
@@ -167,7 +171,11 @@ func (fs *FileSink) Write(m *Map) error {
 	if fs.ew == nil {
 		return fmt.Errorf("surface: the output is not started or already finished")
 	}
-	if err := fs.ew.WriteFrame(m.Time, m.Eta, nil); err != nil {
+	var foam []uint8
+	if fs.foam {
+		foam = m.Foam
+	}
+	if err := fs.ew.WriteFrame(m.Time, m.Eta, foam); err != nil {
 		return err
 	}
 	if fs.cw != nil {

@@ -113,6 +113,9 @@ type Options struct {
 	MinFrameCoverage float64
 	// Workers reconstruct pairs in parallel (≤ 0: one).
 	Workers int
+	// Foam configures whitecap detection on the rectified left images
+	// (foam.go); off unless Foam.Enabled.
+	Foam FoamOptions
 	// Progress, when set, is told how far each pass has got ("plane",
 	// "grid", "reconstruct"); total is -1 when unknown.
 	Progress func(pass string, done, total int) `json:"-"`
@@ -137,6 +140,7 @@ func DefaultOptions() Options {
 		MaxAbsElevationM: 10,
 		MinFrameCoverage: 0.1,
 		Workers:          1,
+		Foam:             DefaultFoamOptions(),
 	}
 }
 
@@ -213,6 +217,11 @@ func (o Options) Validate() error {
 		return fmt.Errorf("grid bounds need all four of x0, x1, y0, y1 (or none, for the automatic rectangle); %d are given", n)
 	case n == 4 && !(*g.X1 > *g.X0 && *g.Y1 > *g.Y0):
 		return fmt.Errorf("grid bounds x %g–%g m, y %g–%g m are not increasing", *g.X0, *g.X1, *g.Y0, *g.Y1)
+	}
+	if o.Foam.Enabled {
+		if err := o.Foam.Validate(); err != nil {
+			return err
+		}
 	}
 	return nil
 }

@@ -1,6 +1,7 @@
 package surface
 
 import (
+	"errors"
 	"fmt"
 	"image"
 	"image/color"
@@ -382,6 +383,7 @@ func (r *Reconstructor) SetGrid(g ingest.Grid) error {
 // StageTimes accumulates the wall time of each stage of a worker.
 type StageTimes struct {
 	Remap, Match, Reproject, Grid time.Duration
+	Foam                          time.Duration // foam detection and mapping
 	Pairs                         int
 }
 
@@ -391,6 +393,7 @@ func (t *StageTimes) Add(o StageTimes) {
 	t.Match += o.Match
 	t.Reproject += o.Reproject
 	t.Grid += o.Grid
+	t.Foam += o.Foam
 	t.Pairs += o.Pairs
 }
 
@@ -414,6 +417,13 @@ type Map struct {
 	Eta    []float32
 	Points []int32
 	Stats  FrameStats
+	// Foam is the foam mask per cell (1 whitecap, 0 not) when foam
+	// detection is on; FoamStats what it found; FoamSkip the reason the
+	// left image was not analysed for foam ("saturated image", "black
+	// image"; its mask is then all zeros), empty otherwise.
+	Foam      []uint8
+	FoamStats FoamStats
+	FoamSkip  string
 }
 
 // Coverage returns the fraction of cells with an elevation.
@@ -441,6 +451,7 @@ type Worker struct {
 	dispF              gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
 	xyz                gocv.Mat
 	sum                []float64
+	foam               *FoamDetector // nil when foam detection is off
 	// Times accumulates the wall time of the worker's stages.
 	Times StageTimes
 }
@@ -452,8 +463,15 @@ func (r *Reconstructor) NewWorker() (*Worker, error) {
 	if err != nil {
 		return nil, fmt.Errorf("surface: %v", err)
 	}
+	var det *FoamDetector
+	if r.opt.Foam.Enabled {
+		if det, err = NewFoamDetector(r.opt.Foam); err != nil {
+			s.Close()
+			return nil, err
+		}
+	}
 	return &Worker{
-		r: r, sgbm: s,
+		r: r, sgbm: s, foam: det,
 		minValid: int16((r.minD + 1) * cvshim.DisparityScale),
 		maxValid: int16((r.minD + r.numD - 1) * cvshim.DisparityScale),
 		rectL:    gocv.NewMat(), rectR: gocv.NewMat(), disp: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
@@ -690,6 +708,17 @@ func (w *Worker) Reconstruct(left, right gocv.Mat, m *Map) error {
 	w.Times.Grid += time.Since(t0)
 	w.Times.Pairs++
 	m.Stats.Matched, m.Stats.Consistent = st.ValidBefore, st.ValidAfter
+	if err != nil || w.foam == nil {
+		m.Foam, m.FoamStats, m.FoamSkip = m.Foam[:0], FoamStats{}, ""
+		return err
+	}
+	t0 = time.Now()
+	m.FoamSkip = ""
+	m.Foam, m.FoamStats, err = w.Foam(w.foam, m.Foam)
+	w.Times.Foam += time.Since(t0)
+	if errors.Is(err, ErrSaturatedImage) || errors.Is(err, ErrBlackImage) {
+		m.FoamSkip, err = err.Error(), nil
+	}
 	return err
 }
 

@@ -72,6 +72,10 @@ type Result struct {
 	// by the source or by Run, by reason.
 	Frames  int
 	Skipped ingest.SkipCounts
+	// FoamSkipped counts the written maps whose left image was not
+	// analysed for foam, by reason ("saturated image", "black image");
+	// their foam mask is all zeros.
+	FoamSkipped ingest.SkipCounts
 	// Times sums the stage times of the reconstruction pass over all
 	// workers; Pass the wall time of each pass.
 	Times StageTimes
@@ -103,7 +107,7 @@ func Run(ctx context.Context, rig *calib.Rig, open Opener, opt Options, sink Sin
 	if err := cvshim.SetNumThreads(threads); err != nil {
 		return nil, fmt.Errorf("surface: %v", err)
 	}
-	res := &Result{Skipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
+	res := &Result{Skipped: ingest.SkipCounts{}, FoamSkipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
 	if err := probe(rec, open); err != nil {
 		return nil, err
 	}
@@ -189,6 +193,9 @@ func Run(ctx context.Context, rig *calib.Rig, open Opener, opt Options, sink Sin
 			}
 			if err := sink.Write(m); err != nil {
 				return err
+			}
+			if m.FoamSkip != "" {
+				res.FoamSkipped[m.FoamSkip]++
 			}
 			c := m.Coverage()
 			sumCov += c

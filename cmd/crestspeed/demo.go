@@ -110,8 +110,11 @@ func (app *App) demoStereo(cmd *cobra.Command, dir string) error {
 	if err := app.reconstruct(cmd); err != nil {
 		return err
 	}
-	// 3. track crests on the reconstructed maps
+	// 3. track crests on the reconstructed maps. Sky glints on steep faces
+	// pass the foam detector as small bright patches; the painted
+	// whitecaps cover about 4 m², so patches under 2 m² are left out.
 	*app.cfg = saved
+	app.cfg.Track.MinFoamPatchArea = 2
 	sum, err := app.track(cmd, maps, filepath.Join(dir, "tracks"))
 	if err != nil {
 		return err
@@ -124,6 +127,10 @@ func (app *App) demoStereo(cmd *cobra.Command, dir string) error {
 	app.logf("  %-26s %10.3f %10.3f", "Hm0 (m)", truth.Hm0M, sum.SeaState.Hm0)
 	app.logf("  %-26s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, sum.SeaState.Tp)
 	app.logf("  %-26s %10.1f %10.1f", "mean direction (°)", math.Remainder(truth.MeanDirectionDeg, 360), sum.SeaState.MeanDirection)
+	if sum.Whitecaps != nil {
+		app.logf("  %-26s %10d %10d", "whitecaps", len(d.Foam.Patches), sum.Whitecaps.Whitecaps)
+		app.logf("  %-26s %10.3f %10.3f", "whitecap front speed (m/s)", d.Foam.Patches[0].SpeedMPS, sum.Whitecaps.MedianTrackSpeedRatio*sum.SeaState.PeakPhaseSpeed)
+	}
 	app.logf("  (the truth Hm0 and Tp are those of the generated spectrum; a %.0f s record scatters around them by several per cent)", float64(d.Frames)/d.FPS)
 	return nil
 }
@@ -142,6 +149,18 @@ func demoStereoDeployment() samples.Deployment {
 	d.FPS = 6
 	d.Frames = 180
 	d.CalibrationViews = 14
+	// Whitecaps painted on the surface, fronts moving with the waves at 0.8
+	// of the phase speed of the peak period (deep water, c = gT/2π), within
+	// the part of the sea both cameras see well.
+	c := 0.8 * speed.G * d.Sea.JONSWAP.TpS / (2 * math.Pi)
+	d.Foam = samples.FoamSpec{Enabled: true}
+	for i, y := range []float64{-2, 1.5, 0, -1, 2} {
+		d.Foam.Patches = append(d.Foam.Patches, samples.FoamPatch{
+			StartS: 3 + 5*float64(i), FrontXM: 23 + float64(i%2), FrontYM: y,
+			DirectionDeg: d.Sea.JONSWAP.DirectionDeg, SpeedMPS: c,
+			FrontLengthM: 3, LengthM: 1.5, DurationS: 2,
+		})
+	}
 	return d
 }
 

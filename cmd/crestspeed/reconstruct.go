@@ -36,6 +36,7 @@ type ReconstructConfig struct {
 	SGBM             ReconstructSGBM  `yaml:"sgbm"`
 	Grid             ReconstructGrid  `yaml:"grid"`
 	Plane            ReconstructPlane `yaml:"plane"`
+	Foam             ReconstructFoam  `yaml:"foam"`
 }
 
 // ReconstructSGBM holds the semi-global matcher's settings.
@@ -160,6 +161,18 @@ func reconstructOutputs(out string) (points, rig string) {
 	return stem + "-points.nc", stem + "-rig.yaml"
 }
 
+// ReconstructFoam configures whitecap detection on the rectified left
+// images (see surface.FoamOptions for the model).
+type ReconstructFoam struct {
+	Enabled       bool    `yaml:"enabled"`
+	HighRatio     float64 `yaml:"high_ratio"`
+	LowRatio      float64 `yaml:"low_ratio"`
+	MinContrastDN float64 `yaml:"min_contrast_dn"`
+	MinAreaPx     int     `yaml:"min_area_px"`
+	StereoCheck   bool    `yaml:"stereo_check"`
+	CellFraction  float64 `yaml:"cell_fraction"`
+}
+
 // surfaceOptions turns the configuration into surface.Options.
 func (c ReconstructConfig) surfaceOptions(workers int) surface.Options {
 	o := surface.DefaultOptions()
@@ -184,6 +197,11 @@ func (c ReconstructConfig) surfaceOptions(workers int) surface.Options {
 	o.MinPoints = c.MinPoints
 	o.MaxAbsElevationM = c.MaxAbsElevationM
 	o.MinFrameCoverage = c.MinFrameCoverage
+	f := c.Foam
+	o.Foam.Enabled = f.Enabled
+	o.Foam.HighRatio, o.Foam.LowRatio = f.HighRatio, f.LowRatio
+	o.Foam.MinContrastDN, o.Foam.MinAreaPx = f.MinContrastDN, f.MinAreaPx
+	o.Foam.StereoCheck, o.Foam.CellFraction = f.StereoCheck, f.CellFraction
 	o.Workers = workers
 	return o
 }
@@ -292,6 +310,9 @@ func (app *App) reconstruct(cmd *cobra.Command) error {
 	app.logf("reconstruct: disparities %d to %d px%s; %d workers × %d OpenCV threads",
 		s.SGBM.MinDisparity, s.SGBM.MinDisparity+s.SGBM.NumDisparities-1, map[bool]string{true: " (residual about the sea plane's)", false: ""}[s.Prewarped],
 		s.Workers, s.OpenCVThreads)
+	for _, k := range sortedSkipReasons(res.FoamSkipped) {
+		app.logf("reconstruct: no foam detection on %d pairs (elevation kept): %s", res.FoamSkipped[k], k)
+	}
 	for _, k := range sortedSkipReasons(res.Skipped) {
 		app.logf("reconstruct: skipped %d pairs: %s", res.Skipped[k], k)
 	}
