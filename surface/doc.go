@@ -88,6 +88,19 @@
 // its area). Without MaxRangeM the view is considered out to 10 camera
 // heights.
 //
+// # Whitecaps
+//
+// With Options.Foam enabled, each rectified left image is searched for foam
+// (FoamDetector): pixels much brighter than the local background (a median
+// of block means) seed regions grown by hysteresis, cleaned by opening and
+// closing and kept above a minimum area; a stereo check keeps a pixel only
+// when its match in the right image is bright too, since sky glints are seen
+// by one camera at a time. Foam pixels vote for grid cells through their 3-D
+// points, or through their ray's intersection with the sea plane where
+// disparity is missing, and a cell is foam when at least CellFraction of its
+// pixels are. Saturated and black images are skipped and counted, never
+// taken as foam; their elevation map is still written.
+//
 // # Parallelism and determinism
 //
 // Pairs are read in time order by one goroutine, reconstructed by Workers
