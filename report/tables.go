@@ -171,6 +171,14 @@ type RatioStats struct {
 // ClassStatistics computes the statistics of ratio per steepness class and
 // over all rows.
 func ClassStatistics(rows []speed.CrestRow, inner []float64, ratio func(speed.CrestRow) float64) RatioStats {
+	return classStatistics(len(rows), inner,
+		func(i int) (float64, float64, int) { return ratio(rows[i]), rows[i].Steepness, rows[i].TrackID })
+}
+
+// classStatistics summarises n samples, sample i giving its value, the
+// steepness that sets its class and the track it belongs to (so that each
+// class also counts its tracks). NaN and infinite values are left out.
+func classStatistics(n int, inner []float64, sample func(i int) (value, steepness float64, track int)) RatioStats {
 	bounds := ClassBounds(inner)
 	per := make([][]float64, len(bounds))
 	perTracks := make([]map[int]bool, len(bounds))
@@ -179,17 +187,17 @@ func ClassStatistics(rows []speed.CrestRow, inner []float64, ratio func(speed.Cr
 	}
 	allTracks := map[int]bool{}
 	var all []float64
-	for _, r := range rows {
-		v := ratio(r)
+	for i := 0; i < n; i++ {
+		v, sc, id := sample(i)
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			continue
 		}
 		all = append(all, v)
-		allTracks[r.TrackID] = true
+		allTracks[id] = true
 		for k, b := range bounds {
-			if r.Steepness >= b[0] && r.Steepness < b[1] {
+			if sc >= b[0] && sc < b[1] {
 				per[k] = append(per[k], v)
-				perTracks[k][r.TrackID] = true
+				perTracks[k][id] = true
 				break
 			}
 		}

@@ -100,30 +100,13 @@ func SummariseWhitecaps(wc *speed.WhitecapResult, bounds []float64) *WhitecapsSu
 	}
 	s.Ratio = map[string]RatioStats{}
 	for _, ref := range []string{"peak", "local"} {
-		classes := ClassBounds(bounds)
-		per := make([][]float64, len(classes))
-		var all []float64
-		for _, r := range wc.Rows {
-			v := r.RatioPeak
+		s.Ratio[ref] = classStatistics(len(wc.Rows), bounds, func(i int) (float64, float64, int) {
+			r := &wc.Rows[i]
 			if ref == "local" {
-				v = r.RatioLocal
+				return r.RatioLocal, r.ParentSteepness, r.TrackID
 			}
-			if math.IsNaN(v) {
-				continue
-			}
-			all = append(all, v)
-			for k, c := range classes {
-				if r.ParentSteepness >= c[0] && r.ParentSteepness < c[1] {
-					per[k] = append(per[k], v)
-					break
-				}
-			}
-		}
-		rs := RatioStats{All: Summarise(all, 0, math.Inf(1))}
-		for k, c := range classes {
-			rs.Classes = append(rs.Classes, Summarise(per[k], c[0], c[1]))
-		}
-		s.Ratio[ref] = rs
+			return r.RatioPeak, r.ParentSteepness, r.TrackID
+		})
 	}
 	var tr []float64
 	cp := math.NaN()
