@@ -15,32 +15,12 @@
 #include <opencv2/calib3d.hpp>
 #include <opencv2/core.hpp>
 
+#include "shim_errors.hpp"
+
 namespace {
 
-char *errorString(const std::string &msg) {
-	char *s = static_cast<char *>(std::malloc(msg.size() + 1));
-	if (s == nullptr) {
-		// Out of memory while reporting an error: NULL would read as
-		// success, so stop here rather than return garbage.
-		std::abort();
-	}
-	std::memcpy(s, msg.c_str(), msg.size() + 1);
-	return s;
-}
-
-// fail turns the exception being handled into an error string.
-char *fail(const char *what_call) {
-	try {
-		throw;
-	} catch (const cv::Exception &e) {
-		// e.err is the bare message; e.what() adds file and line noise.
-		return errorString(std::string(what_call) + ": " + e.err + " (" + e.func + ")");
-	} catch (const std::exception &e) {
-		return errorString(std::string(what_call) + ": " + e.what());
-	} catch (...) {
-		return errorString(std::string(what_call) + ": unknown C++ exception");
-	}
-}
+using cvshim_errors::errorString;
+using cvshim_errors::fail;
 
 // pointViews makes per-view Mat headers over caller-owned float arrays of
 // dim floats per point. The headers do not own the data.

@@ -17,6 +17,8 @@
 #include <opencv2/core.hpp>
 #include <opencv2/ximgproc/disparity_filter.hpp>
 
+#include "shim_errors.hpp"
+
 struct cs_sgbm {
 	cv::Ptr<cv::StereoSGBM> left;
 	cv::Ptr<cv::StereoMatcher> right;
@@ -27,29 +29,8 @@ struct cs_sgbm {
 
 namespace {
 
-char *errorString(const std::string &msg) {
-	char *s = static_cast<char *>(std::malloc(msg.size() + 1));
-	if (s == nullptr) {
-		// Out of memory while reporting an error: NULL would read as
-		// success, so stop here rather than return garbage.
-		std::abort();
-	}
-	std::memcpy(s, msg.c_str(), msg.size() + 1);
-	return s;
-}
-
-// fail turns the exception being handled into an error string.
-char *fail(const char *what_call) {
-	try {
-		throw;
-	} catch (const cv::Exception &e) {
-		return errorString(std::string(what_call) + ": " + e.err + " (" + e.func + ")");
-	} catch (const std::exception &e) {
-		return errorString(std::string(what_call) + ": " + e.what());
-	} catch (...) {
-		return errorString(std::string(what_call) + ": unknown C++ exception");
-	}
-}
+using cvshim_errors::errorString;
+using cvshim_errors::fail;
 
 cv::Mat &matRef(void *p, const char *name) {
 	if (p == nullptr) {
