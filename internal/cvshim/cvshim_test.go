@@ -1,44 +1,22 @@
 package cvshim_test
 
 import (
-	"bytes"
-	"encoding/json"
 	"image"
 	"math"
-	"os"
-	"os/exec"
-	"path/filepath"
 	"strings"
 	"testing"
 
 	"gocv.io/x/gocv"
 
 	"crestspeed/internal/cvshim"
+
+	"crestspeed/internal/pyref"
 )
 
-// python runs a script with Debian's /usr/bin/python3 (numpy and
-// python3-opencv, the reference), giving it the JSON encoding of in as the
-// file named by sys.argv[1] and decoding its standard output into out.
+// python runs a reference script: see pyref.JSON.
 func python(t *testing.T, script string, in, out any) {
 	t.Helper()
-	dir := t.TempDir()
-	data, err := json.Marshal(in)
-	if err != nil {
-		t.Fatal(err)
-	}
-	inPath := filepath.Join(dir, "in.json")
-	if err := os.WriteFile(inPath, data, 0o644); err != nil {
-		t.Fatal(err)
-	}
-	var stdout, stderr bytes.Buffer
-	cmd := exec.Command("/usr/bin/python3", "-c", script, inPath)
-	cmd.Stdout, cmd.Stderr = &stdout, &stderr
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("/usr/bin/python3 with numpy and python3-opencv is needed for this check (scripts/setup-deps installs them): %v\n%s", err, stderr.String())
-	}
-	if err := json.Unmarshal(stdout.Bytes(), out); err != nil {
-		t.Fatalf("python output cannot be read: %v\n%s", err, stdout.String())
-	}
+	pyref.JSON(t, script, in, out)
 }
 
 // The flag constants must be OpenCV's own values; reference: the cv2
