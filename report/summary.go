@@ -180,51 +180,10 @@ func (s *Summary) JSON() ([]byte, error) {
 	enc := json.NewEncoder(&buf)
 	enc.SetIndent("", "  ")
 	enc.SetEscapeHTML(false)
-	if err := enc.Encode(sanitise(s)); err != nil {
+	if err := enc.Encode(jsonSafe(s)); err != nil {
 		return nil, err
 	}
 	return buf.Bytes(), nil
-}
-
-// sanitise round-trips v through a generic form with NaN and Inf replaced by
-// nil, so that every float field can be encoded.
-func sanitise(v any) any {
-	switch t := v.(type) {
-	case *Summary:
-		m := map[string]any{}
-		m["tool"] = t.Tool
-		m["caution"] = t.Caution
-		m["warnings"] = t.Warnings
-		m["config"] = t.Config
-		m["inputs"] = t.Inputs
-		m["record"] = t.Record
-		m["frames"] = t.Frames
-		m["sea_state"] = fixFloats(t.SeaState)
-		m["masked_fraction"] = jsonNum(t.Masked)
-		m["crests"] = t.Crests
-		m["crest_speed_ratio"] = t.Ratio
-		m["method"] = t.Method
-		m["timings_s"] = t.Timings
-		m["outputs"] = t.Outputs
-		if t.Whitecaps != nil {
-			m["whitecaps"] = jsonSafe(t.Whitecaps)
-		}
-		if t.Inception != nil {
-			m["inception"] = jsonSafe(t.Inception)
-		}
-		return m
-	}
-	return v
-}
-
-func fixFloats(ss SeaStateSummary) map[string]any {
-	return map[string]any{
-		"hm0_m": jsonNum(ss.Hm0), "tp_s": jsonNum(ss.Tp), "mean_direction_deg": jsonNum(ss.MeanDirection),
-		"direction_source": ss.DirectionSource, "direction_spread_deg": jsonNum(ss.DirectionSpread),
-		"depth_m": jsonNum(ss.Depth), "depth_source": ss.DepthSource,
-		"peak_phase_speed_mps": jsonNum(ss.PeakPhaseSpeed), "peak_wavelength_m": jsonNum(ss.PeakWavelength),
-		"current_x_mps": ss.CurrentU, "current_y_mps": ss.CurrentV, "vorticity_per_s": ss.Vorticity,
-	}
 }
 
 // TrackOutputs are the files "crestspeed track" writes. spectrum.csv holds

@@ -123,8 +123,9 @@ func SummariseWhitecaps(wc *speed.WhitecapResult, bounds []float64) *WhitecapsSu
 }
 
 // jsonSafe converts v into maps, slices and numbers that encoding/json can
-// write, with NaN and infinite floats as null. Struct fields use their json
-// tag names.
+// write, with NaN and infinite floats as null (JSON has no NaN). Struct
+// fields use their json tag names and honour omitempty; values with their
+// own MarshalJSON are left to it.
 func jsonSafe(v any) any {
 	return jsonSafeValue(reflect.ValueOf(v))
 }
@@ -152,12 +153,15 @@ func jsonSafeValue(v reflect.Value) any {
 			if !f.IsExported() {
 				continue
 			}
-			name, _, _ := strings.Cut(f.Tag.Get("json"), ",")
+			name, opts, _ := strings.Cut(f.Tag.Get("json"), ",")
 			if name == "-" {
 				continue
 			}
 			if name == "" {
 				name = f.Name
+			}
+			if strings.Contains(opts, "omitempty") && v.Field(i).IsZero() {
+				continue
 			}
 			out[name] = jsonSafeValue(v.Field(i))
 		}
