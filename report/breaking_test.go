@@ -20,17 +20,18 @@ import (
 	"crestspeed/ingest"
 	"crestspeed/samples"
 	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 // analyseFile runs the crest analysis on an elevation-map file.
-func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record {
+func analyseFile(t *testing.T, nc string, opt analysis.Options) *analysis.Record {
 	t.Helper()
 	src, err := ingest.OpenElevation(nc, ingest.ElevationOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer src.Close()
-	rec, err := speed.AnalyseRecord(context.Background(), src, opt)
+	rec, err := analysis.Run(context.Background(), src, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -43,14 +44,14 @@ func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record
 // on crests picked by their B_x — on five of the eight tracks whose B_x is
 // highest, at the frame of their largest B_x, and on four tracks below
 // those — with one saturated foam frame; the record is synthesised again
-// with the foam and analysed with whitecaps and B_x (speed.AnalyseRecord),
+// with the foam and analysed with whitecaps and B_x (analysis.Run),
 // and the files of "crestspeed track" are written (WriteTrackOutputs).
 //
 // A linear synthetic sea keeps B_x well below the published threshold
 // (about 0.85, Barthelemy et al. 2018), so the threshold here is set
 // between the eighth and ninth highest track maxima: eight tracks are
 // flagged, and every cell of the confusion table is populated.
-func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
+func breakingTrackDir(t *testing.T) (string, *analysis.Record, *Summary) {
 	t.Helper()
 	dir := t.TempDir()
 	sc := samples.Scenario{
@@ -62,7 +63,7 @@ func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
 	if _, err := samples.Synthesize(context.Background(), sc, plain, 1, 2, nil); err != nil {
 		t.Fatal(err)
 	}
-	opt := speed.RecordOptions{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2, BreakingIndex: true}
+	opt := analysis.Options{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2, BreakingIndex: true}
 	first := analyseFile(t, plain, opt)
 	type peak struct {
 		bx  float64

@@ -97,7 +97,7 @@ func (t *CrestTable) Column(name string) []float64 {
 }
 
 // TableFromRows copies the columns of crests.csv out of analysed rows
-// (ordered by track and time, as speed.AnalyseRecord returns them).
+// (ordered by track and time, as analysis.Run returns them).
 func TableFromRows(rows []speed.CrestRow) *CrestTable {
 	t := &CrestTable{}
 	for i := range t.Cols {

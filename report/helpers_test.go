@@ -14,7 +14,7 @@ type rowView = speed.CrestRow
 // each, 10 frames per second) shaped like analysed crests of a 5 s sea:
 // crests that grow and decay along the track, crest speeds that dip below
 // the phase speed, no speed in the first and last two rows of a track.
-// Rows are ordered by track and time, as speed.AnalyseRecord returns them.
+// Rows are ordered by track and time, as analysis.Run returns them.
 func syntheticRows(rng *rand.Rand, nTracks, meanRows int) []speed.CrestRow {
 	const dt, cp, theta = 0.1, 7.8, 0.3
 	rows := make([]speed.CrestRow, 0, nTracks*meanRows)

@@ -12,7 +12,7 @@ import (
 	"strconv"
 	"strings"
 
-	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 // SpectrumColumns is the header of spectrum.csv.
@@ -224,7 +224,7 @@ func LoadDeployment(dir string) (*Deployment, error) {
 // DeploymentFromRecord makes the report input from an analysed record and
 // the summary WriteTrackOutputs returned for it, without re-reading files.
 // The numbers are those of the files: crests.csv keeps every float64 exactly.
-func DeploymentFromRecord(rec *speed.Record, sum *Summary, tracksDir string) *Deployment {
+func DeploymentFromRecord(rec *analysis.Record, sum *Summary, tracksDir string) *Deployment {
 	s := *sum
 	return &Deployment{
 		Crests:    TableFromRows(rec.Rows),

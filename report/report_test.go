@@ -24,13 +24,13 @@ import (
 
 	"crestspeed/ingest"
 	"crestspeed/samples"
-	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 // trackDir synthesises a small directional JONSWAP record (samples), runs
-// the crest analysis on it (speed.AnalyseRecord) and writes the files of
+// the crest analysis on it (analysis.Run) and writes the files of
 // "crestspeed track" (WriteTrackOutputs) into a fresh folder.
-func trackDir(t *testing.T) (string, *speed.Record) {
+func trackDir(t *testing.T) (string, *analysis.Record) {
 	t.Helper()
 	dir := t.TempDir()
 	sc := samples.Scenario{
@@ -47,7 +47,7 @@ func trackDir(t *testing.T) (string, *speed.Record) {
 		t.Fatal(err)
 	}
 	defer src.Close()
-	rec, err := speed.AnalyseRecord(context.Background(), src, speed.RecordOptions{
+	rec, err := analysis.Run(context.Background(), src, analysis.Options{
 		MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2,
 	})
 	if err != nil {

@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 // Caution is printed in every report and summary.
@@ -105,7 +106,7 @@ type CrestsSummary struct {
 }
 
 // BuildSummary assembles summary.json from an analysed record.
-func BuildSummary(rec *speed.Record, run RunInfo) *Summary {
+func BuildSummary(rec *analysis.Record, run RunInfo) *Summary {
 	ss := rec.SeaState
 	s := &Summary{
 		Tool:    map[string]string{"name": "crestspeed", "version": run.Version},
@@ -195,7 +196,7 @@ var TrackOutputs = []string{"crests.csv", "tracks.csv", "spectrum.csv", "summary
 // summary.json into dir.
 // All files are written to temporaries first and renamed together at the
 // end, so a failure leaves none of them behind.
-func WriteTrackOutputs(dir string, rec *speed.Record, run RunInfo) (*Summary, error) {
+func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("cannot create output folder %s: %v", dir, err)
 	}

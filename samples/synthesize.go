@@ -84,6 +84,24 @@ type Scenario struct {
 	Foam    FoamSpec       `json:"foam,omitempty" yaml:"foam"`
 }
 
+// DefaultScenario is the synthetic record "crestspeed synthesize" writes
+// when nothing is configured: a directional JONSWAP sea at an invented site,
+// five minutes at 10 Hz on a 192 m × 128 m grid of 1 m cells. The other
+// kinds' settings are the defaults used when the kind is chosen.
+func DefaultScenario() Scenario {
+	return Scenario{
+		Site:    "Orsund Bank research platform (invented)",
+		Kind:    KindJONSWAP,
+		Regular: RegularWave{HeightM: 1, PeriodS: 6, DirectionDeg: 20},
+		JONSWAP: JONSWAPSea{HsM: 1.5, TpS: 6, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 1,
+			Components: 256, FMinRatio: 0.5, FMaxRatio: 3},
+		Packet: FocusingPacket{CentrePeriodS: 5, Bandwidth: 0.25, FocusXM: 60, FocusYM: 30, FocusTimeS: 20,
+			FocusEtaM: 0.6, Components: 64},
+		Grid: GridSpec{Nx: 192, Ny: 128, DxM: 1, DyM: 1, FPS: 10, Duration: 300, Start: "2026-06-14T09:00:00Z"},
+		Foam: FoamSpec{Auto: AutoFoam{MinSteepness: 0.2, SpeedRatio: 0.8}},
+	}
+}
+
 // Defects are deliberate faults written into a synthetic record.
 type Defects struct {
 	DropFrames []int `json:"drop_frames,omitempty" yaml:"drop_frames"` // frame numbers left out of the file

@@ -20,7 +20,7 @@ its default, to FILE (default crestspeed.yaml; "-" for standard output).`,
 				path = args[0]
 			}
 			if path == "-" {
-				_, err := fmt.Fprint(app.Stdout, configTemplate)
+				_, err := fmt.Fprint(app.con.stdout, configTemplate)
 				return err
 			}
 			if err := refuseOverwrite(path, app.cfg.Force); err != nil {
@@ -29,7 +29,7 @@ its default, to FILE (default crestspeed.yaml; "-" for standard output).`,
 			if err := writeFileAtomic(path, []byte(configTemplate)); err != nil {
 				return err
 			}
-			app.logf("wrote %s", path)
+			app.con.logf("wrote %s", path)
 			return nil
 		},
 	}

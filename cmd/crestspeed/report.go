@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -18,6 +19,11 @@ type ReportConfig struct {
 	BootstrapResamples int    `yaml:"bootstrap_resamples"`
 	BootstrapSeed      uint64 `yaml:"bootstrap_seed"`
 	HighestCrests      int    `yaml:"highest_crests"`
+}
+
+// defaultReportConfig holds the report package's defaults.
+func defaultReportConfig() ReportConfig {
+	return ReportConfig{BootstrapResamples: report.DefaultResamples, BootstrapSeed: 1, HighestCrests: report.DefaultHighestCrests}
 }
 
 func (rc ReportConfig) options() report.Options {
@@ -46,27 +52,7 @@ kept unless --force is given. "crestspeed track" writes the report itself
 unless --no-report is given.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			rc := app.cfg.Report
-			if rc.Tracks == "" {
-				return usageError{fmt.Errorf("give the folder \"crestspeed track\" wrote with --tracks DIR")}
-			}
-			out := app.cfg.Out
-			if out == "" {
-				out = rc.Tracks
-			}
-			if err := rc.options().Validate(); err != nil {
-				return usageError{err}
-			}
-			if err := refuseReportOverwrite(out, !samePath(out, rc.Tracks), app.cfg.Force); err != nil {
-				return err
-			}
-			started := time.Now()
-			d, err := report.LoadDeployment(rc.Tracks)
-			if err != nil {
-				return err
-			}
-			app.logf("report: %d crest rows from %s", d.Crests.Len(), rc.Tracks)
-			return app.writeReport(d, out, started)
+			return Report(cmd.Context(), app.con, *app.cfg)
 		},
 	}
 	f := cmd.Flags()
@@ -74,11 +60,37 @@ unless --no-report is given.`,
 	f.Int("resamples", 0, "bootstrap resamples for the 90 % confidence intervals")
 	f.Uint64("seed", 0, "seed of the bootstrap resampling")
 	f.Int("highest-crests", 0, "number of highest crests whose histories figure 4 shows")
-	bindFlag(app, cmd, "tracks", "report.tracks")
-	bindFlag(app, cmd, "resamples", "report.bootstrap_resamples")
-	bindFlag(app, cmd, "seed", "report.bootstrap_seed")
-	bindFlag(app, cmd, "highest-crests", "report.highest_crests")
+	app.bindFlag(cmd, "tracks", "report.tracks")
+	app.bindFlag(cmd, "resamples", "report.bootstrap_resamples")
+	app.bindFlag(cmd, "seed", "report.bootstrap_seed")
+	app.bindFlag(cmd, "highest-crests", "report.highest_crests")
 	return cmd
+}
+
+// Report rebuilds the report of the track folder cfg.Report.Tracks into
+// cfg.Out (default: that folder).
+func Report(ctx context.Context, con *console, cfg Config) error {
+	rc := cfg.Report
+	if rc.Tracks == "" {
+		return usageError{fmt.Errorf("give the folder \"crestspeed track\" wrote with --tracks DIR")}
+	}
+	out := cfg.Out
+	if out == "" {
+		out = rc.Tracks
+	}
+	if err := rc.options().Validate(); err != nil {
+		return usageError{fmt.Errorf("report settings: %w", err)}
+	}
+	if err := refuseReportOverwrite(out, !samePath(out, rc.Tracks), cfg.Force); err != nil {
+		return err
+	}
+	started := time.Now()
+	d, err := report.LoadDeployment(rc.Tracks)
+	if err != nil {
+		return err
+	}
+	con.logf("report: %d crest rows from %s", d.Crests.Len(), rc.Tracks)
+	return writeReport(con, cfg, d, out, started)
 }
 
 func init() { extraCommands = append(extraCommands, newReportCmd) }
@@ -100,15 +112,15 @@ func refuseReportOverwrite(dir string, withSummary, force bool) error {
 }
 
 // writeReport writes the report of d into dir and prints where it is.
-func (app *App) writeReport(d *report.Deployment, dir string, started time.Time) error {
-	opt := app.cfg.Report.options()
-	opt.Bootstrap.Workers = app.cfg.Workers
+func writeReport(con *console, cfg Config, d *report.Deployment, dir string, started time.Time) error {
+	opt := cfg.Report.options()
+	opt.Bootstrap.Workers = cfg.Workers
 	res, err := report.WriteReport(dir, d, opt)
 	if err != nil {
 		return err
 	}
-	app.logf("report: %d figures, %s written in %s", len(res.Figures), filepath.Join(dir, "crest_tracks.nc"), elapsed(started))
-	fmt.Fprintln(app.Stdout, res.HTML)
+	con.logf("report: %d figures, %s written in %s", len(res.Figures), filepath.Join(dir, "crest_tracks.nc"), elapsed(started))
+	fmt.Fprintln(con.stdout, res.HTML)
 	return nil
 }
 

@@ -1,4 +1,4 @@
-package speed_test
+package analysis_test
 
 import (
 	"context"
@@ -10,10 +10,11 @@ import (
 	"crestspeed/ingest"
 	"crestspeed/samples"
 	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 // analyse synthesizes a scenario and runs the crest analysis on it.
-func analyse(t *testing.T, sc samples.Scenario, opt speed.RecordOptions) (*speed.Record, samples.Truth) {
+func analyse(t *testing.T, sc samples.Scenario, opt analysis.Options) (*analysis.Record, samples.Truth) {
 	t.Helper()
 	path := filepath.Join(t.TempDir(), "rec.nc")
 	truth, err := samples.Synthesize(context.Background(), sc, path, 1, 2, nil)
@@ -35,7 +36,7 @@ func analyse(t *testing.T, sc samples.Scenario, opt speed.RecordOptions) (*speed
 		opt.MaxGapFrames = 2
 	}
 	opt.Workers = 2
-	rec, err := speed.AnalyseRecord(context.Background(), src, opt)
+	rec, err := analysis.Run(context.Background(), src, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -68,7 +69,7 @@ func TestRegularWaveRatios(t *testing.T) {
 	sc := samples.Scenario{Kind: samples.KindRegular,
 		Regular: samples.RegularWave{HeightM: 0.6, PeriodS: 5, DirectionDeg: 30, DepthM: 12},
 		Grid:    grid(128, 96, 1, 10, 80)}
-	rec, _ := analyse(t, sc, speed.RecordOptions{})
+	rec, _ := analyse(t, sc, analysis.Options{})
 	if d := math.Abs(rec.Refs.Theta*180/math.Pi - 30); d > 2 {
 		t.Errorf("direction %.2f°, want 30 ± 2", rec.Refs.Theta*180/math.Pi)
 	}
@@ -100,12 +101,12 @@ func TestCurrentDoppler(t *testing.T) {
 	sc := samples.Scenario{Kind: samples.KindRegular,
 		Regular: samples.RegularWave{HeightM: 0.5, PeriodS: 5, DirectionDeg: 10, DepthM: 0, Current: cur},
 		Grid:    grid(128, 64, 1, 10, 60)}
-	rec, truth := analyse(t, sc, speed.RecordOptions{Current: cur})
+	rec, truth := analyse(t, sc, analysis.Options{CurrentSpeedMPS: 1.2, CurrentDirectionDeg: 0.2 * 180 / math.Pi})
 	mp, _ := medianOf(rec.Rows, func(r speed.CrestRow) float64 { return r.RatioPeak })
 	if math.Abs(mp-1) > 0.02 {
 		t.Errorf("with the current: median c_cr/c_p = %.4f, want 1 ± 0.02", mp)
 	}
-	rec0, _ := analyse(t, sc, speed.RecordOptions{})
+	rec0, _ := analyse(t, sc, analysis.Options{})
 	mp0, _ := medianOf(rec0.Rows, func(r speed.CrestRow) float64 { return r.RatioPeak })
 	// expected: observed speed over the still-water speed at the observed
 	// (absolute) peak frequency of the record
@@ -138,7 +139,7 @@ func TestFocusingPacketSlowdown(t *testing.T) {
 		FocusTimeS: 16, FocusEtaM: 0.5, DirectionDeg: 0, DepthM: 0, Components: 64}
 	sc := samples.Scenario{Kind: samples.KindPacket, Packet: p, Grid: grid(192, 32, 0.5, 20, 32)}
 	dir := 0.0
-	rec, truth := analyse(t, sc, speed.RecordOptions{DirectionDeg: &dir, MinCrestFraction: 0.5})
+	rec, truth := analyse(t, sc, analysis.Options{DirectionDeg: &dir, MinCrestFraction: 0.5})
 	var num, den float64
 	for _, c := range truth.Components {
 		num += c.Amp * c.K * c.Omega
@@ -190,7 +191,7 @@ func TestJONSWAPMaskedWithDroppedFrames(t *testing.T) {
 		Grid:    grid(128, 96, 1, 10, 240),
 		Defects: samples.Defects{DropFrames: []int{500, 501, 1300}, MaskBlocks: 6, MaskBlockCells: 14, MaskSeed: 5},
 	}
-	rec, truth := analyse(t, sc, speed.RecordOptions{})
+	rec, truth := analyse(t, sc, analysis.Options{})
 	if got := rec.Skipped[ingest.SkipTimeGap]; got != 3 {
 		t.Errorf("skipped for time gaps: %d, want 3 (frames %v)", got, sc.Defects.DropFrames)
 	}
@@ -221,7 +222,7 @@ func TestBreakingIndexRegularWave(t *testing.T) {
 	sc := samples.Scenario{Kind: samples.KindRegular,
 		Regular: samples.RegularWave{HeightM: 2 * a, PeriodS: T, DirectionDeg: 25, DepthM: h},
 		Grid:    grid(128, 112, 1, 10, 60)}
-	rec, truth := analyse(t, sc, speed.RecordOptions{BreakingIndex: true})
+	rec, truth := analyse(t, sc, analysis.Options{BreakingIndex: true})
 	k := truth.Components[0].K
 	want := a * k / math.Tanh(k*h)
 	mb, n := medianOf(rec.Rows, func(r speed.CrestRow) float64 { return r.BreakingIndex })

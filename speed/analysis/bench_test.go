@@ -1,4 +1,4 @@
-package speed_test
+package analysis_test
 
 import (
 	"context"
@@ -12,7 +12,7 @@ import (
 
 	"crestspeed/ingest"
 	"crestspeed/samples"
-	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 	"crestspeed/tracking"
 )
 
@@ -122,7 +122,7 @@ func BenchmarkAnalyseRecordMemory(b *testing.B) {
 					b.Fatal(err)
 				}
 				start := time.Now()
-				rec, err := speed.AnalyseRecord(context.Background(), src, speed.RecordOptions{
+				rec, err := analysis.Run(context.Background(), src, analysis.Options{
 					MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: runtime.NumCPU()})
 				el := time.Since(start)
 				src.Close()
