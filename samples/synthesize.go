@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"crestspeed/ingest"
+	"crestspeed/internal/atomicfile"
 	"crestspeed/speed"
 )
 
@@ -129,6 +130,33 @@ type Truth struct {
 	Whitecaps        *WhitecapTruth `json:"whitecaps,omitempty"`
 }
 
+// Validate reports the first reason the scenario cannot be synthesized.
+func (s Scenario) Validate() error {
+	_, _, err := s.prepare()
+	return err
+}
+
+// prepare checks the scenario and builds its sea and truth.
+func (s Scenario) prepare() (*LinearSea, Truth, error) {
+	if err := s.Grid.Validate(); err != nil {
+		return nil, Truth{}, err
+	}
+	sea, err := s.Sea()
+	if err != nil {
+		return nil, Truth{}, err
+	}
+	truth, err := s.truth(sea)
+	if err != nil {
+		return nil, Truth{}, err
+	}
+	// Components shorter than two grid cells alias onto longer waves.
+	if kmax := sea.MaxWavenumber(); kmax > math.Pi/math.Max(s.Grid.DxM, s.Grid.DyM) {
+		return nil, Truth{}, fmt.Errorf("the sea has waves %.2f m long but the grid spacing (%g m) resolves only waves longer than %.2f m; use a finer grid or a lower highest frequency",
+			2*math.Pi/kmax, math.Max(s.Grid.DxM, s.Grid.DyM), 2*math.Max(s.Grid.DxM, s.Grid.DyM))
+	}
+	return sea, truth, nil
+}
+
 // Sea builds the scenario's LinearSea.
 func (s Scenario) Sea() (*LinearSea, error) {
 	switch s.Kind {
@@ -180,21 +208,9 @@ type Progress func(done, total int)
 // Both files appear complete or not at all. The same scenario gives the same
 // bytes of data whatever the worker count.
 func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers int, progress Progress) (Truth, error) {
-	if err := s.Grid.Validate(); err != nil {
-		return Truth{}, err
-	}
-	sea, err := s.Sea()
+	sea, truth, err := s.prepare()
 	if err != nil {
 		return Truth{}, err
-	}
-	truth, err := s.truth(sea)
-	if err != nil {
-		return Truth{}, err
-	}
-	// Components shorter than two grid cells alias onto longer waves.
-	if kmax := sea.MaxWavenumber(); kmax > math.Pi/math.Max(s.Grid.DxM, s.Grid.DyM) {
-		return Truth{}, fmt.Errorf("the sea has waves %.2f m long but the grid spacing (%g m) resolves only waves longer than %.2f m; use a finer grid or a lower highest frequency",
-			2*math.Pi/kmax, math.Max(s.Grid.DxM, s.Grid.DyM), 2*math.Max(s.Grid.DxM, s.Grid.DyM))
 	}
 	start := s.Grid.Start
 	if start == "" {
@@ -343,18 +359,5 @@ func writeJSONAtomic(path string, v any) error {
 	if err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), filepath.Base(path)+".part-*")
-	if err != nil {
-		return err
-	}
-	if _, err := tmp.Write(append(b, '\n')); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		os.Remove(tmp.Name())
-		return err
-	}
-	return os.Rename(tmp.Name(), path)
+	return atomicfile.WriteFile(path, append(b, '\n'))
 }

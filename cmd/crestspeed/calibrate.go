@@ -118,10 +118,8 @@ func Calibrate(ctx context.Context, con *console, c Config) error {
 	if cfg.Figures {
 		outputs = append(outputs, worstPath, residualPath)
 	}
-	for _, p := range outputs {
-		if err := refuseOverwrite(p, c.Force); err != nil {
-			return err
-		}
+	if err := claimOutputs(c.Force, outputs...); err != nil {
+		return err
 	}
 	pairs, err := calib.PairGlobs(cfg.Left, cfg.Right)
 	if err != nil {

@@ -4,10 +4,12 @@ import (
 	_ "embed"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"reflect"
 	"runtime"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/go-viper/mapstructure/v2"
@@ -178,6 +180,7 @@ func decodeInto(input any, cfg *Config) error {
 		WeaklyTypedInput: true,
 		Result:           cfg,
 		DecodeHook: mapstructure.ComposeDecodeHookFunc(
+			wholeNumbers,
 			mapstructure.StringToSliceHookFunc(","),
 		),
 	})
@@ -192,6 +195,36 @@ func decodeInto(input any, cfg *Config) error {
 		return fmt.Errorf("%q is not a setting; \"crestspeed init\" writes every setting there is", md.Unused[0])
 	}
 	return nil
+}
+
+// wholeNumbers refuses a fractional number for a whole-number setting
+// (mapstructure would truncate 2.5 frames to 2 without a word).
+func wholeNumbers(from, to reflect.Type, data any) (any, error) {
+	switch to.Kind() {
+	case reflect.Int, reflect.Int8, reflect.Int16, reflect.Int32, reflect.Int64,
+		reflect.Uint, reflect.Uint8, reflect.Uint16, reflect.Uint32, reflect.Uint64:
+	default:
+		return data, nil
+	}
+	var f float64
+	switch v := data.(type) {
+	case float64:
+		f = v
+	case float32:
+		f = float64(v)
+	case string:
+		p, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		if err != nil {
+			return data, nil // not a number: the decoder says so
+		}
+		f = p
+	default:
+		return data, nil
+	}
+	if f != math.Trunc(f) || math.IsInf(f, 0) || math.IsNaN(f) {
+		return nil, fmt.Errorf("%v is not a whole number", data)
+	}
+	return int64(f), nil
 }
 
 // decodeConfig turns viper's merged settings into a Config.
@@ -241,14 +274,24 @@ func checkEnvironment() error {
 	return nil
 }
 
-// cause strips mapstructure's decoration ("1 error(s) decoding: * ...")
-// from a decoding error.
+// cause turns a decoding error of mapstructure ("decoding failed due to
+// the following error(s):\n\n'track.x' cannot parse ...") into one clause
+// ("track.x: cannot parse ..."), the first when there are several.
 func cause(err error) string {
-	s := err.Error()
-	if i := strings.Index(s, "* "); i >= 0 {
-		s = s[i+2:]
+	s := strings.TrimSpace(err.Error())
+	if i := strings.Index(s, "\n\n"); i >= 0 {
+		s = strings.TrimSpace(s[i+2:])
 	}
-	return strings.TrimSpace(s)
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		s = s[:i]
+	}
+	s = strings.TrimPrefix(s, "* ")
+	if strings.HasPrefix(s, "'") {
+		if j := strings.Index(s[1:], "'"); j >= 0 {
+			s = s[1:j+1] + ":" + s[j+2:]
+		}
+	}
+	return s
 }
 
 // binding ties a flag of a command to configuration keys.

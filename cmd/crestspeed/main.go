@@ -9,6 +9,7 @@ package main
 
 import (
 	"context"
+	"crestspeed/speed/analysis"
 	"errors"
 	"fmt"
 	"io"
@@ -49,6 +50,11 @@ func main() {
 	app := newApp(os.Stdout, os.Stderr)
 	root := newRootCmd(app)
 	if err := root.ExecuteContext(ctx); err != nil {
+		if errors.Is(err, context.Canceled) {
+			err = errors.New("interrupted; finished outputs are kept and no partial file is left")
+			fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
+			os.Exit(exitInterrupted)
+		}
 		fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
 		os.Exit(exitCode(err))
 	}
@@ -57,12 +63,36 @@ func main() {
 // usageError marks an error in how the tool was called (exit status 2).
 type usageError struct{ error }
 
+func (u usageError) Unwrap() error { return u.error }
+
+// Exit statuses, the same for every verb (the README has the table).
+const (
+	exitOK          = 0   // done
+	exitFailed      = 1   // an input could not be analysed or an output not written
+	exitUsage       = 2   // the command line or configuration is wrong; nothing was done
+	exitIncomplete  = 3   // status: the run is not complete (parts queued, running or failed)
+	exitInterrupted = 130 // stopped by SIGINT or SIGTERM; finished outputs kept, no partial ones
+)
+
+// incompleteError marks a run that is not finished (exit status 3).
+type incompleteError struct{ error }
+
+func (e incompleteError) Unwrap() error { return e.error }
+
 func exitCode(err error) int {
 	var u usageError
-	if errors.As(err, &u) {
-		return 2
+	var inc incompleteError
+	switch {
+	case err == nil:
+		return exitOK
+	case errors.As(err, &u), errors.Is(err, analysis.ErrSetting):
+		return exitUsage
+	case errors.As(err, &inc):
+		return exitIncomplete
+	case errors.Is(err, context.Canceled):
+		return exitInterrupted
 	}
-	return 1
+	return exitFailed
 }
 
 // sentence makes sure an error message reads as one sentence.

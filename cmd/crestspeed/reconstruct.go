@@ -272,10 +272,8 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	if fitPlane {
 		outputs = append(outputs, rigPath)
 	}
-	for _, p := range outputs {
-		if err := refuseOverwrite(p, c.Force); err != nil {
-			return nil, err
-		}
+	if err := claimOutputs(c.Force, outputs...); err != nil {
+		return nil, err
 	}
 	spec := ingest.PairSpec{Dir: cfg.Frames, LeftGlob: cfg.Left, RightGlob: cfg.Right, TimestampsFile: cfg.Timestamps, FPS: cfg.FPS}
 	first, err := ingest.OpenPairs(spec)

@@ -81,7 +81,12 @@ func Report(ctx context.Context, con *console, cfg Config) error {
 	if err := rc.options().Validate(); err != nil {
 		return usageError{fmt.Errorf("report settings: %w", err)}
 	}
-	if err := refuseReportOverwrite(out, !samePath(out, rc.Tracks), cfg.Force); err != nil {
+	outputs := inDir(out, report.ReportOutputs...)
+	if !samePath(out, rc.Tracks) {
+		// in the track folder summary.json is updated in place
+		outputs = append(outputs, filepath.Join(out, "summary.json"))
+	}
+	if err := claimOutputs(cfg.Force, outputs...); err != nil {
 		return err
 	}
 	started := time.Now()
@@ -94,22 +99,6 @@ func Report(ctx context.Context, con *console, cfg Config) error {
 }
 
 func init() { extraCommands = append(extraCommands, newReportCmd) }
-
-// refuseReportOverwrite refuses to replace a finished report unless
-// force; summary.json counts only when the report goes to another folder
-// than the track files (in the track folder it is updated in place).
-func refuseReportOverwrite(dir string, withSummary, force bool) error {
-	names := append([]string{}, report.ReportOutputs...)
-	if withSummary {
-		names = append(names, "summary.json")
-	}
-	for _, name := range names {
-		if err := refuseOverwrite(filepath.Join(dir, name), force); err != nil {
-			return err
-		}
-	}
-	return nil
-}
 
 // writeReport writes the report of d into dir and prints where it is.
 func writeReport(con *console, cfg Config, d *report.Deployment, dir string, started time.Time) error {

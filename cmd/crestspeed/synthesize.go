@@ -57,14 +57,17 @@ func Synthesize(ctx context.Context, con *console, cfg Config) (samples.Truth, e
 	if out == "" {
 		return samples.Truth{}, usageError{fmt.Errorf("give the output file with --out FILE.nc")}
 	}
-	if err := refuseOverwrite(out, cfg.Force); err != nil {
-		return samples.Truth{}, err
-	}
 	if filepath.Ext(out) != ".nc" {
 		return samples.Truth{}, usageError{fmt.Errorf("output %s should end in .nc", out)}
 	}
 	if sc.Deflate < 0 || sc.Deflate > 9 {
-		return samples.Truth{}, usageError{fmt.Errorf("deflate level %d is outside 0–9", sc.Deflate)}
+		return samples.Truth{}, usageError{fmt.Errorf("deflate level %d is outside 0–9 (synthesize.deflate)", sc.Deflate)}
+	}
+	if err := sc.Scenario.Validate(); err != nil {
+		return samples.Truth{}, usageError{fmt.Errorf("synthesize settings: %w", err)}
+	}
+	if err := claimOutputs(cfg.Force, out, samples.TruthPath(out)); err != nil {
+		return samples.Truth{}, err
 	}
 	t0 := time.Now()
 	pr := con.newProgress("synthesize", sc.Grid.Frames())

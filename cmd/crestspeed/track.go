@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"path/filepath"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -97,15 +96,12 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		return nil, err
 	}
 	tc, dir := cfg.Track, cfg.Out
-	for _, name := range report.TrackOutputs {
-		if err := refuseOverwrite(filepath.Join(dir, name), cfg.Force); err != nil {
-			return nil, err
-		}
-	}
+	outputs := inDir(dir, trackOutputs...)
 	if tc.Report {
-		if err := refuseReportOverwrite(dir, false, cfg.Force); err != nil {
-			return nil, err
-		}
+		outputs = append(outputs, inDir(dir, report.ReportOutputs...)...)
+	}
+	if err := claimOutputs(cfg.Force, outputs...); err != nil {
+		return nil, err
 	}
 	started := time.Now()
 	src, err := ingest.OpenElevation(tc.Input, ingest.ElevationOptions{})

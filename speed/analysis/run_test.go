@@ -5,6 +5,7 @@ import (
 	"math"
 	"path/filepath"
 	"sort"
+	"strings"
 	"testing"
 
 	"crestspeed/ingest"
@@ -233,4 +234,51 @@ func TestBreakingIndexRegularWave(t *testing.T) {
 	if math.Abs(mb-want)/want > 0.02 {
 		t.Errorf("median B_x %.4f, linear theory %.4f (off by %.1f %%)", mb, want, 100*math.Abs(mb-want)/want)
 	}
+}
+
+// A time axis that jumps by 10⁶ s after 30 frames (two records in one
+// file, or a corrupt time stamp) is refused in one sentence; it used to be
+// taken as ten million dropped frames and filled with NaN samples until
+// memory ran out.
+func TestTimeJumpRefused(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "jump.nc")
+	nx, ny := 16, 12
+	xs, ys := make([]float64, nx), make([]float64, ny)
+	for i := range xs {
+		xs[i] = float64(i)
+	}
+	for i := range ys {
+		ys[i] = float64(i)
+	}
+	w, err := ingest.CreateElevation(path, ingest.Grid{X: xs, Y: ys}, ingest.WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	eta := make([]float32, nx*ny)
+	for k := 0; k < 60; k++ {
+		tt := 0.1 * float64(k)
+		if k >= 30 {
+			tt += 1e6
+		}
+		for i := range eta {
+			eta[i] = float32(0.3 * math.Cos(0.5*float64(i%nx)-2*tt))
+		}
+		if err := w.WriteFrame(tt, eta, nil); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := w.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	src, err := ingest.OpenElevation(path, ingest.ElevationOptions{})
+	if err != nil {
+		t.Logf("refused on open: %v", err)
+		return
+	}
+	defer src.Close()
+	_, err = analysis.Run(context.Background(), src, analysis.DefaultOptions())
+	if err == nil || !strings.Contains(err.Error(), "time axis jumps") {
+		t.Fatalf("got %v, want the jump of the time axis refused", err)
+	}
+	t.Log(err)
 }
