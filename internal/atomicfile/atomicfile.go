@@ -29,7 +29,9 @@ var ErrDiskFull = errors.New("no space left on the device")
 func tempPrefix(path string) string { return "." + filepath.Base(path) + ".part-" }
 
 // IsTemp reports whether name (a base name) is a temporary of this package.
-func IsTemp(name string) bool { return strings.HasPrefix(name, ".") && strings.Contains(name, ".part-") }
+func IsTemp(name string) bool {
+	return strings.HasPrefix(name, ".") && strings.Contains(name, ".part-")
+}
 
 // File is an output being written. Write to it, then Commit, or Abort to
 // leave nothing behind.
