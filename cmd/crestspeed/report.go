@@ -18,13 +18,15 @@ type ReportConfig struct {
 	BootstrapResamples int    `yaml:"bootstrap_resamples"`
 	BootstrapSeed      uint64 `yaml:"bootstrap_seed"`
 	HighestCrests      int    `yaml:"highest_crests"`
+	MinClassTracks     int    `yaml:"min_class_tracks"`
 }
 
 func (rc ReportConfig) options() report.Options {
 	return report.Options{
-		Bootstrap:     report.BootstrapOptions{Resamples: rc.BootstrapResamples, Seed: rc.BootstrapSeed},
-		HighestCrests: rc.HighestCrests,
-		Version:       version,
+		Bootstrap:      report.BootstrapOptions{Resamples: rc.BootstrapResamples, Seed: rc.BootstrapSeed},
+		HighestCrests:  rc.HighestCrests,
+		MinClassTracks: rc.MinClassTracks,
+		Version:        version,
 	}
 }
 

@@ -165,7 +165,9 @@ var Spectrum = newSchema("spectrum.csv", "frequencies", 3,
 	number("psd_m2_per_hz", "m2 Hz-1", precSpectral, "power spectral density of the surface elevation").required().atLeast(0),
 )
 
-func init() { Spectrum.Check = increasing(0, "frequencies must increase") }
+func init() {
+	Spectrum.Check = increasing(0, "has a frequency no higher than the one before; frequencies must increase")
+}
 
 // increasing checks that column k strictly increases.
 func increasing(k int, msg string) func(t *Table) (int, string) {
@@ -229,10 +231,10 @@ func adjoiningBins(t *Table) (int, string) {
 	lo, hi := t.Cols[0], t.Cols[1]
 	for i := range lo {
 		if !(hi[i] > lo[i]) {
-			return i, fmt.Sprintf("the bin from %g to %g m/s is empty or reversed", lo[i], hi[i])
+			return i, fmt.Sprintf("has the bin from %g to %g m/s, which is empty or reversed", lo[i], hi[i])
 		}
 		if i > 0 && math.Abs(lo[i]-hi[i-1]) > 1e-9*math.Max(1, lo[i]) {
-			return i, fmt.Sprintf("the bin starts at %g m/s but the one before ends at %g m/s; bins must adjoin in increasing speed", lo[i], hi[i-1])
+			return i, fmt.Sprintf("starts its bin at %g m/s but the one before ends at %g m/s; bins must adjoin in increasing speed", lo[i], hi[i-1])
 		}
 	}
 	return -1, ""
@@ -255,10 +257,10 @@ func coverageRows(t *Table) (int, string) {
 	fr, foam, valid := t.Cols[1], t.Cols[3], t.Cols[4]
 	for i := range fr {
 		if foam[i] > valid[i] {
-			return i, fmt.Sprintf("%g foam cells exceed the %g known cells", foam[i], valid[i])
+			return i, fmt.Sprintf("has %g foam cells, more than its %g known cells", foam[i], valid[i])
 		}
 		if i > 0 && fr[i] <= fr[i-1] {
-			return i, fmt.Sprintf("frame %g does not follow frame %g; frames must increase", fr[i], fr[i-1])
+			return i, fmt.Sprintf("has frame %g after frame %g; frames must increase", fr[i], fr[i-1])
 		}
 	}
 	return -1, ""

@@ -186,7 +186,8 @@ type Schema struct {
 	MinRows int
 	// Check tests what single fields cannot (order, relations between
 	// columns) and may put the rows in their canonical order; it returns
-	// the 0-based row of a defect and one clause describing it, or −1.
+	// the 0-based row of a defect and a predicate saying what the row has
+	// wrong ("has 5 foam cells, more than ..."), or −1 and "".
 	Check func(t *Table) (row int, msg string)
 	index map[string]int
 }

@@ -1,4 +1,4 @@
-package report
+package stats
 
 import (
 	"math"
@@ -130,50 +130,3 @@ print(json.dumps(out))
 		}
 	}
 }
-
-// Per-class distributions: the class counts add up to the all-crests
-// count, each histogram's counts sum to its n, and every PDF integrates
-// to 1 within 1e-6.
-func TestDistributionsOfTable(t *testing.T) {
-	tab := syntheticTable(rand.New(rand.NewPCG(7, 7)), 200, 25)
-	rd := DistributionsOf(tab, ColRatioPeak, []float64{0.1, 0.2}, BootstrapOptions{Resamples: 200, Seed: 1, Workers: 2})
-	n := 0
-	for k, d := range append(rd.Classes, rd.All) {
-		sum := 0
-		for _, c := range d.Hist.Counts {
-			sum += c
-		}
-		if sum != d.Stats.N {
-			t.Errorf("group %d: histogram counts sum to %d, n = %d", k, sum, d.Stats.N)
-		}
-		if d.Stats.N > 1 {
-			if got := d.PDF.Integral(); math.Abs(got-1) > 1e-6 {
-				t.Errorf("group %d: PDF integrates to %.12f", k, got)
-			}
-			if !d.Stats.MedianCI.Contains(d.Stats.Median) {
-				t.Errorf("group %d: median %.4f outside its interval %+v", k, d.Stats.Median, d.Stats.MedianCI)
-			}
-		}
-		if k < len(rd.Classes) {
-			n += d.Stats.N
-		}
-	}
-	if n != rd.All.Stats.N {
-		t.Errorf("class counts sum to %d, all crests %d", n, rd.All.Stats.N)
-	}
-	// and the statistics equal those BuildSummary's ClassStatistics gives
-	// for the same rows
-	rs := ClassStatistics(tableRows(tab), []float64{0.1, 0.2}, func(r rowView) float64 { return r.RatioPeak })
-	for k := range rs.Classes {
-		a, b := rs.Classes[k], rd.Classes[k].Stats
-		if b.N == 0 {
-			t.Errorf("class %d is empty; the synthetic rows should fill every class", k)
-		}
-		if a.N != b.N || a.Tracks != b.Tracks || !same(a.Median, b.Median) || !same(a.Mean, b.Mean) || !same(a.Mode, b.Mode) {
-			t.Errorf("class %d: ClassStatistics %+v, DistributionsOf %+v", k, a, b)
-		}
-	}
-}
-
-// same compares floats, NaN equal to NaN.
-func same(a, b float64) bool { return a == b || (math.IsNaN(a) && math.IsNaN(b)) }

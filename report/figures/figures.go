@@ -1,4 +1,12 @@
-package report
+// Package figures draws the figures of the report as PNG and SVG with
+// gonum/plot: the crest-speed ratio PDFs by steepness class, the crest
+// tracks in space and time, the histories of the highest crests, the
+// frequency spectrum, the ratio against steepness, and — when the record
+// had them — Λ(c), the whitecap coverage, the whitecap speed-ratio PDFs
+// and the breaking-inception index. It draws what it is given and
+// computes nothing of its own beyond display ranges and the c⁻⁶
+// comparison line of Λ(c).
+package figures
 
 import (
 	"bytes"
@@ -7,6 +15,10 @@ import (
 	"math"
 	"sort"
 	"strconv"
+
+	"crestspeed/report/stats"
+	"crestspeed/report/summary"
+	"crestspeed/report/table"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
@@ -152,23 +164,54 @@ func render(name string, w, h vg.Length, drawFn func(dc draw.Canvas)) (png, svg 
 	return pb.Bytes(), sb.Bytes(), nil
 }
 
-// figureInput is what the figures are drawn from.
-type figureInput struct {
-	tab              *CrestTable
-	peak, local      RatioDistributions
-	bounds           [][2]float64
-	spectrum         Spectrum
-	sea              SeaStateSummary
-	t0               float64 // time origin of the record, s
-	highest          int
-	ratioLo, ratioHi float64 // display range of the ratios
-	// breaking holds the whitecap and inception inputs of the "Whitecaps
-	// and breaking" figures, and receives what they computed.
-	breaking *breakingInput
+// Spectrum is the frequency spectrum figure 5 draws: one-sided power
+// spectral density (m²/Hz) at frequencies (Hz).
+type Spectrum struct {
+	Freq, PSD []float64
 }
 
-// classLabel names a steepness class.
-func classLabel(lo, hi float64) string {
+// Input is what the figures are drawn from.
+type Input struct {
+	// Crests is the crest table (table.Crests), rows of a track together.
+	Crests *table.Table
+	// Peak and Local are the distributions of c_cr/c_p and c_cr/c_loc by
+	// steepness class, with their curves and values.
+	Peak, Local stats.Distributions
+	Bounds      [][2]float64
+	Spectrum    Spectrum
+	Sea         summary.SeaStateSummary
+	// T0 is the time origin of the record, s.
+	T0 float64
+	// Highest is the number of tracks figure 4 follows.
+	Highest int
+	// MinClassTracks is the fewest tracks (whitecaps) a class needs to be
+	// drawn as a density curve; a smaller class is drawn as points.
+	MinClassTracks int
+	// Breaking holds the inputs of the "Whitecaps and breaking" figures;
+	// nil when the deployment has neither whitecap results nor B_x.
+	Breaking *Breaking
+}
+
+// figureInput is Input with the display range of the ratios and what
+// the figures computed.
+type figureInput struct {
+	Input
+	ratioLo, ratioHi float64
+	out              Output
+}
+
+// Output is what Draw drew and computed.
+type Output struct {
+	Figures []Figure
+	// Reference is the c⁻⁶ comparison line of the Λ(c) figure.
+	Reference stats.PhillipsReference
+	// Notes say, one sentence each, which figures of the "Whitecaps and
+	// breaking" section are absent and why.
+	Notes []string
+}
+
+// ClassLabel names a steepness class.
+func ClassLabel(lo, hi float64) string {
 	switch {
 	case lo == 0 && math.IsInf(hi, 1):
 		return "all crests"
@@ -182,7 +225,7 @@ func classLabel(lo, hi float64) string {
 
 // curveQuantile returns the p-quantile of a density curve (trapezoidal
 // cumulative integral, linear between grid points).
-func curveQuantile(c Curve, p float64) float64 {
+func curveQuantile(c stats.Curve, p float64) float64 {
 	if len(c.X) < 2 {
 		return math.NaN()
 	}
@@ -201,7 +244,7 @@ func curveQuantile(c Curve, p float64) float64 {
 
 // displayRange is the range of ratios the figures show: the 0.5–99.5 %
 // range of all crests (both references), widened to include 1 and padded.
-func displayRange(ds ...RatioDistributions) (lo, hi float64) {
+func displayRange(ds ...stats.Distributions) (lo, hi float64) {
 	lo, hi = 1.0, 1.0
 	for _, d := range ds {
 		if q := curveQuantile(d.All.PDF, 0.005); !math.IsNaN(q) {
@@ -249,7 +292,7 @@ type pdfStyle struct {
 
 // pdfFigure draws the PDFs of one crest-speed ratio by steepness class
 // (figures 1 and 2).
-func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.Canvas), error) {
+func (in *figureInput) pdfFigure(rd stats.Distributions, sym string) (func(draw.Canvas), error) {
 	return in.ratioPDF(rd, pdfStyle{
 		xLabel:   fmt.Sprintf("crest speed ratio c_cr/%s (dimensionless)", sym),
 		allNoun:  "all crests",
@@ -261,76 +304,128 @@ func (in *figureInput) pdfFigure(rd RatioDistributions, sym string) (func(draw.C
 
 // ratioPDF draws the PDFs of a ratio by steepness class: the
 // normalised histogram of the whole sample, its kernel density curve and
-// one kernel density curve per class, with the ratio 1 marked.
-func (in *figureInput) ratioPDF(rd RatioDistributions, st pdfStyle) (func(draw.Canvas), error) {
+// one kernel density curve per class, with the ratio 1 marked. A class
+// (or the whole sample) with fewer than MinClassTracks tracks has no
+// curve: its values are drawn as rings in a strip near the axis, its
+// median as a filled marker, so that a density of a few tracks does not
+// pass for a distribution.
+func (in *figureInput) ratioPDF(rd stats.Distributions, st pdfStyle) (func(draw.Canvas), error) {
 	p := newPlot()
 	p.X.Label.Text = st.xLabel
 	p.Y.Label.Text = "probability density (per unit ratio)"
-	lo, hi := st.lo, st.hi
-	ymax := 0.0
-	// histogram of the whole sample
-	if h := rd.All.Hist; len(h.Counts) > 0 {
-		hist := &plotter.Histogram{Width: h.Width(), FillColor: lightGrey}
-		hist.LineStyle = draw.LineStyle{Color: color.Gray{0xc4}, Width: vg.Points(0.3)}
-		for i, d := range h.Density {
-			if h.Edges[i+1] < lo || h.Edges[i] > hi {
-				continue
-			}
-			hist.Bins = append(hist.Bins, plotter.HistogramBin{Min: h.Edges[i], Max: h.Edges[i+1], Weight: d})
-			ymax = math.Max(ymax, d)
-		}
-		if len(hist.Bins) > 0 {
-			p.Add(hist)
-			p.Legend.Add(fmt.Sprintf("%s, histogram (%s bins)", st.allNoun, h.Rule), hist)
-		}
+	pl := &pdfPlot{p: p, lo: st.lo, hi: st.hi}
+	pl.histogram(rd.All.Hist, fmt.Sprintf("%s, histogram (%s bins)", st.allNoun, rd.All.Hist.Rule))
+	type group struct {
+		d      stats.Distribution
+		col    color.Color
+		width  float64
+		label  string
+		dashes []vg.Length
 	}
-	curve := func(c Curve, col color.Color, width float64, label string, dashes ...vg.Length) error {
-		if len(c.X) == 0 {
-			return nil
-		}
-		l, err := xyLine(c.X, c.Density, col, width, dashes...)
-		if err != nil {
-			return err
-		}
-		for i, x := range c.X {
-			if x >= lo && x <= hi {
-				ymax = math.Max(ymax, c.Density[i])
-			}
-		}
-		p.Add(l)
-		p.Legend.Add(label, l)
-		return nil
-	}
-	if err := curve(rd.All.PDF, black, 1.2, fmt.Sprintf("%s, KDE (n = %d, %d %s)", st.allNoun, rd.All.Stats.N, rd.All.Stats.Tracks, st.unitNoun), vg.Points(4), vg.Points(2.5)); err != nil {
-		return nil, err
-	}
+	groups := []group{{rd.All, black, 1.2, st.allNoun, []vg.Length{vg.Points(4), vg.Points(2.5)}}}
 	for k, d := range rd.Classes {
-		label := fmt.Sprintf("%s%s (n = %d, %d %s)", st.classPrefix, classLabel(in.bounds[k][0], in.bounds[k][1]), d.Stats.N, d.Stats.Tracks, st.unitNoun)
-		if len(d.PDF.X) == 0 {
-			continue
+		groups = append(groups, group{d, classColour(k), 1.8, st.classPrefix + ClassLabel(in.Bounds[k][0], in.Bounds[k][1]), nil})
+	}
+	var few []group
+	for _, g := range groups {
+		label := fmt.Sprintf("%s (n = %d, %d %s)", g.label, g.d.Stats.N, g.d.Stats.Tracks, st.unitNoun)
+		switch {
+		case g.d.Stats.N == 0:
+		case g.d.Stats.Tracks < in.MinClassTracks || len(g.d.PDF.X) == 0:
+			few = append(few, group{g.d, g.col, g.width, label, nil})
+		default:
+			if err := pl.curve(g.d.PDF, g.col, g.width, label+", KDE", g.dashes...); err != nil {
+				return nil, err
+			}
 		}
-		if err := curve(d.PDF, classColour(k), 1.8, label); err != nil {
+	}
+	if pl.ymax == 0 {
+		pl.ymax = 1
+	}
+	for j, g := range few {
+		if err := pl.points(g.d, g.col, (0.05+0.06*float64(j))*pl.ymax, g.label+fmt.Sprintf(": values and median, too few %s for a curve", st.unitNoun)); err != nil {
 			return nil, err
 		}
 	}
-	if ymax == 0 {
-		ymax = 1
-	}
-	ref, err := xyLine([]float64{1, 1}, []float64{0, 1.45 * ymax}, grey, 0.8, vg.Points(2), vg.Points(2))
+	ref, err := xyLine([]float64{1, 1}, []float64{0, 1.45 * pl.ymax}, grey, 0.8, vg.Points(2), vg.Points(2))
 	if err != nil {
 		return nil, err
 	}
 	p.Add(ref)
 	p.Legend.Add(st.refLabel, ref)
-	p.X.Min, p.X.Max = lo, hi
-	p.Y.Min, p.Y.Max = 0, 1.45*ymax // headroom for the legend
+	p.X.Min, p.X.Max = st.lo, st.hi
+	p.Y.Min, p.Y.Max = 0, 1.45*pl.ymax // headroom for the legend
 	p.Legend.Top = true
-	p.Legend.Left = !(rd.All.Stats.Mode < (lo+hi)/2)
+	p.Legend.Left = !(rd.All.Stats.Mode < (st.lo+st.hi)/2)
 	p.Legend.XOffs, p.Legend.YOffs = vg.Points(-4), vg.Points(-4)
 	if p.Legend.Left {
 		p.Legend.XOffs = vg.Points(4)
 	}
 	return func(dc draw.Canvas) { p.Draw(dc) }, nil
+}
+
+// pdfPlot collects the layers of a PDF figure and the highest density
+// they reach within the display range.
+type pdfPlot struct {
+	p      *plot.Plot
+	lo, hi float64
+	ymax   float64
+}
+
+func (pl *pdfPlot) histogram(h stats.Histogram, label string) {
+	if len(h.Counts) == 0 {
+		return
+	}
+	hist := &plotter.Histogram{Width: h.Width(), FillColor: lightGrey}
+	hist.LineStyle = draw.LineStyle{Color: color.Gray{0xc4}, Width: vg.Points(0.3)}
+	for i, d := range h.Density {
+		if h.Edges[i+1] < pl.lo || h.Edges[i] > pl.hi {
+			continue
+		}
+		hist.Bins = append(hist.Bins, plotter.HistogramBin{Min: h.Edges[i], Max: h.Edges[i+1], Weight: d})
+		pl.ymax = math.Max(pl.ymax, d)
+	}
+	if len(hist.Bins) > 0 {
+		pl.p.Add(hist)
+		pl.p.Legend.Add(label, hist)
+	}
+}
+
+func (pl *pdfPlot) curve(c stats.Curve, col color.Color, width float64, label string, dashes ...vg.Length) error {
+	l, err := xyLine(c.X, c.Density, col, width, dashes...)
+	if err != nil {
+		return err
+	}
+	for i, x := range c.X {
+		if x >= pl.lo && x <= pl.hi {
+			pl.ymax = math.Max(pl.ymax, c.Density[i])
+		}
+	}
+	pl.p.Add(l)
+	pl.p.Legend.Add(label, l)
+	return nil
+}
+
+// points draws the values of a group as rings at height y and its
+// median as a filled circle.
+func (pl *pdfPlot) points(d stats.Distribution, col color.Color, y float64, label string) error {
+	pts := make(plotter.XYs, 0, len(d.Values))
+	for _, v := range d.Values {
+		pts = append(pts, plotter.XY{X: v, Y: y})
+	}
+	rings, err := plotter.NewScatter(pts)
+	if err != nil {
+		return err
+	}
+	rings.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.2), Shape: draw.RingGlyph{}}
+	med, err := plotter.NewScatter(plotter.XYs{{X: d.Stats.Median, Y: y}})
+	if err != nil {
+		return err
+	}
+	med.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(3.6), Shape: draw.CircleGlyph{}}
+	pl.p.Add(rings, med)
+	pl.p.Legend.Add(label, rings, med)
+	return nil
 }
 
 // trackSegments draws crest tracks as polylines coloured by a value per
@@ -421,18 +516,18 @@ func ratioColourMap(half float64) palette.ColorMap {
 // time, coloured by c_cr/c_p (figure 3). It returns the drawing, the
 // stride by which tracks are thinned and the number of tracks drawn.
 func (in *figureInput) spaceTimeFigure() (func(draw.Canvas), int, int, error) {
-	tab := in.tab
-	runs := tab.TrackRuns()
+	tab := in.Crests
+	runs := table.TrackRuns(tab)
 	nTr := len(runs) - 1
 	segs := tab.Len() - nTr
 	stride := 1
 	if segs > maxDrawnSegments {
 		stride = (segs + maxDrawnSegments - 1) / maxDrawnSegments
 	}
-	ts := &trackSegments{runs: runs, levels: 48, width: vg.Points(0.9), v: tab.Cols[ColRatioPeak], y: tab.Cols[ColAlong]}
+	ts := &trackSegments{runs: runs, levels: 48, width: vg.Points(0.9), v: tab.Cols[table.CrestRatioPeak], y: tab.Cols[table.CrestAlong]}
 	ts.x = make([]float64, tab.Len())
-	for i, t := range tab.Cols[ColTime] {
-		ts.x[i] = t - in.t0
+	for i, t := range tab.Cols[table.CrestTime] {
+		ts.x[i] = t - in.T0
 	}
 	multi := 0
 	for k := 0; k < nTr; k++ {
@@ -444,7 +539,7 @@ func (in *figureInput) spaceTimeFigure() (func(draw.Canvas), int, int, error) {
 		}
 	}
 	half := 0.5
-	for _, q := range []float64{in.peak.All.Stats.P05, in.peak.All.Stats.P95} {
+	for _, q := range []float64{in.Peak.All.Stats.P05, in.Peak.All.Stats.P95} {
 		if !math.IsNaN(q) {
 			half = math.Max(half, math.Abs(q-1))
 		}
@@ -453,7 +548,7 @@ func (in *figureInput) spaceTimeFigure() (func(draw.Canvas), int, int, error) {
 	ts.cmap = ratioColourMap(half)
 	p := newPlot()
 	p.X.Label.Text = "time since the start of the record (s)"
-	p.Y.Label.Text = fmt.Sprintf("distance along the mean direction θ0 = %.1f° (m)", in.sea.MeanDirection)
+	p.Y.Label.Text = fmt.Sprintf("distance along the mean direction θ0 = %.1f° (m)", in.Sea.MeanDirection)
 	if len(ts.tracks) > 0 {
 		p.Add(ts)
 	}
@@ -474,14 +569,14 @@ func (in *figureInput) spaceTimeFigure() (func(draw.Canvas), int, int, error) {
 
 // highestTracks returns the table track indices (into TrackRuns) of the
 // n tracks with the highest crest elevation, highest first.
-func highestTracks(tab *CrestTable, n int) []int {
-	runs := tab.TrackRuns()
+func highestTracks(tab *table.Table, n int) []int {
+	runs := table.TrackRuns(tab)
 	type tr struct {
 		k   int
 		max float64
 	}
 	var all []tr
-	el := tab.Cols[ColElevation]
+	el := tab.Cols[table.CrestElevation]
 	for k := 0; k+1 < len(runs); k++ {
 		m := math.Inf(-1)
 		for i := runs[k]; i < runs[k+1]; i++ {
@@ -501,44 +596,56 @@ func highestTracks(tab *CrestTable, n int) []int {
 	return out
 }
 
+// peakRow returns the row of the highest crest among rows a..b−1.
+func peakRow(el []float64, a, b int) int {
+	imax := a
+	for i := a; i < b; i++ {
+		if el[i] > el[imax] {
+			imax = i
+		}
+	}
+	return imax
+}
+
+// trackStyle is the colour and dashes of the j-th followed track (those
+// of figure 4, reused by the B_x figure).
+func trackStyle(j int) (color.Color, []vg.Length) {
+	if j >= len(okabeIto) {
+		return classColour(j), []vg.Length{vg.Points(4), vg.Points(2)}
+	}
+	return classColour(j), nil
+}
+
 // highestFigure draws a_c, S_c and c_cr/c_p against time from the moment
 // of each track's highest crest, for the highest crests (figure 4).
 func (in *figureInput) highestFigure() (func(draw.Canvas), []int, error) {
-	tab := in.tab
-	runs := tab.TrackRuns()
-	ks := highestTracks(tab, in.highest)
-	cols := []int{ColElevation, ColSteepness, ColRatioPeak}
+	tab := in.Crests
+	runs := table.TrackRuns(tab)
+	ks := highestTracks(tab, in.Highest)
+	el, tm := tab.Cols[table.CrestElevation], tab.Cols[table.CrestTime]
+	cols := []int{table.CrestElevation, table.CrestSteepness, table.CrestRatioPeak}
 	labels := []string{"crest elevation a_c (m)", "steepness S_c (dimensionless)", "c_cr/c_p (dimensionless)"}
 	plots := make([][]*plot.Plot, 3)
-	var ids []int
 	for r := range plots {
 		p := newPlot()
 		p.Y.Label.Text = labels[r]
-		if r == 2 {
-			p.X.Label.Text = "time from the track's highest crest (s)"
-		}
 		plots[r] = []*plot.Plot{p}
 	}
+	plots[2][0].X.Label.Text = "time from the track's highest crest (s)"
+	var ids []int
+	xmin, xmax, amax := math.Inf(1), math.Inf(-1), 0.0
 	for j, k := range ks {
 		a, b := runs[k], runs[k+1]
-		imax := a
-		for i := a; i < b; i++ {
-			if tab.Cols[ColElevation][i] > tab.Cols[ColElevation][imax] {
-				imax = i
-			}
-		}
-		t0 := tab.Cols[ColTime][imax]
+		imax := peakRow(el, a, b)
+		t0 := tm[imax]
 		ts := make([]float64, b-a)
 		for i := range ts {
-			ts[i] = tab.Cols[ColTime][a+i] - t0
+			ts[i] = tm[a+i] - t0
 		}
-		id := int(tab.Cols[ColTrackID][a])
+		xmin, xmax, amax = math.Min(xmin, ts[0]), math.Max(xmax, ts[len(ts)-1]), math.Max(amax, el[imax])
+		id := int(tab.Cols[table.CrestTrack][a])
 		ids = append(ids, id)
-		col := classColour(j)
-		var dashes []vg.Length
-		if j >= len(okabeIto) {
-			dashes = []vg.Length{vg.Points(4), vg.Points(2)}
-		}
+		col, dashes := trackStyle(j)
 		for r, c := range cols {
 			l, err := xyLine(ts, tab.Cols[c][a:b], col, 1.4, dashes...)
 			if err != nil {
@@ -549,53 +656,11 @@ func (in *figureInput) highestFigure() (func(draw.Canvas), []int, error) {
 			}
 			plots[r][0].Add(l)
 			if r == 0 {
-				plots[r][0].Legend.Add(fmt.Sprintf("track %d: a_c max %.2f m at t = %.1f s", id, tab.Cols[ColElevation][imax], t0-in.t0), l)
+				plots[r][0].Legend.Add(fmt.Sprintf("track %d: a_c max %.2f m at t = %.1f s", id, el[imax], t0-in.T0), l)
 			}
 		}
 	}
-	for _, b := range in.bounds[1:] {
-		l, err := xyLine([]float64{-1e9, 1e9}, []float64{b[0], b[0]}, grey, 0.7, vg.Points(3), vg.Points(2))
-		if err == nil {
-			plots[1][0].Add(l)
-		}
-	}
-	one, _ := xyLine([]float64{-1e9, 1e9}, []float64{1, 1}, grey, 0.7, vg.Points(2), vg.Points(2))
-	plots[2][0].Add(one)
-	// x range from the drawn tracks, shared by the panels
-	xmin, xmax := math.Inf(1), math.Inf(-1)
-	for _, k := range ks {
-		a, b := runs[k], runs[k+1]
-		imax := a
-		for i := a; i < b; i++ {
-			if tab.Cols[ColElevation][i] > tab.Cols[ColElevation][imax] {
-				imax = i
-			}
-		}
-		xmin = math.Min(xmin, tab.Cols[ColTime][a]-tab.Cols[ColTime][imax])
-		xmax = math.Max(xmax, tab.Cols[ColTime][b-1]-tab.Cols[ColTime][imax])
-	}
-	if math.IsInf(xmin, 1) {
-		xmin, xmax = -1, 1
-	}
-	for r := range plots {
-		p := plots[r][0]
-		p.X.Min, p.X.Max = xmin, xmax
-		p.Legend.Top, p.Legend.Left = true, true
-		p.Legend.XOffs, p.Legend.YOffs = vg.Points(4), vg.Points(-2)
-	}
-	plots[0][0].Y.Min = 0
-	amax := 0.0
-	for _, k := range ks {
-		for i := runs[k]; i < runs[k+1]; i++ {
-			amax = math.Max(amax, tab.Cols[ColElevation][i])
-		}
-	}
-	if amax > 0 {
-		// headroom for the legend above the highest crest
-		plots[0][0].Y.Max = amax * (1.15 + 0.09*float64(len(ks)))
-	}
-	plots[2][0].Y.Min = math.Max(in.ratioLo, -0.5)
-	plots[2][0].Y.Max = math.Min(in.ratioHi, 2.5)
+	in.highestAxes(plots, xmin, xmax, amax, len(ks))
 	drawFn := func(dc draw.Canvas) {
 		tiles := draw.Tiles{Rows: 3, Cols: 1, PadY: vg.Points(6), PadTop: vg.Points(4), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(6)}
 		cs := plot.Align(plots, tiles, dc)
@@ -606,10 +671,38 @@ func (in *figureInput) highestFigure() (func(draw.Canvas), []int, error) {
 	return drawFn, ids, nil
 }
 
+// highestAxes adds the reference lines of figure 4 and sets its axes:
+// time from xmin to xmax shared by the panels, headroom above the highest
+// crest amax for the legend of n tracks.
+func (in *figureInput) highestAxes(plots [][]*plot.Plot, xmin, xmax, amax float64, n int) {
+	for _, b := range in.Bounds[1:] {
+		if l, err := xyLine([]float64{-1e9, 1e9}, []float64{b[0], b[0]}, grey, 0.7, vg.Points(3), vg.Points(2)); err == nil {
+			plots[1][0].Add(l)
+		}
+	}
+	one, _ := xyLine([]float64{-1e9, 1e9}, []float64{1, 1}, grey, 0.7, vg.Points(2), vg.Points(2))
+	plots[2][0].Add(one)
+	if math.IsInf(xmin, 1) {
+		xmin, xmax = -1, 1
+	}
+	for r := range plots {
+		p := plots[r][0]
+		p.X.Min, p.X.Max = xmin, xmax
+		p.Legend.Top, p.Legend.Left = true, true
+		p.Legend.XOffs, p.Legend.YOffs = vg.Points(4), vg.Points(-2)
+	}
+	plots[0][0].Y.Min = 0
+	if amax > 0 {
+		plots[0][0].Y.Max = amax * (1.15 + 0.09*float64(n))
+	}
+	plots[2][0].Y.Min = math.Max(in.ratioLo, -0.5)
+	plots[2][0].Y.Max = math.Min(in.ratioHi, 2.5)
+}
+
 // spectrumFigure draws the frequency spectrum with Hm0, Tp and c_p marked
 // (figure 5).
 func (in *figureInput) spectrumFigure() (func(draw.Canvas), error) {
-	sp, ss := in.spectrum, in.sea
+	sp, ss := in.Spectrum, in.Sea
 	fp := 1 / ss.Tp
 	fmax := sp.Freq[len(sp.Freq)-1]
 	if fp > 0 && !math.IsInf(fp, 0) {
@@ -679,8 +772,8 @@ const maxScatterPoints = 20000
 // scatterFigure draws c_cr/c_p against S_c with the class boundaries
 // (figure 6). It returns the drawing and the row stride used.
 func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
-	tab := in.tab
-	sc, rp := tab.Cols[ColSteepness], tab.Cols[ColRatioPeak]
+	tab := in.Crests
+	sc, rp := tab.Cols[table.CrestSteepness], tab.Cols[table.CrestRatioPeak]
 	var idx []int
 	for i := range sc {
 		if !math.IsNaN(sc[i]) && !math.IsNaN(rp[i]) {
@@ -698,15 +791,15 @@ func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
 	sort.Float64s(scs)
 	xmax := 0.3
 	if len(scs) > 0 {
-		xmax = math.Max(Quantile(scs, 0.999)*1.05, in.bounds[len(in.bounds)-1][0]*1.2)
+		xmax = math.Max(stats.Quantile(scs, 0.999)*1.05, in.Bounds[len(in.Bounds)-1][0]*1.2)
 	}
 	p := newPlot()
 	p.X.Label.Text = "local crest steepness S_c = a_c π / w_c (dimensionless)"
 	p.Y.Label.Text = "crest speed ratio c_cr/c_p (dimensionless)"
-	perClass := make([]plotter.XYs, len(in.bounds))
+	perClass := make([]plotter.XYs, len(in.Bounds))
 	for j := 0; j < len(idx); j += stride {
 		i := idx[j]
-		for k, b := range in.bounds {
+		for k, b := range in.Bounds {
 			if sc[i] >= b[0] && sc[i] < b[1] {
 				perClass[k] = append(perClass[k], plotter.XY{X: sc[i], Y: rp[i]})
 				break
@@ -728,10 +821,10 @@ func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
 		big := *s
 		big.GlyphStyle.Radius = vg.Points(3)
 		big.GlyphStyle.Color = classColour(k)
-		p.Legend.Add(classLabel(in.bounds[k][0], in.bounds[k][1]), &big)
+		p.Legend.Add(ClassLabel(in.Bounds[k][0], in.Bounds[k][1]), &big)
 	}
 	ylo, yhi := in.ratioLo, in.ratioHi
-	for _, b := range in.bounds[1:] {
+	for _, b := range in.Bounds[1:] {
 		l, err := xyLine([]float64{b[0], b[0]}, []float64{ylo - 10, yhi + 10}, grey, 0.9, vg.Points(4), vg.Points(2))
 		if err != nil {
 			return nil, 0, err
@@ -747,100 +840,119 @@ func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
 	return func(dc draw.Canvas) { p.Draw(dc) }, stride, nil
 }
 
-// makeFigures draws the six figures of the crest speeds, then those of
-// the whitecaps and breaking inception that the data allow.
-func (in *figureInput) makeFigures() ([]Figure, error) {
-	in.ratioLo, in.ratioHi = displayRange(in.peak, in.local)
-	W, H := vg.Inch*7, vg.Inch*4.2
-	var figs []Figure
-	add := func(name, title, caption string, w, h vg.Length, fn func(draw.Canvas)) error {
-		png, svg, err := render(name, w, h, fn)
-		if err != nil {
-			return err
+// Draw draws the six figures of the crest speeds, then those of the
+// whitecaps and breaking inception that the data allow.
+func Draw(input Input) (Output, error) {
+	in := &figureInput{Input: input}
+	in.ratioLo, in.ratioHi = displayRange(in.Peak, in.Local)
+	for _, step := range []func() error{in.pdfFigures, in.spaceTimeAndHighest, in.spectrumAndScatter} {
+		if err := step(); err != nil {
+			return Output{}, err
 		}
-		figs = append(figs, Figure{Name: name, Title: title, Caption: caption, PNG: png, SVG: svg})
-		return nil
 	}
+	if in.Breaking != nil {
+		if err := in.breakingFigures(); err != nil {
+			return Output{}, err
+		}
+	}
+	return in.out, nil
+}
+
+// Sizes of the figures.
+const (
+	figWidth  = vg.Inch * 7
+	figHeight = vg.Inch * 4.2
+)
+
+// add renders a figure and appends it to the output.
+func (in *figureInput) add(name, title, caption, section string, h vg.Length, fn func(draw.Canvas)) error {
+	png, svg, err := render(name, figWidth, h, fn)
+	if err != nil {
+		return err
+	}
+	in.out.Figures = append(in.out.Figures, Figure{Name: name, Title: title, Caption: caption, PNG: png, SVG: svg, Section: section})
+	return nil
+}
+
+// pdfFigures draws figures 1 and 2.
+func (in *figureInput) pdfFigures() error {
 	classes := ""
-	for k, b := range in.bounds {
+	for k, b := range in.Bounds {
 		if k > 0 {
 			classes += ", "
 		}
-		classes += classLabel(b[0], b[1])
+		classes += ClassLabel(b[0], b[1])
 	}
 	for _, f := range []struct {
-		rd              RatioDistributions
+		rd              stats.Distributions
 		name, sym, what string
 	}{
-		{in.peak, "fig1_ratio_peak_pdf", "c_p", "the linear phase speed at the spectral peak, c_p"},
-		{in.local, "fig2_ratio_local_pdf", "c_loc", "the linear phase speed of the local carrier wave, c_loc (from the zero-crossing wavelength around each crest)"},
+		{in.Peak, "fig1_ratio_peak_pdf", "c_p", "the linear phase speed at the spectral peak, c_p"},
+		{in.Local, "fig2_ratio_local_pdf", "c_loc", "the linear phase speed of the local carrier wave, c_loc (from the zero-crossing wavelength around each crest)"},
 	} {
 		fn, err := in.pdfFigure(f.rd, f.sym)
 		if err != nil {
-			return nil, fmt.Errorf("figure %s cannot be drawn: %v", f.name, err)
+			return fmt.Errorf("figure %s cannot be drawn: %w", f.name, err)
 		}
-		num := f.name[3:4]
 		cap := fmt.Sprintf("Probability density of the crest speed c_cr relative to %s, one curve per steepness class (%s): "+
 			"Gaussian kernel density estimates with the Silverman bandwidth. Grey bars: normalised histogram of all crests (bin width by the %s rule); "+
 			"black dashes: kernel estimate of all crests. Each row of a track counts once, so long tracks weigh more. "+
-			"The dotted line marks c_cr = %s. Shown: the central 99 %% of the values.", f.what, classes, f.rd.All.Hist.Rule, f.sym)
-		if err := add(f.name, fmt.Sprintf("Figure %s. Crest speed relative to %s, by steepness class", num, f.sym), cap, W, H, fn); err != nil {
-			return nil, err
+			"A class of fewer than %d tracks has no curve: its values are drawn as rings near the axis and its median as a filled circle. "+
+			"The dotted line marks c_cr = %s. Shown: the central 99 %% of the values.", f.what, classes, f.rd.All.Hist.Rule, in.MinClassTracks, f.sym)
+		if err := in.add(f.name, fmt.Sprintf("Figure %s. Crest speed relative to %s, by steepness class", f.name[3:4], f.sym), cap, "", figHeight, fn); err != nil {
+			return err
 		}
 	}
+	return nil
+}
+
+// spaceTimeAndHighest draws figures 3 and 4.
+func (in *figureInput) spaceTimeAndHighest() error {
 	fn, stride, shown, err := in.spaceTimeFigure()
 	if err != nil {
-		return nil, err
+		return err
 	}
 	thin := fmt.Sprintf("All %d tracks of two or more frames are drawn.", shown)
 	if stride > 1 {
 		thin = fmt.Sprintf("One in %d of the tracks of two or more frames is drawn (%d tracks), to keep the figure legible.", stride, shown)
 	}
-	if err := add("fig3_space_time", "Figure 3. Crest tracks in space and time",
+	if err := in.add("fig3_space_time", "Figure 3. Crest tracks in space and time",
 		"Space–time diagram: each line is one crest track, its position along the mean direction of travel against time, "+
 			"coloured by the crest speed ratio c_cr/c_p (blue slower, red faster than the peak phase speed, light grey close to it; dark grey where the speed is unknown, at the ends of tracks). "+
-			"The slope of a line is the crest speed. "+thin, W, vg.Inch*4.6, fn); err != nil {
-		return nil, err
+			"The slope of a line is the crest speed. "+thin, "", vg.Inch*4.6, fn); err != nil {
+		return err
 	}
 	fn, ids, err := in.highestFigure()
 	if err != nil {
-		return nil, err
+		return err
 	}
-	if err := add("fig4_highest_crests", fmt.Sprintf("Figure 4. Histories of the %d highest crests", len(ids)),
+	return in.add("fig4_highest_crests", fmt.Sprintf("Figure 4. Histories of the %d highest crests", len(ids)),
 		fmt.Sprintf("Crest elevation a_c, local steepness S_c and speed ratio c_cr/c_p along the %d tracks with the highest crests, "+
 			"against time from the moment each crest is highest. Dashed lines: steepness class boundaries (middle) and c_cr = c_p (bottom). "+
-			"Speeds are unknown near the ends of a track, where the fit window is incomplete.", len(ids)), W, vg.Inch*7, fn); err != nil {
-		return nil, err
-	}
-	fn, err = in.spectrumFigure()
+			"Speeds are unknown near the ends of a track, where the fit window is incomplete.", len(ids)), "", vg.Inch*7, fn)
+}
+
+// spectrumAndScatter draws figures 5 and 6.
+func (in *figureInput) spectrumAndScatter() error {
+	fn, err := in.spectrumFigure()
 	if err != nil {
-		return nil, fmt.Errorf("figure fig5_spectrum cannot be drawn: %v", err)
+		return fmt.Errorf("figure fig5_spectrum cannot be drawn: %w", err)
 	}
-	if err := add("fig5_spectrum", "Figure 5. Frequency spectrum of the record",
+	if err := in.add("fig5_spectrum", "Figure 5. Frequency spectrum of the record",
 		"Welch estimate of the frequency spectrum of the surface elevation, averaged over the grid points used. "+
 			"The dashed line marks the peak frequency f_p = 1/Tp; the peak phase speed c_p follows from Tp by linear dispersion with the depth and current of the run. "+
-			"Hm0 = 4√m0 from the spectrum.", W, H, fn); err != nil {
-		return nil, err
+			"Hm0 = 4√m0 from the spectrum.", "", figHeight, fn); err != nil {
+		return err
 	}
-	fn, stride, err = in.scatterFigure()
+	fn, stride, err := in.scatterFigure()
 	if err != nil {
-		return nil, fmt.Errorf("figure fig6_ratio_vs_steepness cannot be drawn: %v", err)
+		return fmt.Errorf("figure fig6_ratio_vs_steepness cannot be drawn: %w", err)
 	}
-	thin = "Every crest row with a known speed is drawn."
+	thin := "Every crest row with a known speed is drawn."
 	if stride > 1 {
 		thin = fmt.Sprintf("One in %d of the crest rows with a known speed is drawn.", stride)
 	}
-	if err := add("fig6_ratio_vs_steepness", "Figure 6. Crest speed ratio against steepness",
+	return in.add("fig6_ratio_vs_steepness", "Figure 6. Crest speed ratio against steepness",
 		"Crest speed ratio c_cr/c_p of every crest row against its local steepness S_c, coloured by steepness class; "+
-			"dashed vertical lines: class boundaries; dotted: c_cr = c_p. "+thin+" The vertical range is that of figure 1.", W, H, fn); err != nil {
-		return nil, err
-	}
-	if in.breaking != nil {
-		more, err := in.breakingFigures(len(figs) + 1)
-		if err != nil {
-			return nil, err
-		}
-		figs = append(figs, more...)
-	}
-	return figs, nil
+			"dashed vertical lines: class boundaries; dotted: c_cr = c_p. "+thin+" The vertical range is that of figure 1.", "", figHeight, fn)
 }

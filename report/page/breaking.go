@@ -1,4 +1,4 @@
-package report
+package page
 
 // The "Whitecaps and breaking" section of report.html: whitecap
 // statistics, whitecap speed ratios per steepness class, the
@@ -9,36 +9,16 @@ package report
 // checked against it.
 
 import (
-	"encoding/base64"
 	"fmt"
 	"html/template"
 	"math"
 	"strconv"
 	"strings"
 
+	"crestspeed/report/stats"
+	"crestspeed/report/summary"
 	"crestspeed/speed"
 )
-
-// htmlSumRow is one row of a key–value table whose value is a number of
-// summary.json.
-type htmlSumRow struct {
-	K     template.HTML
-	V     string
-	Key   string // path in summary.json
-	Scale string // factor the value is shown multiplied by ("" = 1)
-	Note  template.HTML
-}
-
-type htmlWCRow struct {
-	Class template.HTML
-	All   bool
-	Cells []htmlSumRow // n, mean, median, mode, p05, p95
-}
-
-type htmlWCRatio struct {
-	Title template.HTML
-	Rows  []htmlWCRow
-}
 
 type htmlConfusion struct {
 	Threshold                     string
@@ -52,7 +32,7 @@ type htmlBreaking struct {
 	Absent    template.HTML
 	Notes     []template.HTML
 	Stats     []htmlSumRow
-	Ratios    []htmlWCRatio
+	Ratios    []htmlRatio
 	Inception []htmlSumRow
 	NoFoam    template.HTML
 	Confusion *htmlConfusion
@@ -79,48 +59,30 @@ func countStr(n int) string { return strconv.Itoa(n) }
 
 // breakingSection builds the "Whitecaps and breaking" section from the
 // summary (its whitecaps and inception blocks) and the figures drawn.
-func breakingSection(sum *Summary, res *Result, bounds []float64) *htmlBreaking {
+func breakingSection(in Input) *htmlBreaking {
+	sum := in.Summary
 	hb := &htmlBreaking{}
 	ws, inc := sum.Whitecaps, sum.Inception
 	if ws == nil && inc == nil {
 		hb.Absent = sym("This run has no whitecap results (no foam mask was analysed) and no breaking-inception index B_x (that pass did not run), so this section is empty.")
 		return hb
 	}
-	if res.Breaking != nil {
-		for _, n := range res.Breaking.Notes {
-			hb.Notes = append(hb.Notes, sym(n))
-		}
+	for _, n := range in.Notes {
+		hb.Notes = append(hb.Notes, sym(n))
 	}
 	if ws == nil {
 		hb.Notes = append([]template.HTML{sym("No foam mask was analysed in this run, so there are no whitecap statistics, Λ(c) or coverage W(t).")}, hb.Notes...)
 	} else {
 		hb.Stats = whitecapStatRows(ws)
-		cb := ClassBounds(bounds)
+		cb := stats.ClassBounds(in.Bounds)
 		for _, r := range []struct{ key, title string }{
 			{"peak", "Whitecap front speed relative to the peak phase speed, c<sub>br</sub>/c<sub>p</sub>"},
 			{"local", "Whitecap front speed relative to the local carrier phase speed of the parent crest, c<sub>br</sub>/c<sub>loc</sub>"},
 		} {
-			rs, ok := ws.Ratio[r.key]
-			if !ok {
-				continue
+			if rs, ok := ws.Ratio[r.key]; ok {
+				hb.Ratios = append(hb.Ratios, ratioTable(in, "whitecaps/front_speed_ratio/"+r.key, rs, cb,
+					template.HTML(r.title), "S<sub>c</sub> class of the parent crest", "whitecaps", "parent ", "all whitecap rows"))
 			}
-			hr := htmlWCRatio{Title: template.HTML(r.title)}
-			row := func(path string, class template.HTML, s Stats, all bool) htmlWCRow {
-				base := "whitecaps/front_speed_ratio/" + r.key + "/" + path + "/"
-				return htmlWCRow{Class: class, All: all, Cells: []htmlSumRow{
-					{V: countStr(s.N), Key: base + "n"}, {V: fmt3(s.Mean), Key: base + "mean"}, {V: fmt3(s.Median), Key: base + "median"},
-					{V: fmt3(s.Mode), Key: base + "mode"}, {V: fmt3(s.P05), Key: base + "p05"}, {V: fmt3(s.P95), Key: base + "p95"},
-				}}
-			}
-			for k, s := range rs.Classes {
-				label := fmt.Sprintf("class %d", k)
-				if k < len(cb) {
-					label = classLabel(cb[k][0], cb[k][1])
-				}
-				hr.Rows = append(hr.Rows, row(fmt.Sprintf("classes/%d", k), sym("parent "+label), s, false))
-			}
-			hr.Rows = append(hr.Rows, row("all", "all whitecap rows", rs.All, true))
-			hb.Ratios = append(hb.Ratios, hr)
 		}
 	}
 	if inc == nil {
@@ -137,27 +99,17 @@ func breakingSection(sum *Summary, res *Result, bounds []float64) *htmlBreaking 
 			hb.Confusion = confusionTable(inc)
 		}
 	}
-	if res.Breaking != nil {
-		for _, f := range res.Figures {
-			if f.Section == "breaking" {
-				hb.Figures = append(hb.Figures, htmlFigureOf(f))
-			}
+	for _, f := range in.Figures {
+		if f.Section == "breaking" {
+			hb.Figures = append(hb.Figures, htmlFigureOf(f))
 		}
 	}
 	hb.Method = breakingMethod(ws, inc)
 	return hb
 }
 
-func htmlFigureOf(f Figure) htmlFigure {
-	return htmlFigure{
-		ID: f.Name, Title: sym(f.Title), Caption: sym(f.Caption),
-		Src: template.URL("data:image/png;base64," + base64.StdEncoding.EncodeToString(f.PNG)),
-		PNG: "figures/" + f.Name + ".png", SVG: "figures/" + f.Name + ".svg",
-	}
-}
-
 // whitecapStatRows are the rows of the whitecap statistics table.
-func whitecapStatRows(ws *WhitecapsSummary) []htmlSumRow {
+func whitecapStatRows(ws *summary.WhitecapsSummary) []htmlSumRow {
 	rows := []htmlSumRow{
 		{K: "Whitecaps tracked", V: countStr(ws.Whitecaps), Key: "whitecaps/n"},
 		{K: "Whitecap rows (one per whitecap per frame)", V: countStr(ws.Rows), Key: "whitecaps/rows"},
@@ -223,7 +175,7 @@ func fmtSec(v float64) string {
 }
 
 // breakingMethod is the method paragraph of the section.
-func breakingMethod(ws *WhitecapsSummary, inc *speed.Inception) []htmlKV {
+func breakingMethod(ws *summary.WhitecapsSummary, inc *speed.Inception) []htmlKV {
 	var m []htmlKV
 	if ws != nil {
 		m = append(m,
@@ -255,7 +207,7 @@ func breakingMethod(ws *WhitecapsSummary, inc *speed.Inception) []htmlKV {
 
 // breakingGlance is the sentence of "At a glance" on whitecaps and
 // inception ("" when there is neither).
-func breakingGlance(sum *Summary) []template.HTML {
+func breakingGlance(sum *summary.Summary) []template.HTML {
 	var out []template.HTML
 	if ws := sum.Whitecaps; ws != nil {
 		a := ws.Ratio["peak"].All
@@ -289,14 +241,7 @@ const breakingTemplate = `<section id="breaking">
 <table class="kv" id="whitecap-stats">
 {{range .Stats}}<tr><td>{{.K}}</td><td class="num"{{if .Key}} data-sum="{{.Key}}"{{end}}{{if .Scale}} data-scale="{{.Scale}}"{{end}}>{{.V}}</td><td class="note">{{.Note}}</td></tr>
 {{end}}</table>
-{{end}}{{range .Ratios}}<h3>{{.Title}}</h3>
-<table class="stats wc-ratio">
-<thead><tr><th>S<sub>c</sub> class of the parent crest</th><th class="num">n</th><th class="num">mean</th><th class="num">median</th><th class="num">mode</th><th class="num">5 %</th><th class="num">95 %</th></tr></thead>
-<tbody>
-{{range .Rows}}<tr{{if .All}} class="all"{{end}}><td>{{.Class}}</td>{{range .Cells}}<td class="num" data-sum="{{.Key}}">{{.V}}</td>{{end}}</tr>
-{{end}}</tbody>
-</table>
-{{end}}{{if .Ratios}}<p class="note">n: whitecap rows (one per whitecap per frame) with a front speed; rows of one whitecap are correlated. The classes hold the rows tied to a crest; “all” holds every row.</p>
+{{end}}{{range .Ratios}}{{template "ratiotable" .}}{{end}}{{if .Ratios}}<p class="note">n: whitecap rows (one per whitecap per frame) with a front speed; whitecaps: the whitecaps they come from (rows of one whitecap are correlated, so the intervals resample whole whitecaps). The classes hold the rows tied to a crest; “all” holds every row. ◦ fewer whitecaps than a class needs: an indication only.</p>
 {{end}}{{if .Inception}}<h3>Breaking inception</h3>
 <table class="kv" id="inception">
 {{range .Inception}}<tr><td>{{.K}}</td><td class="num" data-sum="{{.Key}}">{{.V}}</td></tr>
@@ -326,3 +271,6 @@ const breakingTemplate = `<section id="breaking">
 `
 
 var _ = template.Must(pageTemplate.New("breaking").Parse(breakingTemplate))
+
+// superDigits writes the digits and minus of an exponent as superscripts.
+var superDigits = strings.NewReplacer("-", "⁻", "0", "⁰", "1", "¹", "2", "²", "3", "³", "4", "⁴", "5", "⁵", "6", "⁶", "7", "⁷", "8", "⁸", "9", "⁹")

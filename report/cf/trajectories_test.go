@@ -1,13 +1,52 @@
-package report
+package cf
 
 import (
+	"math"
 	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"crestspeed/internal/pyref"
+	"crestspeed/report/table"
 )
+
+// crestTable makes a crest table of nTracks tracks of 3 to 30 rows each,
+// values like those of analysed crests, some unknown, rounded to the
+// precision of crests.csv.
+func crestTable(rng *rand.Rand, nTracks int) *table.Table {
+	var rows [][]float64
+	for id := 1; id <= nTracks; id++ {
+		n := 3 + rng.IntN(28)
+		for i := 0; i < n; i++ {
+			r := make([]float64, len(table.Crests.Columns))
+			for k, c := range table.Crests.Columns {
+				switch {
+				case c.Kind == table.Flag:
+					r[k] = float64(rng.IntN(2))
+				case c.Kind == table.Count:
+					r[k] = float64(100 + i)
+				case !c.Required && rng.IntN(6) == 0:
+					r[k] = math.NaN()
+				default:
+					r[k] = 50 * rng.Float64()
+				}
+			}
+			r[table.CrestTrack], r[table.CrestTime] = float64(id), 0.1*float64(100+i)
+			rows = append(rows, r)
+		}
+	}
+	t := table.New(table.Crests, len(rows))
+	for i, r := range rows {
+		for k, v := range r {
+			t.Cols[k][i] = v
+		}
+	}
+	t.Round()
+	return t
+}
 
 // crest_tracks.nc opened by xarray (Debian python3-xarray, the reference
 // reader): as many trajectories and observations as crests.csv has tracks
@@ -23,11 +62,11 @@ func TestTrajectoriesOpenInXarray(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := WriteCrestsCSV(f, syntheticRows(rand.New(rand.NewPCG(2, 3)), 37, 20)); err != nil {
+	if err := crestTable(rand.New(rand.NewPCG(2, 3)), 37).Write(f); err != nil {
 		t.Fatal(err)
 	}
 	f.Close()
-	tab, err := ReadCrestsCSV(csvPath)
+	tab, err := table.ReadFile(csvPath, table.Crests)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -37,8 +76,8 @@ func TestTrajectoriesOpenInXarray(t *testing.T) {
 		t.Fatal(err)
 	}
 	names := map[string]string{}
-	for k, c := range CrestColumns {
-		names[c] = crestMeta[k].nc
+	for _, c := range table.Crests.Columns {
+		names[c.Name] = c.NC
 	}
 	var got struct {
 		Trajectories, Obs, CSVTracks, CSVRows int
@@ -47,7 +86,7 @@ func TestTrajectoriesOpenInXarray(t *testing.T) {
 		Mismatch                              []string
 		Attrs                                 map[string]string
 	}
-	python(t, `
+	pyref.JSON(t, `
 import json, sys, csv
 import numpy as np
 import xarray as xr

@@ -1,4 +1,4 @@
-package report
+package stats
 
 import (
 	"math"
@@ -132,13 +132,4 @@ func (c Curve) Integral() float64 {
 		s += 0.5 * (c.Density[i] + c.Density[i-1]) * (c.X[i] - c.X[i-1])
 	}
 	return s
-}
-
-// Distribution is the estimated distribution of one crest-speed ratio in
-// one steepness class (or over all crests): its statistics, normalised
-// histogram and kernel density curve.
-type Distribution struct {
-	Stats Stats
-	Hist  Histogram
-	PDF   Curve
 }
