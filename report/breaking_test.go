@@ -23,6 +23,24 @@ import (
 	"crestspeed/speed"
 )
 
+// testSea is the small directional JONSWAP record of the tests: 40 s of
+// a 72 m × 40 m grid at 10 frames per second.
+func testSea() samples.Scenario {
+	return samples.Scenario{
+		Site: "test basin (synthetic)", Kind: samples.KindJONSWAP,
+		JONSWAP: samples.JONSWAPSea{HsM: 1.2, TpS: 4, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 3, Components: 96, FMaxRatio: 2.5},
+		Grid:    samples.GridSpec{Nx: 72, Ny: 40, DxM: 1, DyM: 1, FPS: 10, Duration: 40},
+	}
+}
+
+// synthesize writes the record of a scenario (samples.Synthesize).
+func synthesize(t *testing.T, sc samples.Scenario, nc string) {
+	t.Helper()
+	if _, err := samples.Synthesize(context.Background(), sc, nc, 1, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+}
+
 // analyseFile runs the crest analysis on an elevation-map file.
 func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record {
 	t.Helper()
@@ -54,15 +72,9 @@ func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record
 func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
 	t.Helper()
 	dir := t.TempDir()
-	sc := samples.Scenario{
-		Site: "test basin (synthetic)", Kind: samples.KindJONSWAP,
-		JONSWAP: samples.JONSWAPSea{HsM: 1.2, TpS: 4, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 3, Components: 96, FMaxRatio: 2.5},
-		Grid:    samples.GridSpec{Nx: 72, Ny: 40, DxM: 1, DyM: 1, FPS: 10, Duration: 40},
-	}
+	sc := testSea()
 	plain := filepath.Join(dir, "plain.nc")
-	if _, err := samples.Synthesize(context.Background(), sc, plain, 1, 2, nil); err != nil {
-		t.Fatal(err)
-	}
+	synthesize(t, sc, plain)
 	opt := speed.RecordOptions{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2, BreakingIndex: true}
 	first := analyseFile(t, plain, opt)
 	type peak struct {
@@ -97,9 +109,7 @@ func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
 		})
 	}
 	nc := filepath.Join(dir, "elevation.nc")
-	if _, err := samples.Synthesize(context.Background(), sc, nc, 1, 2, nil); err != nil {
-		t.Fatal(err)
-	}
+	synthesize(t, sc, nc)
 	opt.Whitecaps = true
 	rec := analyseFile(t, nc, opt)
 	if rec.Whitecaps == nil || rec.Inception == nil {

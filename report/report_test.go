@@ -22,39 +22,20 @@ import (
 	"testing"
 	"time"
 
-	"crestspeed/ingest"
 	"crestspeed/report/summary"
 	"crestspeed/report/table"
-	"crestspeed/samples"
 	"crestspeed/speed"
 )
 
 // trackDir synthesises a small directional JONSWAP record (samples), runs
 // the crest analysis on it (speed.AnalyseRecord) and writes the files of
-// "crestspeed track" (WriteTrackOutputs) into a fresh folder.
+// the tracking stage (WriteTrackOutputs) into a fresh folder.
 func trackDir(t *testing.T) (string, *speed.Record) {
 	t.Helper()
 	dir := t.TempDir()
-	sc := samples.Scenario{
-		Site: "test basin (synthetic)", Kind: samples.KindJONSWAP,
-		JONSWAP: samples.JONSWAPSea{HsM: 1.2, TpS: 4, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 3, Components: 96, FMaxRatio: 2.5},
-		Grid:    samples.GridSpec{Nx: 72, Ny: 40, DxM: 1, DyM: 1, FPS: 10, Duration: 40},
-	}
 	nc := filepath.Join(dir, "elevation.nc")
-	if _, err := samples.Synthesize(context.Background(), sc, nc, 1, 2, nil); err != nil {
-		t.Fatal(err)
-	}
-	src, err := ingest.OpenElevation(nc, ingest.ElevationOptions{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer src.Close()
-	rec, err := speed.AnalyseRecord(context.Background(), src, speed.RecordOptions{
-		MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2,
-	})
-	if err != nil {
-		t.Fatal(err)
-	}
+	synthesize(t, testSea(), nc)
+	rec := analyseFile(t, nc, speed.RecordOptions{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2})
 	in, err := DescribeFile(nc)
 	if err != nil {
 		t.Fatal(err)

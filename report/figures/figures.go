@@ -150,7 +150,7 @@ func render(name string, w, h vg.Length, drawFn func(dc draw.Canvas)) (png, svg 
 	drawFn(draw.New(img))
 	var pb bytes.Buffer
 	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&pb); err != nil {
-		return nil, nil, fmt.Errorf("figure %s: %v", name, err)
+		return nil, nil, fmt.Errorf("figure %s: %w", name, err)
 	}
 	sv := vgsvg.New(w, h)
 	sc := draw.New(sv)
@@ -159,7 +159,7 @@ func render(name string, w, h vg.Length, drawFn func(dc draw.Canvas)) (png, svg 
 	drawFn(sc)
 	var sb bytes.Buffer
 	if _, err := sv.WriteTo(&sb); err != nil {
-		return nil, nil, fmt.Errorf("figure %s: %v", name, err)
+		return nil, nil, fmt.Errorf("figure %s: %w", name, err)
 	}
 	return pb.Bytes(), sb.Bytes(), nil
 }
