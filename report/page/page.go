@@ -369,7 +369,7 @@ func methodRows(in Input, level int) []htmlKV {
 			"where the uncertainty u of c<sub>p</sub> is known, the half-width of c<sub>cr</sub>/c<sub>p</sub> and c<sub>br</sub>/c<sub>p</sub> is combined with z u times the estimate in quadrature (JCGM 100:2008).",
 			level, in.Resamples, in.Seed, level)},
 		{"Outputs", "crest_tracks.nc follows the CF-1.8 conventions for discrete sampling geometries (trajectories, contiguous ragged array). " +
-			"The CSV files state each column's precision in the package that writes them: times to 1 µs, positions to 1 mm, elevations to 0.1 mm, speeds to 1 mm/s, ratios to 4 significant digits. " +
+			"The CSV files are written with the precision their values carry — times to 1 µs, positions to 1 mm, elevations to 0.1 mm, speeds to 1 mm/s, ratios, steepness and B<sub>x</sub> to 4 significant digits — listed column by column in summary.json (method.csv_precision). " +
 			"Figures use the Okabe–Ito colour-blind-safe palette (Okabe & Ito 2008) and Moreland's diverging cool–warm map (Moreland 2009)."},
 	}
 }

@@ -22,8 +22,8 @@ type Sample struct {
 
 // Classify makes a Sample: value i comes from the unit identified by
 // ids[i] (any number; units are numbered in order of appearance) and
-// belongs to the class of bounds (see ClassBounds of inner) that holds
-// by[i].
+// belongs to the class of bounds (see ClassBounds of inner; at most 127
+// classes) that holds by[i].
 func Classify(values, by, ids []float64, inner []float64) Sample {
 	s := Sample{Values: values, Unit: make([]int32, len(values)), Class: make([]int8, len(values)), Bounds: ClassBounds(inner)}
 	index := map[float64]int32{}
@@ -157,17 +157,4 @@ func describeGroup(gr *group, mode float64, bounds [2]float64, curves bool) Dist
 		d.Values = v
 	}
 	return d
-}
-
-// Summarise computes the point estimates of values, each value its own
-// unit (NaN values ignored).
-func Summarise(values []float64, scMin, scMax float64) Stats {
-	s := Sample{Values: values, Unit: make([]int32, len(values)), Class: make([]int8, len(values)), Units: len(values)}
-	for i := range values {
-		s.Unit[i] = int32(i)
-		s.Class[i] = -1
-	}
-	st := Describe(s, Options{}).All.Stats
-	st.ScMin, st.ScMax = scMin, scMax
-	return st
 }
