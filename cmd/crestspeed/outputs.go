@@ -10,12 +10,6 @@ import (
 	"crestspeed/internal/atomicfile"
 )
 
-// trackOutputs are every file a track run may write into its folder (the
-// foam outputs only for records with a foam mask), so that --force leaves
-// none of an earlier run's behind.
-var trackOutputs = []string{"crests.csv", "tracks.csv", "spectrum.csv", "summary.json",
-	"whitecaps.csv", "lambda.csv", "coverage.csv"}
-
 // claimOutputs prepares the outputs a verb is about to write, before any
 // work is done: their folders must be writable, temporaries left there by a
 // killed run are removed, and finished outputs are refused unless force —

@@ -13,25 +13,19 @@ import (
 )
 
 // ReportConfig configures the deployment report ("crestspeed report" and
-// the report stage of "crestspeed track").
+// the report stage of "crestspeed track"): the verb's input and the report
+// package's options.
 type ReportConfig struct {
-	Tracks             string `yaml:"tracks"`
-	BootstrapResamples int    `yaml:"bootstrap_resamples"`
-	BootstrapSeed      uint64 `yaml:"bootstrap_seed"`
-	HighestCrests      int    `yaml:"highest_crests"`
+	Tracks         string `yaml:"tracks"`
+	report.Options `yaml:",inline"`
 }
 
-// defaultReportConfig holds the report package's defaults.
-func defaultReportConfig() ReportConfig {
-	return ReportConfig{BootstrapResamples: report.DefaultResamples, BootstrapSeed: 1, HighestCrests: report.DefaultHighestCrests}
-}
+func defaultReportConfig() ReportConfig { return ReportConfig{Options: report.DefaultOptions()} }
 
 func (rc ReportConfig) options() report.Options {
-	return report.Options{
-		Bootstrap:     report.BootstrapOptions{Resamples: rc.BootstrapResamples, Seed: rc.BootstrapSeed},
-		HighestCrests: rc.HighestCrests,
-		Version:       version,
-	}
+	o := rc.Options
+	o.Version = version
+	return o
 }
 
 func newReportCmd(app *App) *cobra.Command {

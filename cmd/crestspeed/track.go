@@ -96,7 +96,7 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		return nil, err
 	}
 	tc, dir := cfg.Track, cfg.Out
-	outputs := inDir(dir, trackOutputs...)
+	outputs := inDir(dir, report.AllTrackOutputs()...)
 	if tc.Report {
 		outputs = append(outputs, inDir(dir, report.ReportOutputs...)...)
 	}
