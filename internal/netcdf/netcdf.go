@@ -338,7 +338,8 @@ func (h *handle) startCount(name string, v varInfo, start, count []int) (st, ct 
 // File is a NetCDF dataset open for reading. Create it with [Open] and release
 // it with [File.Close].
 type File struct {
-	h handle
+	h       handle
+	classic *ClassicHeader // nil unless classic format
 }
 
 // Open opens an existing NetCDF file (any format libnetcdf reads: classic,
@@ -357,6 +358,13 @@ func Open(path string) (*File, error) {
 	case fi.IsDir():
 		return nil, fmt.Errorf("netcdf: %s is a directory, not a NetCDF file; give the path of a .nc file", path)
 	}
+	// A classic-format header is checked in Go first: libnetcdf trusts its
+	// counts and can crash or loop on a damaged one, and it reads a file
+	// cut short after the header as if the rest were zeros.
+	classic, err := CheckClassic(path)
+	if err != nil {
+		return nil, err
+	}
 	cpath := C.CString(path)
 	defer C.free(unsafe.Pointer(cpath))
 	lock()
@@ -369,8 +377,12 @@ func Open(path string) (*File, error) {
 		return nil, fmt.Errorf("netcdf: %s is not a NetCDF file or is damaged (%s); check that it is NetCDF and was copied completely: %w",
 			path, strerror(int(st)), ErrNotNetCDF)
 	}
-	return &File{h: handle{path: path, name: path, ncid: id, open: true}}, nil
+	return &File{h: handle{path: path, name: path, ncid: id, open: true}, classic: classic}, nil
 }
+
+// Classic returns the checked header of a classic-format file, or nil for a
+// NetCDF-4 file.
+func (f *File) Classic() *ClassicHeader { return f.classic }
 
 // Path returns the path the file was opened with.
 func (f *File) Path() string { return f.h.path }
