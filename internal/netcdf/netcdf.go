@@ -961,3 +961,126 @@ func randomSuffix() string {
 func tempPath(path string) string {
 	return filepath.Join(filepath.Dir(path), filepath.Base(path)+".part-"+randomSuffix())
 }
+
+// Storage describes how a variable is laid out on disk.
+type Storage struct {
+	// Chunks holds the chunk shape, one entry per dimension, when the
+	// variable is chunked (NetCDF-4); nil when it is stored contiguously
+	// (every classic-format variable, and NetCDF-4 contiguous or compact
+	// ones).
+	Chunks []int
+	// Deflate is the zlib level (0 when not compressed); Shuffle reports
+	// the shuffle filter.
+	Deflate int
+	Shuffle bool
+}
+
+// VarStorage returns the storage layout of a variable (nc_inq_var_chunking,
+// nc_inq_var_deflate). Classic-format files report contiguous storage.
+func (f *File) VarStorage(varName string) (Storage, error) {
+	lock()
+	defer unlock()
+	if varName == "" {
+		return Storage{}, fmt.Errorf("netcdf: %s: a variable name is needed", f.h.name)
+	}
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return Storage{}, err
+	}
+	var s Storage
+	if f.classic != nil || v.ndims == 0 {
+		return s, nil
+	}
+	var storage C.int
+	sizes := make([]C.size_t, v.ndims)
+	if st := C.nc_inq_var_chunking(f.h.ncid, v.id, &storage, &sizes[0]); st != C.NC_NOERR {
+		return Storage{}, f.h.err(st, varName, "inquire chunking")
+	}
+	if storage == C.NC_CHUNKED {
+		s.Chunks = make([]int, v.ndims)
+		for i, c := range sizes {
+			s.Chunks[i] = int(c)
+		}
+	}
+	var shuffle, deflate, level C.int
+	if st := C.nc_inq_var_deflate(f.h.ncid, v.id, &shuffle, &deflate, &level); st != C.NC_NOERR {
+		return Storage{}, f.h.err(st, varName, "inquire compression")
+	}
+	if deflate != 0 {
+		s.Deflate = int(level)
+	}
+	s.Shuffle = shuffle != 0
+	return s, nil
+}
+
+// SetChunkCache sets the size in bytes of the chunk cache of one variable
+// (nc_set_var_chunk_cache), with room for nslots chunks and the library's
+// default preemption. It has no effect on classic-format files.
+func (f *File) SetChunkCache(varName string, bytes, nslots int) error {
+	lock()
+	defer unlock()
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return err
+	}
+	if f.classic != nil || varName == "" {
+		return nil
+	}
+	if bytes < 0 || nslots < 0 {
+		return fmt.Errorf("netcdf: %s: variable %q: chunk cache of %d bytes and %d slots is invalid", f.h.name, varName, bytes, nslots)
+	}
+	if st := C.nc_set_var_chunk_cache(f.h.ncid, v.id, C.size_t(bytes), C.size_t(nslots), 0.75); st != C.NC_NOERR {
+		return f.h.err(st, varName, "set chunk cache")
+	}
+	return nil
+}
+
+// ReadFloat64Slab reads a hyperslab of a variable into dst converted to
+// float64 by the library (nc_get_vara_double); see [File.ReadFloat32Slab].
+// Every value of the 8-, 16- and 32-bit integer types is exact in float64.
+func (f *File) ReadFloat64Slab(varName string, start, count []int, dst []float64) error {
+	lock()
+	defer unlock()
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return err
+	}
+	if varName == "" {
+		return fmt.Errorf("netcdf: %s: a variable name is needed", f.h.name)
+	}
+	if !v.typ.numeric() {
+		return fmt.Errorf("netcdf: %s: variable %q has type %s; expected a numeric variable", f.h.name, varName, v.typ)
+	}
+	sp, cp, n, err := f.h.startCount(varName, v, start, count)
+	if err != nil {
+		return err
+	}
+	if len(dst) < n {
+		return fmt.Errorf("netcdf: %s: variable %q: buffer holds %d values but the hyperslab has %d; pass a larger buffer", f.h.name, varName, len(dst), n)
+	}
+	if n == 0 {
+		return nil
+	}
+	if st := C.nc_get_vara_double(f.h.ncid, v.id, sp, cp, (*C.double)(unsafe.Pointer(&dst[0]))); st != C.NC_NOERR {
+		return f.h.err(st, varName, fmt.Sprintf("read start %v count %v", start, count))
+	}
+	return nil
+}
+
+// AttInfo returns the type and number of values of an attribute of a
+// variable ("" for a global attribute); ok is false when it is absent.
+func (f *File) AttInfo(varName, attName string) (typ Type, n int, ok bool, err error) {
+	lock()
+	defer unlock()
+	_, cname, typ, n, ok, err := f.h.attLocked(varName, attName)
+	if cname != nil {
+		C.free(unsafe.Pointer(cname))
+	}
+	return typ, n, ok, err
+}
+
+// Numeric reports whether t is a numeric atomic type.
+func (t Type) Numeric() bool { return t.numeric() }
+
+// Integer reports whether t is one of the integer types.
+func (t Type) Integer() bool { return t.numeric() && t != Float32 && t != Float64 }
