@@ -441,30 +441,24 @@ func TestBadTruncatedFile(t *testing.T) {
 	openErr(t, path, "is not a NetCDF file or is damaged")
 }
 
+// TestBadMissingEta: a variable called "elevation" with no standard_name is
+// not guessed; the message names the setting and lists the candidates, and
+// the setting then reads it.
 func TestBadMissingEta(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "noeta.nc")
 	sp := goodSpec()
 	sp.etaName = "elevation"
 	writeRaw(t, path, sp)
-	openErr(t, path, `no elevation variable "eta"`)
-	// The configured name is honoured and reported.
-	if s, err := OpenElevation(path, ElevationOptions{Names: Names{Eta: "elevation"}}); err != nil {
+	openErr(t, path, `none is named "eta"`, "set variable", "variables of three dimensions: elevation")
+	if s, err := OpenElevation(path, ElevationOptions{Variable: "elevation"}); err != nil {
 		t.Errorf("configured name: %v", err)
 	} else {
 		s.Close()
 	}
-	_, err := OpenElevation(path, ElevationOptions{Names: Names{Eta: "z"}})
-	if err == nil || !strings.Contains(err.Error(), `"z"`) {
+	_, err := OpenElevation(path, ElevationOptions{Variable: "z"})
+	if err == nil || !strings.Contains(err.Error(), `no variable "z" (the setting variable)`) || !strings.Contains(err.Error(), "elevation") {
 		t.Errorf("configured missing name: %v", err)
 	}
-}
-
-func TestBadDimensionOrder(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "order.nc")
-	sp := goodSpec()
-	sp.etaDims = []string{"x", "y", "time"}
-	writeRaw(t, path, sp)
-	openErr(t, path, `variable "eta" has dimensions (x,y,time); expected (time,y,x)`)
 }
 
 func TestBadIrregularX(t *testing.T) {
@@ -475,10 +469,10 @@ func TestBadIrregularX(t *testing.T) {
 	openErr(t, path, `coordinate "x"`, "not regularly spaced")
 }
 
-func TestBadDecreasingY(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "decreasing.nc")
+func TestBadNonMonotonicY(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "zigzag.nc")
 	sp := goodSpec()
-	sp.y = []float64{4, 2, 0}
+	sp.y = []float64{0, 4, 2}
 	writeRaw(t, path, sp)
 	openErr(t, path, `coordinate "y"`, "not strictly increasing")
 }
