@@ -269,8 +269,8 @@ type SkipCounts map[string]int
 
 // Reasons used in [SkipCounts].
 const (
-	SkipAllNaN     = "all-NaN frame"
-	SkipTimeGap    = "dropped frame (time gap)"
+	SkipAllNaN          = "all-NaN frame"
+	SkipTimeGap         = "dropped frame (time gap)"
 	SkipUnreadableFrame = "unreadable frame"
 )
 
