@@ -764,6 +764,9 @@ func (s *ElevationSource) Close() error {
 		return nil
 	}
 	s.rd.stop()
+	if s.rd.direct != nil {
+		s.rd.direct.Close()
+	}
 	err := s.f.Close()
 	s.f = nil
 	return err

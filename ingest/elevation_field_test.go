@@ -34,11 +34,11 @@ eta[5, 4, 0] = np.nan
 cases = {}
 
 def write(name, order, fmt='NETCDF4', flip_y=False, chunks=None, dimnames=('time', 'y', 'x'),
-          axis_attrs=False, packed=None, std=None, varname='eta', extra=None, zlib=False, fletcher=False):
+          axis_attrs=False, packed=None, std=None, varname='eta', extra=None, zlib=False, fletcher=False, dtype='f4', unlimited=True):
     path = d + '/' + name + '.nc'
     with netCDF4.Dataset(path, 'w', format=fmt) as ds:
         names = dict(zip('tyx', dimnames))
-        ds.createDimension(names['t'], None if order[0] == 't' else nt)
+        ds.createDimension(names['t'], None if order[0] == 't' and unlimited else nt)
         ds.createDimension(names['y'], ny)
         ds.createDimension(names['x'], nx)
         tv = ds.createVariable(names['t'], 'f8', (names['t'],)); tv.units = 'seconds since 2026-06-01T00:00:00Z'
@@ -65,7 +65,7 @@ def write(name, order, fmt='NETCDF4', flip_y=False, chunks=None, dimnames=('time
             v.units = 'm'
             v[:] = np.ma.masked_invalid(np.transpose(data, perm).astype('f8'))
         else:
-            v = ds.createVariable(varname, 'f4', tuple(names[c] for c in order), fill_value=np.float32(-9999.0), zlib=zlib, fletcher32=fletcher, **kw)
+            v = ds.createVariable(varname, dtype, tuple(names[c] for c in order), fill_value=np.array(-9999.0, dtype), zlib=zlib, fletcher32=fletcher, **kw)
             v.units = 'm'
             if extra:
                 for k, val in extra.items():
@@ -102,6 +102,12 @@ write('valid_range', 'tyx', extra={'valid_range': np.array([-0.3, 0.35], 'f4')})
 write('valid_min', 'tyx', extra={'valid_min': np.float32(-0.2)})
 write('packed_valid', 'tyx', packed=('i2', 0.0005, 1.0, np.int16(-32767)), extra={'valid_min': np.int16(-1400)})
 write('by_std', 'tyx', varname='z', std='sea_surface_height_above_mean_sea_level')
+write('classic_fixed', 'tyx', fmt='NETCDF3_CLASSIC', unlimited=False)
+write('classic_f8', 'tyx', fmt='NETCDF3_CLASSIC', dtype='f8')
+write('classic_f8_packed', 'tyx', fmt='NETCDF3_64BIT_OFFSET', packed=('f8', 1.0, 0.5, np.float64(-9999.0)))
+write('classic_i2', 'tyx', fmt='NETCDF3_CLASSIC', packed=('i2', 0.0005, 1.0, np.int16(-32767)), unlimited=False)
+write('classic_i1', 'tyx', fmt='NETCDF3_CLASSIC', packed=('i1', 0.01, 0.0, np.int8(-127)))
+write('classic_i4', 'tyx', fmt='NETCDF3_64BIT_OFFSET', packed=('i4', 1e-7, -0.5, np.int32(-2147483647)), extra={'valid_min': np.int32(1000000)})
 np.concatenate([t, y, x]).astype('<f8').tofile(d + '/axes.bin')
 `
 
@@ -177,6 +183,12 @@ func TestFieldLayouts(t *testing.T) {
 		{"valid_min", ElevationOptions{}},
 		{"packed_valid", ElevationOptions{}},
 		{"by_std", ElevationOptions{}},
+		{"classic_fixed", ElevationOptions{}},
+		{"classic_f8", ElevationOptions{}},
+		{"classic_f8_packed", ElevationOptions{}},
+		{"classic_i2", ElevationOptions{}},
+		{"classic_i1", ElevationOptions{}},
+		{"classic_i4", ElevationOptions{}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			path := filepath.Join(dir, c.name+".nc")
@@ -204,7 +216,10 @@ func TestFieldLayouts(t *testing.T) {
 				}
 				s.Rewind()
 			}
-			if c.name == "valid_range" || c.name == "valid_min" || c.name == "packed_valid" {
+			if strings.HasPrefix(c.name, "classic") && c.name != "classic_txy" && s.rd.direct == nil {
+				t.Errorf("classic file in (time, y, x) order not read directly")
+			}
+			if c.name == "valid_range" || c.name == "valid_min" || c.name == "packed_valid" || c.name == "classic_i4" {
 				mc := s.MaskedCells()
 				nan := 0
 				for _, v := range want {

@@ -1,7 +1,6 @@
 package ingest
 
 import (
-	"fmt"
 	"math"
 	"slices"
 
@@ -17,7 +16,7 @@ import (
 
 // maskParams hold what the masking of one variable needs.
 type maskParams struct {
-	raw64 bool // stored values are read as float64 (else float32)
+	kind rawKind // how stored values are held (see plan)
 	// Unpacking: metres = stored*scale + offset (CF-1.8 §8.1, with the
 	// units' factor to metres folded in); identity skips it.
 	scale, offset float64
@@ -74,9 +73,11 @@ func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 	p.identity = p.scale == 1 && p.offset == 0
 	switch typ {
 	case netcdf.Int32, netcdf.Uint32, netcdf.Int64, netcdf.Uint64:
-		p.raw64 = true // float32 cannot hold every stored value
+		p.kind = rawF64 // float32 cannot hold every stored value
 	case netcdf.Float64:
-		p.raw64 = !p.identity
+		if !p.identity {
+			p.kind = rawF64
+		}
 	}
 
 	// Fill and missing values are compared with the stored values.
@@ -161,9 +162,9 @@ func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 }
 
 // stored rounds a value given in the file's attributes to the precision of
-// the stored values as read (float32 unless raw64).
+// the stored values as tested (float32 unless the kind is wide).
 func (p *maskParams) stored(v float64) float64 {
-	if p.raw64 {
+	if p.kind.wide() {
 		return v
 	}
 	return float64(float32(v))
@@ -191,10 +192,50 @@ func (p *maskParams) unpack(v float64) float64 {
 // (valid range, bound, spike).
 func (p *maskParams) frame(blk *block, i int, eta []float32, valid []bool, counts *[3]int64) int {
 	c := len(eta)
-	if p.raw64 {
-		return maskFrame(p, blk.raw64[i*c:(i+1)*c], eta, valid, counts)
+	var b []byte
+	var f32 []float32
+	var f64 []float64
+	switch p.kind {
+	case rawF32:
+		f32 = blk.raw32[i*c : (i+1)*c]
+	case rawF64:
+		f64 = blk.raw64[i*c : (i+1)*c]
+	default:
+		sz := p.kind.size()
+		b = blk.rawB[i*c*sz : (i+1)*c*sz]
 	}
-	return maskFrame(p, blk.raw32[i*c:(i+1)*c], eta, valid, counts)
+	lo := max(p.validLo, p.boundLo)
+	hi := min(p.validHi, p.boundHi)
+	if p.spike {
+		if m, thr, ok := p.spikeLimits(b, f32, f64, c); ok {
+			a, z := p.toStoredRange(m-thr, m+thr)
+			lo, hi = max(lo, a), min(hi, z)
+		}
+	}
+	if p.kind.wide() {
+		lo, hi = inward[float64](lo, hi)
+	} else {
+		l, h := inward[float32](lo, hi)
+		lo, hi = float64(l), float64(h)
+	}
+	n := kernel(p.kind, b, f32, f64, eta, valid, lo, hi, p.hasFill, p.fill, p.hasMiss, p.miss, p.identity, p.scale, p.offset)
+	if n < c {
+		for j, ok := range valid {
+			if !ok {
+				p.classify(p.kind.at(b, f32, f64, j), counts)
+			}
+		}
+	}
+	if len(p.moreMiss) > 0 {
+		nan := float32(math.NaN())
+		for j, ok := range valid {
+			if ok && slices.Contains(p.moreMiss, p.kind.at(b, f32, f64, j)) {
+				eta[j], valid[j] = nan, false
+				n--
+			}
+		}
+	}
+	return n
 }
 
 // foamFrame copies frame i's foam mask into dst, fill values as water.
@@ -229,56 +270,6 @@ func inward[T float32 | float64](lo, hi float64) (T, T) {
 	return T(lo), T(hi)
 }
 
-// maskFrame is the per-cell loop of [maskParams.frame].
-func maskFrame[T float32 | float64](p *maskParams, raw []T, eta []float32, valid []bool, counts *[3]int64) int {
-	lo := max(p.validLo, p.boundLo)
-	hi := min(p.validHi, p.boundHi)
-	if p.spike {
-		if m, thr, ok := spikeLimits(p, raw); ok {
-			a, b := p.toStoredRange(m-thr, m+thr)
-			lo, hi = max(lo, a), min(hi, b)
-		}
-	}
-	loT, hiT := inward[T](lo, hi)
-	fill, miss := T(p.fill), T(p.miss)
-	hasFill, hasMiss := p.hasFill, p.hasMiss
-	nan := float32(math.NaN())
-	n := 0
-	if p.identity {
-		for i, r := range raw {
-			if r >= loT && r <= hiT && !(hasFill && r == fill) && !(hasMiss && r == miss) {
-				eta[i] = float32(r)
-				valid[i] = true
-				n++
-				continue
-			}
-			eta[i], valid[i] = nan, false
-			p.classify(float64(r), counts)
-		}
-	} else {
-		scale, offset := p.scale, p.offset
-		for i, r := range raw {
-			if r >= loT && r <= hiT && !(hasFill && r == fill) && !(hasMiss && r == miss) {
-				eta[i] = float32(float64(float64(r)*scale) + offset)
-				valid[i] = true
-				n++
-				continue
-			}
-			eta[i], valid[i] = nan, false
-			p.classify(float64(r), counts)
-		}
-	}
-	if len(p.moreMiss) > 0 {
-		for i, r := range raw {
-			if valid[i] && slices.Contains(p.moreMiss, float64(r)) {
-				eta[i], valid[i] = nan, false
-				n--
-			}
-		}
-	}
-	return n
-}
-
 // classify counts a rejected stored value by the first test it fails;
 // values the file marks unknown (NaN, ±Inf, fill, missing) are not counted.
 func (p *maskParams) classify(r float64, counts *[3]int64) {
@@ -296,7 +287,7 @@ func (p *maskParams) classify(r float64, counts *[3]int64) {
 // Spike test sampling: at most spikeSamples cells, and no test on fewer
 // than spikeMinSamples known ones.
 const (
-	spikeSamples    = 4096
+	spikeSamples    = 1024
 	spikeMinSamples = 64
 )
 
@@ -306,8 +297,7 @@ const (
 // is the robust estimate of the standard deviation of a Gaussian sample
 // (Rousseeuw & Croux 1993, J. Am. Stat. Assoc. 88, 1273). The stride is
 // coprime with the grid width so that the sample walks across columns.
-func spikeLimits[T float32 | float64](p *maskParams, raw []T) (median, thr float64, ok bool) {
-	n := len(raw)
+func (p *maskParams) spikeLimits(b []byte, f32 []float32, f64 []float64, n int) (median, thr float64, ok bool) {
 	step := max(1, n/spikeSamples)
 	for p.nx > 1 && gcd(step, p.nx) != 1 {
 		step++
@@ -315,7 +305,7 @@ func spikeLimits[T float32 | float64](p *maskParams, raw []T) (median, thr float
 	lo, hi := max(p.validLo, p.boundLo), min(p.validHi, p.boundHi)
 	sm := p.samples[:0]
 	for i := step / 2; i < n; i += step {
-		r := float64(raw[i])
+		r := p.kind.at(b, f32, f64, i)
 		if !(r >= lo && r <= hi) || (p.hasFill && r == p.fill) || (p.hasMiss && r == p.miss) {
 			continue
 		}
@@ -382,19 +372,4 @@ func quantileMid(v []float64) float64 {
 		}
 	}
 	return v[k]
-}
-
-// describeMasking states, for messages and reports, the tests in force.
-func (p *maskParams) describe(o ElevationOptions) string {
-	parts := []string{}
-	if o.MaxAbsElevationM > 0 {
-		parts = append(parts, fmt.Sprintf("|eta| <= %g m", o.MaxAbsElevationM))
-	}
-	if p.spike {
-		parts = append(parts, fmt.Sprintf("|eta - frame median| <= max(%g x 1.4826 MAD, %g m)", p.spikeK, p.spikeMin))
-	}
-	if len(parts) == 0 {
-		return "no plausibility tests"
-	}
-	return fmt.Sprint(parts)
 }

@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"fmt"
+	"os"
 	"slices"
 	"strings"
 
@@ -120,8 +121,9 @@ func abs(v int) int {
 // block is a set of consecutive frames in (t, y, x) order.
 type block struct {
 	b, first, n int
-	raw32       []float32 // elevations as stored (float32 path)
-	raw64       []float64 // elevations as stored (float64 path)
+	raw32       []float32 // elevations as the library converts them (rawF32)
+	raw64       []float64 // (rawF64)
+	rawB        []byte    // elevations as stored in a classic file (big-endian kinds)
 	foam        []uint8
 	bad         []error // per frame: why it could not be read, nil if read
 }
@@ -132,8 +134,12 @@ type reader struct {
 	eta      string
 	foamName string
 	lay      *layout
-	raw64    bool
+	kind     rawKind
 	cells    int
+	// Classic-format files in (time, y, x) order are read straight from
+	// the file: frame k's bytes start at begin + k*stride.
+	direct        *os.File
+	begin, stride int64
 	nt, nb   int // frames, frames per block
 	nblocks  int
 
@@ -156,14 +162,22 @@ const (
 	blockTarget = 8 << 20
 )
 
-// plan chooses the frames per block and sets up the reader.
+// plan chooses how frames are read and the frames per block, and sets up
+// the reader.
 func (s *ElevationSource) plan() error {
 	l := &s.layout
 	ny, nx, nt := s.meta.Grid.Ny(), s.meta.Grid.Nx(), len(s.meta.Times)
 	cells := ny * nx
+	s.rd = reader{f: s.f, eta: s.names.Eta, lay: l, cells: cells, nt: nt}
+	if err := s.planDirect(); err != nil {
+		return err
+	}
 	elem := 4
-	if s.mp.raw64 {
+	switch {
+	case s.mp.kind == rawF64:
 		elem = 8
+	case s.mp.kind != rawF32:
+		elem = s.mp.kind.size()
 	}
 	frameBytes := cells * elem
 	if l.foam != nil {
@@ -201,12 +215,65 @@ func (s *ElevationSource) plan() error {
 	if float64(buffers*nb*frameBytes) > limit && nb > 1 {
 		nb = max(1, int(limit)/(buffers*frameBytes))
 	}
-	s.rd = reader{f: s.f, eta: s.names.Eta, lay: l, raw64: s.mp.raw64, cells: cells,
-		nt: nt, nb: nb, nblocks: (nt + nb - 1) / nb}
+	s.rd.kind, s.rd.nb, s.rd.nblocks = s.mp.kind, nb, (nt+nb-1)/nb
 	if l.foam != nil {
 		s.rd.foamName = s.names.Foam
 	}
 	s.mp.nx = nx
+	return nil
+}
+
+// planDirect sets up reading a classic-format file's elevations straight
+// from the file, when they lie in (time, y, x) order: a frame is then one
+// run of big-endian bytes, read with one system call and converted while
+// it is masked, where the library would copy and convert it first.
+func (s *ElevationSource) planDirect() error {
+	h := s.f.Classic()
+	if h == nil || !s.layout.natural() {
+		return nil
+	}
+	var v *netcdf.ClassicVar
+	for i := range h.Vars {
+		if h.Vars[i].Name == s.names.Eta {
+			v = &h.Vars[i]
+		}
+	}
+	if v == nil {
+		return nil
+	}
+	var kind rawKind
+	switch v.Type {
+	case netcdf.Float32:
+		kind = rawBEF32
+	case netcdf.Float64:
+		kind = rawBEF64As32
+		if s.mp.kind == rawF64 {
+			kind = rawBEF64
+		}
+	case netcdf.Int16:
+		kind = rawBEI16
+	case netcdf.Int8:
+		kind = rawI8
+	case netcdf.Int32:
+		kind = rawBEI32
+	default:
+		return nil
+	}
+	nt := int64(len(s.meta.Times))
+	frameBytes := int64(s.rd.cells * kind.size())
+	stride := h.RecSize
+	if !v.Record {
+		stride = v.Size / nt
+	}
+	if v.Record && v.Size != frameBytes || !v.Record && v.Size != frameBytes*nt {
+		return nil
+	}
+	f, err := os.Open(s.path)
+	if err != nil {
+		return s.errorf("cannot open for reading: %v", err)
+	}
+	s.mp.kind = kind
+	s.rd.direct, s.rd.begin, s.rd.stride = f, v.Begin, stride
 	return nil
 }
 
@@ -293,10 +360,13 @@ func (r *reader) load(blk *block, b int) {
 	n := min(r.nb, r.nt-first)
 	blk.first, blk.n = first, n
 	size := n * r.cells
-	if r.raw64 {
-		blk.raw64 = grow(blk.raw64, size)
-	} else {
+	switch r.kind {
+	case rawF32:
 		blk.raw32 = grow(blk.raw32, size)
+	case rawF64:
+		blk.raw64 = grow(blk.raw64, size)
+	default:
+		blk.rawB = grow(blk.rawB, size*r.kind.size())
 	}
 	if r.foamName != "" {
 		blk.foam = grow(blk.foam, size)
@@ -316,14 +386,17 @@ func (r *reader) read(blk *block, at, first, n int) error {
 	c := r.cells
 	lo, hi := at*c, (at+n)*c
 	var err error
-	if r.raw64 {
-		err = readInto(r.lay, blk.raw64[lo:hi], &r.scratch.f64, first, n, func(st, ct []int, dst []float64) error {
-			return r.f.ReadFloat64Slab(r.eta, st, ct, dst)
-		})
-	} else {
+	switch r.kind {
+	case rawF32:
 		err = readInto(r.lay, blk.raw32[lo:hi], &r.scratch.f32, first, n, func(st, ct []int, dst []float32) error {
 			return r.f.ReadFloat32Slab(r.eta, st, ct, dst)
 		})
+	case rawF64:
+		err = readInto(r.lay, blk.raw64[lo:hi], &r.scratch.f64, first, n, func(st, ct []int, dst []float64) error {
+			return r.f.ReadFloat64Slab(r.eta, st, ct, dst)
+		})
+	default:
+		err = r.readDirect(blk.rawB[lo*r.kind.size():hi*r.kind.size()], first, n)
 	}
 	if err != nil {
 		return fmt.Errorf("%s", shortReadErr(err, r.eta, first, n))
@@ -334,6 +407,24 @@ func (r *reader) read(blk *block, at, first, n int) error {
 		})
 		if err != nil {
 			return fmt.Errorf("%s", shortReadErr(err, r.foamName, first, n))
+		}
+	}
+	return nil
+}
+
+// readDirect reads the stored bytes of frames [first, first+n) of a
+// classic-format file: one read when the frames are contiguous (a fixed-
+// size variable, or the only record variable), else one per frame.
+func (r *reader) readDirect(dst []byte, first, n int) error {
+	fb := int64(len(dst) / n)
+	if r.stride == fb {
+		_, err := r.direct.ReadAt(dst, r.begin+int64(first)*fb)
+		return err
+	}
+	for i := range n {
+		off := r.begin + int64(first+i)*r.stride
+		if _, err := r.direct.ReadAt(dst[int64(i)*fb:int64(i+1)*fb], off); err != nil {
+			return err
 		}
 	}
 	return nil
