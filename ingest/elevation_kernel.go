@@ -81,14 +81,14 @@ import (
 type rawKind int
 
 const (
-	rawF32     rawKind = iota // native float32, converted by the library
-	rawF64                    // native float64, converted by the library
-	rawBEF32                  // classic-format bytes: big-endian float
-	rawBEF64As32              // big-endian double, tested as float (unpacked doubles)
-	rawBEF64                  // big-endian double
-	rawBEI16                  // big-endian short
-	rawI8                     // byte
-	rawBEI32                  // big-endian int
+	rawF32       rawKind = iota // native float32, converted by the library
+	rawF64                      // native float64, converted by the library
+	rawBEF32                    // classic-format bytes: big-endian float
+	rawBEF64As32                // big-endian double, tested as float (unpacked doubles)
+	rawBEF64                    // big-endian double
+	rawBEI16                    // big-endian short
+	rawI8                       // byte
+	rawBEI32                    // big-endian int
 )
 
 // size returns the bytes per stored value of a kind held as bytes.

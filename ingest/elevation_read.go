@@ -140,8 +140,8 @@ type reader struct {
 	// the file: frame k's bytes start at begin + k*stride.
 	direct        *os.File
 	begin, stride int64
-	nt, nb   int // frames, frames per block
-	nblocks  int
+	nt, nb        int // frames, frames per block
+	nblocks       int
 
 	bufs    [2]*block
 	cur     *block
