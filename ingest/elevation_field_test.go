@@ -439,3 +439,214 @@ func TestTruncatedClassicElevation(t *testing.T) {
 		t.Errorf("cut at 10 %%: %v", err)
 	}
 }
+
+// damagedScript writes 20 frames of 16 x 12 cells, one frame per chunk,
+// with Fletcher-32 checksums (netCDF4-python), frames 5, 9 and 13 holding
+// a constant the test can find in the file to damage their chunks.
+const damagedScript = `
+import sys, numpy as np, netCDF4
+path = sys.argv[1]
+nt, ny, nx = 20, 12, 16
+with netCDF4.Dataset(path, 'w') as ds:
+    ds.createDimension('time', None); ds.createDimension('y', ny); ds.createDimension('x', nx)
+    t = ds.createVariable('time', 'f8', ('time',)); t.units = 'seconds since 2026-06-01T00:00:00Z'
+    ds.createVariable('y', 'f8', ('y',))[:] = np.arange(ny) * 0.5
+    ds.createVariable('x', 'f8', ('x',))[:] = np.arange(nx) * 0.5
+    e = ds.createVariable('eta', 'f4', ('time', 'y', 'x'), chunksizes=(1, ny, nx), fletcher32=True)
+    for k in range(nt):
+        t[k] = 0.1 * k
+        if k in (5, 9, 13):
+            e[k] = np.full((ny, nx), 0.123 + 0.001 * k, 'f4')
+        else:
+            e[k] = np.sin(np.arange(ny * nx).reshape(ny, nx) * 0.1 + k).astype('f4')
+`
+
+// damage flips a byte inside the stored chunk of frame k of the damaged
+// record (found by its constant value).
+func damage(t *testing.T, data []byte, k int) {
+	t.Helper()
+	v := math.Float32bits(float32(0.123 + 0.001*float64(k)))
+	pat := []byte{byte(v), byte(v >> 8), byte(v >> 16), byte(v >> 24)}
+	pat = slices.Concat(pat, pat, pat, pat)
+	i := strings.Index(string(data), string(pat))
+	if i < 0 {
+		t.Fatalf("frame %d not found in the file", k)
+	}
+	data[i+100] ^= 0xff
+}
+
+// TestUnreadableFrames: a damaged chunk (its checksum fails) costs only its
+// frame, which is skipped and counted; more damaged frames than
+// max_unreadable_fraction allows refuse the record with a sentence.
+func TestUnreadableFrames(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "fletcher.nc")
+	runPython(t, damagedScript, path)
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	one := slices.Clone(data)
+	damage(t, one, 9)
+	p1 := filepath.Join(dir, "one.nc")
+	os.WriteFile(p1, one, 0o644)
+	s, err := OpenElevation(p1, ElevationOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	for pass := range 2 {
+		_, idx := readFrames(t, s)
+		if len(idx) != 19 || slices.Contains(idx, 9) {
+			t.Errorf("pass %d: frames %v; want all but 9", pass, idx)
+		}
+		if sk := s.Skipped(); sk[SkipUnreadableFrame] != 1 || len(sk) != 1 {
+			t.Errorf("pass %d: skipped %v", pass, sk)
+		}
+		s.Rewind()
+	}
+	three := slices.Clone(data)
+	for _, k := range []int{5, 9, 13} {
+		damage(t, three, k)
+	}
+	p3 := filepath.Join(dir, "three.nc")
+	os.WriteFile(p3, three, 0o644)
+	s3, err := OpenElevation(p3, ElevationOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s3.Close()
+	var f Frame
+	for err == nil {
+		err = s3.Next(&f)
+	}
+	if err == io.EOF || !strings.Contains(err.Error(), p3) || !strings.Contains(err.Error(), "frames are unreadable") || !strings.Contains(err.Error(), "max_unreadable_fraction") {
+		t.Errorf("three damaged frames of 20: %v", err)
+	}
+	// A larger allowance skips all three.
+	s4, err := OpenElevation(p3, ElevationOptions{MaxUnreadableFraction: 0.2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s4.Close()
+	if _, idx := readFrames(t, s4); len(idx) != 17 || s4.Skipped()[SkipUnreadableFrame] != 3 {
+		t.Errorf("allowance 0.2: %d frames, skipped %v", len(idx), s4.Skipped())
+	}
+}
+
+// TestDamagedClassicHeaderElevation: a classic header on which libnetcdf
+// 4.9 crashes is refused by OpenElevation with a sentence.
+func TestDamagedClassicHeaderElevation(t *testing.T) {
+	path := filepath.Join("..", "internal", "netcdf", "testdata", "damaged", "dim-count-negative-138.nc")
+	_, err := OpenElevation(path, ElevationOptions{})
+	if err == nil || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "is not a NetCDF file or is damaged") {
+		t.Errorf("%v", err)
+	}
+}
+
+// conventionScript writes files that exercise how the variable, the
+// dimensions and the grid are found.
+const conventionScript = `
+import sys, numpy as np, netCDF4
+d = sys.argv[1]
+nt, ny, nx = 4, 5, 6
+x = 2.0 + 0.5 * np.arange(nx); y = -1.0 + 0.25 * np.arange(ny)
+data = np.arange(nt * ny * nx, dtype='f4').reshape(nt, ny, nx) * 0.01
+def base(path, dims=('time', 'nj', 'ni')):
+    ds = netCDF4.Dataset(path, 'w')
+    ds.createDimension(dims[0], nt); ds.createDimension(dims[1], ny); ds.createDimension(dims[2], nx)
+    t = ds.createVariable(dims[0], 'f8', (dims[0],)); t.units = 'seconds since 2026-06-01T00:00:00Z'; t[:] = 0.1 * np.arange(nt)
+    return ds
+# 2-D coordinate arrays of a regular grid, listed in the coordinates attribute.
+ds = base(d + '/coords2d.nc')
+X, Y = np.meshgrid(x, y)
+xv = ds.createVariable('xc', 'f8', ('nj', 'ni')); xv.units = 'm'; xv.standard_name = 'projection_x_coordinate'; xv[:] = X
+yv = ds.createVariable('yc', 'f8', ('nj', 'ni')); yv.units = 'm'; yv.standard_name = 'projection_y_coordinate'; yv[:] = Y
+e = ds.createVariable('eta', 'f4', ('time', 'nj', 'ni')); e.coordinates = 'xc yc'; e.units = 'm'; e[:] = data
+ds.close()
+# The same, transposed in space: eta(time, ni, nj).
+ds = base(d + '/coords2d_t.nc')
+xv = ds.createVariable('xc', 'f8', ('nj', 'ni')); xv.units = 'm'; xv.axis = 'X'; xv[:] = X
+yv = ds.createVariable('yc', 'f8', ('nj', 'ni')); yv.units = 'm'; yv.axis = 'Y'; yv[:] = Y
+e = ds.createVariable('eta', 'f4', ('time', 'ni', 'nj')); e.units = 'm'; e[:] = np.transpose(data, (0, 2, 1))
+ds.close()
+# A rotated grid: refused.
+ds = base(d + '/rotated.nc')
+c, s = np.cos(0.2), np.sin(0.2)
+xv = ds.createVariable('xc', 'f8', ('nj', 'ni')); xv.units = 'm'; xv.axis = 'X'; xv[:] = c * X - s * Y
+yv = ds.createVariable('yc', 'f8', ('nj', 'ni')); yv.units = 'm'; yv.axis = 'Y'; yv[:] = s * X + c * Y
+e = ds.createVariable('eta', 'f4', ('time', 'nj', 'ni')); e.units = 'm'; e[:] = data
+ds.close()
+# Two variables with the same elevation standard_name: ambiguous.
+ds = base(d + '/ambiguous.nc', ('time', 'y', 'x'))
+ds.createVariable('y', 'f8', ('y',))[:] = y; ds.createVariable('x', 'f8', ('x',))[:] = x
+for n in ('zraw', 'zfilt'):
+    v = ds.createVariable(n, 'f4', ('time', 'y', 'x')); v.standard_name = 'sea_surface_height_above_mean_sea_level'; v[:] = data
+ds.close()
+# Dimensions that nothing names: a, b.
+ds = base(d + '/anonymous.nc', ('time', 'a', 'b'))
+ds.createVariable('a', 'f8', ('a',))[:] = y; ds.createVariable('b', 'f8', ('b',))[:] = x
+ds.createVariable('eta', 'f4', ('time', 'a', 'b'))[:] = data
+ds.close()
+data.astype('<f4').tofile(d + '/want.bin')
+`
+
+// TestGridConventions: 2-D coordinate arrays of a regular grid are read in
+// either dimension order; a rotated grid, an ambiguous standard_name and
+// dimensions nothing identifies are refused with the setting that helps.
+func TestGridConventions(t *testing.T) {
+	dir := t.TempDir()
+	runPython(t, conventionScript, dir)
+	want := readF32(t, filepath.Join(dir, "want.bin"))
+	for _, name := range []string{"coords2d", "coords2d_t"} {
+		s, err := OpenElevation(filepath.Join(dir, name+".nc"), ElevationOptions{})
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		g := s.Meta().Grid
+		if g.Nx() != 6 || g.Ny() != 5 || g.X[0] != 2 || g.Dx() != 0.5 || g.Y[0] != -1 || g.Dy() != 0.25 {
+			t.Errorf("%s: grid %+v", name, g)
+		}
+		got, _ := readFrames(t, s)
+		if !slices.Equal(got, want) {
+			t.Errorf("%s: values differ from the written ones", name)
+		}
+		s.Close()
+	}
+	openErrOpt(t, filepath.Join(dir, "rotated.nc"), ElevationOptions{}, "does not describe a regular grid", "rotated")
+	openErrOpt(t, filepath.Join(dir, "ambiguous.nc"), ElevationOptions{}, "several variables", "zraw, zfilt", "set variable")
+	if s, err := OpenElevation(filepath.Join(dir, "ambiguous.nc"), ElevationOptions{Variable: "zfilt"}); err != nil {
+		t.Error(err)
+	} else {
+		s.Close()
+	}
+	openErrOpt(t, filepath.Join(dir, "anonymous.nc"), ElevationOptions{}, "cannot tell which dimension", "y_dimension", "x_dimension")
+	s, err := OpenElevation(filepath.Join(dir, "anonymous.nc"), ElevationOptions{YDimension: "a", XDimension: "b"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	if got, _ := readFrames(t, s); !slices.Equal(got, want) {
+		t.Error("anonymous dimensions set by name: values differ")
+	}
+	openErrOpt(t, filepath.Join(dir, "anonymous.nc"), ElevationOptions{YDimension: "c"}, `no dimension "c" (the setting y_dimension)`)
+}
+
+// openErrOpt is openErr with options.
+func openErrOpt(t *testing.T, path string, opt ElevationOptions, fragments ...string) {
+	t.Helper()
+	s, err := OpenElevation(path, opt)
+	if err == nil {
+		s.Close()
+		t.Fatalf("OpenElevation(%s) succeeded; want an error", path)
+	}
+	msg := err.Error()
+	for _, f := range append([]string{path}, fragments...) {
+		if !strings.Contains(msg, f) {
+			t.Errorf("error lacks %q: %v", f, err)
+		}
+	}
+	if strings.Contains(msg, "\n") {
+		t.Errorf("error is not one line: %v", err)
+	}
+}

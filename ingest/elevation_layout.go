@@ -238,12 +238,13 @@ func (s *ElevationSource) resolveDims(dims []string, opt ElevationOptions) ([3]i
 		missing = nil
 	}
 	if len(missing) > 0 {
-		var need []string
+		var roles, sets []string
 		for _, r := range missing {
-			need = append(need, fmt.Sprintf("%s (%s)", axisNames[r], settingFor[r]))
+			roles = append(roles, axisNames[r])
+			sets = append(sets, settingFor[r])
 		}
-		return pos, s.errorf("cannot tell which dimension of %q (%s) is %s: none has a coordinate variable with a CF axis or standard_name saying so; set %s",
-			s.names.Eta, strings.Join(dims, ","), strings.Join(need, " and "), strings.Join(need, " and "))
+		return pos, s.errorf("cannot tell which dimension of %q (%s) is %s: no coordinate variable has a CF axis or standard_name that says so; set %s to the dimension names",
+			s.names.Eta, strings.Join(dims, ","), strings.Join(roles, " and which "), strings.Join(sets, " and "))
 	}
 	return pos, nil
 }
