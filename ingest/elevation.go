@@ -310,11 +310,13 @@ type ElevationSource struct {
 	unreadable int      // unreadable frames found (each counted once)
 	badLimit   int      // unreadable frames allowed
 	noLimit    bool     // a multi-file source applies the limit record-wide
+	part       bool     // a part of a multi-file record (may hold one frame)
 	masked     [3]int64 // cells masked: valid range, bound, spike
 	firstBad   string   // message of the first unreadable frame
 	warnings   []string // about the layout, for the caller to show
 
-	layout layout // how frames lie in the file
+	unit   float64 // factor from the elevation units to metres
+	layout layout  // how frames lie in the file
 	rd     reader // block reads with read-ahead
 	mp     maskParams
 }
@@ -324,6 +326,12 @@ type ElevationSource struct {
 // conventions the options describe. Each failure is a single sentence
 // naming the file and what is wrong or which setting fixes it.
 func OpenElevation(path string, opt ElevationOptions) (*ElevationSource, error) {
+	return openElevation(path, opt, false)
+}
+
+// openElevation opens one file; a part of a multi-file record (part) may
+// hold a single frame.
+func openElevation(path string, opt ElevationOptions, part bool) (*ElevationSource, error) {
 	o, err := opt.withDefaults()
 	if err != nil {
 		return nil, err
@@ -343,7 +351,7 @@ func OpenElevation(path string, opt ElevationOptions) (*ElevationSource, error) 
 		}
 		return nil, fmt.Errorf("ingest: cannot open elevation-map file: %w", err)
 	}
-	s := &ElevationSource{path: path, f: f, opt: o, names: DefaultNames()}
+	s := &ElevationSource{path: path, f: f, opt: o, names: DefaultNames(), part: part}
 	s.names.Foam = o.FoamVariable
 	if err := s.check(); err != nil {
 		f.Close()
@@ -395,6 +403,7 @@ func (s *ElevationSource) check() error {
 	if err != nil {
 		return err
 	}
+	s.unit = unit
 
 	// Horizontal axes, each from a 1-D coordinate variable or a 2-D array.
 	var axes [3][]float64
@@ -558,7 +567,7 @@ func (s *ElevationSource) timeAxis() error {
 	if err != nil {
 		return s.errorf("cannot read coordinate %q: %v", c.name, err)
 	}
-	if len(times) < 2 {
+	if len(times) < 2 && !(s.part && len(times) == 1) {
 		return s.errorf("holds %d frame(s) along %q; at least 2 are needed to follow the surface in time", len(times), n.Time)
 	}
 	units, hasUnits, err := f.AttText(c.name, "units")
@@ -587,7 +596,9 @@ func (s *ElevationSource) timeAxis() error {
 		}
 	}
 	s.meta.Times = times
-	s.dt, s.gaps = findGaps(times, s.opt.GapFactor)
+	if len(times) >= 2 {
+		s.dt, s.gaps = findGaps(times, s.opt.GapFactor)
+	}
 	return nil
 }
 
