@@ -317,7 +317,7 @@ type ElevationSource struct {
 
 	unit   float64 // factor from the elevation units to metres
 	layout layout  // how frames lie in the file
-	rd     reader // block reads with read-ahead
+	rd     reader  // block reads with read-ahead
 	mp     maskParams
 }
 
