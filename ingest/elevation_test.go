@@ -145,7 +145,7 @@ func TestRoundTrip(t *testing.T) {
 	if m.DepthM != 7.5 || !m.HasFoam || m.Title != "round trip" || m.TimeUnits != opt.TimeUnits {
 		t.Errorf("meta depth %v foam %v title %q units %q", m.DepthM, m.HasFoam, m.Title, m.TimeUnits)
 	}
-	if m.Attrs["institution"] != "test bench" || m.Attrs["Conventions"] != "CF-1.8" || !strings.HasPrefix(m.Attrs["history"], "earlier step\n") {
+	if m.Attrs["institution"] != "test bench" || m.Attrs["Conventions"] != "CF-1.8, ACDD-1.3" || !strings.HasPrefix(m.Attrs["history"], "earlier step\n") {
 		t.Errorf("attrs %v", m.Attrs)
 	}
 	if math.Abs(s.FrameInterval()-0.125) > 1e-12 || len(s.Gaps()) != 0 || len(s.Skipped()) != 0 {
@@ -201,8 +201,10 @@ func TestCheckedByNcdumpAndPython(t *testing.T) {
 		`time:units = "seconds since 1970-01-01T00:00:00Z" ;`,
 		`eta:units = "m" ;`,
 		`eta:_FillValue = NaNf ;`,
-		`eta:standard_name = "sea_surface_height_above_mean_sea_level" ;`,
-		`:Conventions = "CF-1.8" ;`,
+		`eta:long_name = "sea-surface elevation above the mean water level of the record, positive up" ;`,
+		`:Conventions = "CF-1.8, ACDD-1.3" ;`,
+		`:grid_spacing_m = 0.25 ;`,
+		`:time_coverage_start = "1970-01-01T00:16:40Z" ;`,
 		`:water_depth_m = 20. ;`,
 	} {
 		if !strings.Contains(hdr, want) {
