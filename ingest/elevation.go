@@ -342,10 +342,10 @@ func openElevation(path string, opt ElevationOptions, part bool) (*ElevationSour
 		case errors.Is(err, fs.ErrNotExist):
 			return nil, fmt.Errorf("ingest: elevation-map file %s does not exist; check the path", path)
 		case errors.Is(err, netcdf.ErrTruncated):
-			return nil, fmt.Errorf("ingest: %w", err)
+			return nil, fmt.Errorf("ingest: %w", trimPrefix{err})
 		case errors.Is(err, netcdf.ErrNotNetCDF):
 			if strings.Contains(err.Error(), "classic-format header") {
-				return nil, fmt.Errorf("ingest: %w", err)
+				return nil, fmt.Errorf("ingest: %w", trimPrefix{err})
 			}
 			return nil, fmt.Errorf("ingest: %s is not a NetCDF file or is damaged (truncated or not NetCDF); give a complete NetCDF elevation-map file", path)
 		}
@@ -365,6 +365,13 @@ func openElevation(path string, opt ElevationOptions, part bool) (*ElevationSour
 	s.badLimit = int(math.Ceil(o.MaxUnreadableFraction * float64(nt)))
 	return s, nil
 }
+
+// trimPrefix shows a netcdf error without its "netcdf: " prefix, keeping
+// it for errors.Is.
+type trimPrefix struct{ err error }
+
+func (e trimPrefix) Error() string { return strings.TrimPrefix(e.err.Error(), "netcdf: ") }
+func (e trimPrefix) Unwrap() error { return e.err }
 
 func (s *ElevationSource) errorf(format string, a ...any) error {
 	return fmt.Errorf("ingest: %s: "+format, append([]any{s.path}, a...)...)

@@ -126,11 +126,22 @@ func CheckClassic(path string) (*ClassicHeader, error) {
 // classicError turns a header error into the sentence Open reports.
 func classicError(path string, err error) error {
 	if errors.Is(err, ErrTruncated) {
-		return fmt.Errorf("netcdf: %s is truncated: %v; copy the complete file again: %w", path, unwrapText(err), ErrTruncated)
+		return &sentenceError{kind: ErrTruncated,
+			msg: fmt.Sprintf("netcdf: %s is truncated: %v; copy the complete file again", path, unwrapText(err))}
 	}
-	return fmt.Errorf("netcdf: %s is not a NetCDF file or is damaged (classic-format header: %v); check that it is NetCDF and was copied completely: %w",
-		path, err, ErrNotNetCDF)
+	return &sentenceError{kind: ErrNotNetCDF,
+		msg: fmt.Sprintf("netcdf: %s is not a NetCDF file or is damaged (classic-format header: %v); check that it is NetCDF and was copied completely", path, err)}
 }
+
+// sentenceError is a one-sentence error that wraps a sentinel without
+// repeating the sentinel's words.
+type sentenceError struct {
+	msg  string
+	kind error
+}
+
+func (e *sentenceError) Error() string { return e.msg }
+func (e *sentenceError) Unwrap() error { return e.kind }
 
 // unwrapText returns the message of a "...: ErrTruncated" error without the
 // sentinel's own text.
@@ -598,10 +609,10 @@ func ParseClassicHeader(r io.ReaderAt, size int64) (*ClassicHeader, error) {
 		if last != nil {
 			what = fmt.Sprintf("variable %q", last.Name)
 			if last.Record {
-				what += fmt.Sprintf(" (%d records of %d bytes from byte %d)", h.NumRecs, h.RecSize, last.Begin)
+				what += fmt.Sprintf(", %d records of %d bytes from byte %d,", h.NumRecs, h.RecSize, last.Begin)
 			}
 		}
-		return nil, fmt.Errorf("the header describes %d bytes of data (%s ends at byte %d) but the file has only %d bytes (%.1f %%): %w",
+		return nil, fmt.Errorf("the header describes %d bytes of data (%s ending at byte %d) but the file has only %d bytes (%.1f %%): %w",
 			h.DataEnd, what, h.DataEnd, size, 100*float64(size)/float64(h.DataEnd), ErrTruncated)
 	}
 	return h, nil
