@@ -1,12 +1,17 @@
 package ingest
 
 import (
+	"errors"
 	"math"
+	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
+
+	"crestspeed/internal/netcdf"
 )
 
 // cfScript opens a written file with xarray (decode_cf, every warning an
@@ -172,4 +177,42 @@ func TestWrittenFileConventions(t *testing.T) {
 		t.Fatal(err)
 	}
 	s.Close()
+}
+
+// TestWriteDiskFull: elevation maps written to a full disk fail with a
+// sentence that names the file and says the disk is full (libnetcdf says
+// "NetCDF: HDF error"), and nothing is left behind.
+func TestWriteDiskFull(t *testing.T) {
+	dir := t.TempDir()
+	if err := syscall.Mount("tmpfs", dir, "tmpfs", 0, "size=512k"); err != nil {
+		t.Skipf("cannot mount a small tmpfs to fill (%v); needs root", err)
+	}
+	defer syscall.Unmount(dir, syscall.MNT_DETACH)
+	path := filepath.Join(dir, "maps.nc")
+	const ny, nx = 64, 64
+	g := Grid{X: make([]float64, nx), Y: make([]float64, ny)}
+	for i := range nx {
+		g.X[i], g.Y[i] = float64(i), float64(i)
+	}
+	w, err := CreateElevation(path, g, WriteOptions{Deflate: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	eta := make([]float32, ny*nx)
+	for i := range eta {
+		eta[i] = float32(i)
+	}
+	for k := 0; k < 100 && err == nil; k++ {
+		err = w.WriteFrame(float64(k), eta, nil)
+	}
+	if err == nil {
+		err = w.Commit()
+	}
+	w.Abort()
+	if err == nil || !errors.Is(err, netcdf.ErrDiskFull) || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "is full") {
+		t.Errorf("%v; want a full-disk sentence naming %s", err, path)
+	}
+	if ents, _ := os.ReadDir(dir); len(ents) != 0 {
+		t.Errorf("left behind: %v", ents)
+	}
 }
