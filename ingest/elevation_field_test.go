@@ -650,3 +650,32 @@ func openErrOpt(t *testing.T, path string, opt ElevationOptions, fragments ...st
 		t.Errorf("error is not one line: %v", err)
 	}
 }
+
+// TestChunkRowOverLimit: a file whose chunk row along time exceeds the
+// read limit is read frame by frame, with the same values, and the source
+// returns a warning that says why it is slow and how to rechunk.
+func TestChunkRowOverLimit(t *testing.T) {
+	dir := fieldFiles(t)
+	path := filepath.Join(dir, "chunked.nc") // chunks of 4 frames
+	s, err := OpenElevation(path, ElevationOptions{ReadBlockLimitMB: 1e-4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	if s.BlockFrames() != 1 || len(s.Warnings()) != 1 || !strings.Contains(s.Warnings()[0], "read_block_limit_mb") || !strings.Contains(s.Warnings()[0], "nccopy -c") {
+		t.Errorf("block %d frames, warnings %q", s.BlockFrames(), s.Warnings())
+	}
+	got, _ := readFrames(t, s)
+	want := readF32(t, filepath.Join(dir, "chunked.want"))
+	if !slices.EqualFunc(got, want, sameF32) {
+		t.Error("values differ when read frame by frame")
+	}
+	d, err := OpenElevation(path, ElevationOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	if (d.BlockFrames()%4 != 0 && d.BlockFrames() != 9) || len(d.Warnings()) != 0 {
+		t.Errorf("default limit: %d frames per block, warnings %q", d.BlockFrames(), d.Warnings())
+	}
+}

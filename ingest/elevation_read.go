@@ -213,7 +213,13 @@ func (s *ElevationSource) plan() error {
 	}
 	nb = min(nb, nt)
 	if float64(buffers*nb*frameBytes) > limit && nb > 1 {
-		nb = max(1, int(limit)/(buffers*frameBytes))
+		capped := max(1, int(limit)/(buffers*frameBytes))
+		if st.Chunks != nil { // whole chunk rows, so that no chunk is read twice
+			if row := st.Chunks[l.pos[axisT]]; capped >= row {
+				capped -= capped % row
+			}
+		}
+		nb = capped
 	}
 	s.rd.kind, s.rd.nb, s.rd.nblocks = s.mp.kind, nb, (nt+nb-1)/nb
 	if l.foam != nil {
