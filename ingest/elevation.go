@@ -729,6 +729,9 @@ func (s *ElevationSource) Gaps() []Gap { return slices.Clone(s.gaps) }
 // (a layout that can only be read slowly, say), one sentence each.
 func (s *ElevationSource) Warnings() []string { return slices.Clone(s.warnings) }
 
+// Paths returns the one file the source reads.
+func (s *ElevationSource) Paths() []string { return []string{s.path} }
+
 // Skipped returns the number of frames not delivered, by reason: all-NaN
 // and unreadable frames met so far by Next (each counted once, however
 // often the record is rewound) and frames missing in time gaps. Reasons

@@ -28,6 +28,12 @@ type ElevationStream interface {
 	Rewind()
 	Next(*Frame) error
 	Close() error
+	// Paths are the files of the record, in time order.
+	Paths() []string
+	// Warnings say where reading is slow or degraded (not fatal).
+	Warnings() []string
+	// MaskedCells counts the cells masked on reading, by reason.
+	MaskedCells() CellCounts
 }
 
 var (

@@ -168,7 +168,11 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 	if n := len(rec.Meta.Times); n > 0 {
 		s.Record.FirstTimeS, s.Record.LastTimeS = rec.Meta.Times[0], rec.Meta.Times[n-1]
 	}
-	s.Frames = summary.FramesSummary{InFile: len(rec.Meta.Times), Read: rec.FramesRead, SkippedReasons: map[string]int{}, IntervalS: rec.FrameInterval}
+	s.Frames = summary.FramesSummary{InFile: len(rec.Meta.Times), Read: rec.FramesRead, SkippedReasons: map[string]int{},
+		MaskedCells: map[string]int64{}, IntervalS: rec.FrameInterval}
+	for k, v := range rec.MaskedCells {
+		s.Frames.MaskedCells[k] = v
+	}
 	for k, v := range rec.Skipped {
 		s.Frames.SkippedReasons[k] = v
 		s.Frames.Skipped += v

@@ -17,6 +17,7 @@ import (
 	"github.com/spf13/viper"
 	"gopkg.in/yaml.v3"
 
+	"crestspeed/ingest"
 	"crestspeed/samples"
 	"crestspeed/speed/analysis"
 )
@@ -56,10 +57,11 @@ type SynthesizeConfig struct {
 // verb's input, the steepness classes of the statistics and whether the
 // report follows.
 type TrackConfig struct {
-	Input            string    `yaml:"input"`
-	SteepnessBounds  []float64 `yaml:"steepness_bounds"`
-	Report           bool      `yaml:"report"`
-	analysis.Options `yaml:",inline"`
+	Input                   string    `yaml:"input"`
+	SteepnessBounds         []float64 `yaml:"steepness_bounds"`
+	Report                  bool      `yaml:"report"`
+	ingest.ElevationOptions `yaml:",inline"`
+	analysis.Options        `yaml:",inline"`
 }
 
 // DemoConfig configures "crestspeed demo".
@@ -74,8 +76,9 @@ func defaultConfig() Config {
 		Synthesize: SynthesizeConfig{Scenario: samples.DefaultScenario(), Deflate: 4},
 		Track: TrackConfig{
 			SteepnessBounds: []float64{0.1, 0.2}, // common practice; see the template
-			Report:          true,
-			Options:         analysis.DefaultOptions(),
+			Report:           true,
+			ElevationOptions: ingest.DefaultElevationOptions(),
+			Options:          analysis.DefaultOptions(),
 		},
 		Report:      defaultReportConfig(),
 		Demo:        DemoConfig{Dir: "demo-output"},

@@ -43,7 +43,8 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 		},
 	}
 	f := cmd.Flags()
-	f.String("input", "", "elevation-map NetCDF file")
+	f.String("input", "", "elevation maps: a NetCDF file, a quoted glob of files in time order, or an index of parts (.json, .txt)")
+	f.String("variable", "", "name of the elevation variable (default: found by CF standard_name, else eta)")
 	f.Float64("depth", 0, "water depth (m); 0 = deep water; default: the file's water_depth_m")
 	f.Float64("direction", 0, "mean direction of wave travel (degrees counter-clockwise from +x); default: estimated")
 	f.Float64("current-speed", 0, "uniform current speed (m/s)")
@@ -53,6 +54,7 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f.Float64("window", 0, "crest-speed fit window (s); 0 = Tp/4")
 	f.Bool("no-report", false, "skip the report after tracking")
 	app.bindFlag(cmd, "input", "track.input")
+	app.bindFlag(cmd, "variable", "track.variable")
 	app.bindFlag(cmd, "depth", "track.depth_m")
 	app.bindFlag(cmd, "direction", "track.direction_deg")
 	app.bindFlag(cmd, "current-speed", "track.current_speed_mps")
@@ -104,14 +106,18 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		return nil, err
 	}
 	started := time.Now()
-	src, err := ingest.OpenElevation(tc.Input, ingest.ElevationOptions{})
+	src, err := ingest.OpenElevations(tc.Input, tc.ElevationOptions)
 	if err != nil {
 		return nil, err
 	}
 	defer src.Close()
-	in, err := report.DescribeFile(tc.Input)
-	if err != nil {
-		return nil, err
+	var inputs []report.FileInfo
+	for _, p := range src.Paths() {
+		in, err := report.DescribeFile(p)
+		if err != nil {
+			return nil, err
+		}
+		inputs = append(inputs, in)
 	}
 	opt := tc.Options
 	opt.Workers = cfg.Workers
@@ -127,7 +133,7 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		con.logf("track: warning: %s", w)
 	}
 	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
-		Version: version, Config: settingsMap(cfg), Inputs: []report.FileInfo{in},
+		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started,
 	})
 	if err != nil {
@@ -161,6 +167,9 @@ func printTrackSummary(con *console, s *report.Summary) {
 	con.logf("sea state: Hm0 %.2f m, Tp %.2f s, mean direction %.1f° (%s), depth %s, peak phase speed %.2f m/s",
 		ss.Hm0, ss.Tp, ss.MeanDirection, ss.DirectionSource, depthText(ss.Depth), ss.PeakPhaseSpeed)
 	con.logf("frames: %d read, %d skipped %v; masked fraction %.3f", s.Frames.Read, s.Frames.Skipped, s.Frames.SkippedReasons, s.Masked)
+	if len(s.Frames.MaskedCells) > 0 {
+		con.logf("cells masked on reading: %v", s.Frames.MaskedCells)
+	}
 	con.logf("crests: %d detections in %d tracks; %d rows with a speed", s.Crests.Detections, s.Crests.Tracks, s.Crests.RowsWithSpeed)
 	for _, ref := range []string{"peak", "local"} {
 		con.logf("c_cr/c_%s by steepness class:", ref)

@@ -90,6 +90,9 @@ type FramesSummary struct {
 	Read           int            `json:"read"`
 	Skipped        int            `json:"skipped"`
 	SkippedReasons map[string]int `json:"skipped_reasons"`
+	// MaskedCells counts cells masked on reading (valid range,
+	// implausible elevations, spikes), by reason.
+	MaskedCells map[string]int64 `json:"masked_cells_by_reason"`
 	Gaps           []GapSummary   `json:"gaps"`
 	IntervalS      float64        `json:"interval_s"`
 }

@@ -67,6 +67,10 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 		return nil, err
 	}
 	rec.Skipped = src.Skipped()
+	if rr, ok := src.(readerReport); ok {
+		rec.MaskedCells = rr.MaskedCells()
+		rec.Warnings = append(rec.Warnings, rr.Warnings()...)
+	}
 	rec.Timings["crest detection and linking"] = time.Since(t0)
 
 	t0 = time.Now()

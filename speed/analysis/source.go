@@ -24,3 +24,10 @@ type Source interface {
 	// Next fills f with the next usable frame, io.EOF after the last.
 	Next(f *ingest.Frame) error
 }
+
+// readerReport is what sources that check their cells also tell: the cells
+// masked by reason, and warnings about reading.
+type readerReport interface {
+	MaskedCells() ingest.CellCounts
+	Warnings() []string
+}
