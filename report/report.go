@@ -53,7 +53,9 @@ func DescribeFile(path string) (FileInfo, error) { return summary.DescribeFile(p
 
 // AllTrackOutputs are every file the tracking stage may write: TrackOutputs
 // and, for a record with a foam mask, the whitecap tables.
-func AllTrackOutputs() []string { return append(append([]string{}, TrackOutputs...), whitecapOutputs...) }
+func AllTrackOutputs() []string {
+	return append(append([]string{}, TrackOutputs...), whitecapOutputs...)
+}
 
 // TrackOutputs are the files the tracking stage writes (with
 // whitecaps.csv, lambda.csv and coverage.csv when the record had a foam

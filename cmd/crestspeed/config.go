@@ -75,7 +75,7 @@ func defaultConfig() Config {
 	return Config{
 		Synthesize: SynthesizeConfig{Scenario: samples.DefaultScenario(), Deflate: 4},
 		Track: TrackConfig{
-			SteepnessBounds: []float64{0.1, 0.2}, // common practice; see the template
+			SteepnessBounds:  []float64{0.1, 0.2}, // common practice; see the template
 			Report:           true,
 			ElevationOptions: ingest.DefaultElevationOptions(),
 			Options:          analysis.DefaultOptions(),

@@ -93,8 +93,8 @@ type FramesSummary struct {
 	// MaskedCells counts cells masked on reading (valid range,
 	// implausible elevations, spikes), by reason.
 	MaskedCells map[string]int64 `json:"masked_cells_by_reason"`
-	Gaps           []GapSummary   `json:"gaps"`
-	IntervalS      float64        `json:"interval_s"`
+	Gaps        []GapSummary     `json:"gaps"`
+	IntervalS   float64          `json:"interval_s"`
 }
 
 // GapSummary is one dropped-frame gap.

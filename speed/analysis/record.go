@@ -12,12 +12,12 @@ import (
 
 // Record is the result of Run.
 type Record struct {
-	Meta           ingest.ElevationMeta
-	FramesRead     int
-	Skipped        ingest.SkipCounts
+	Meta       ingest.ElevationMeta
+	FramesRead int
+	Skipped    ingest.SkipCounts
 	// MaskedCells counts the cells the reader masked (outside the valid
 	// range, implausible, spikes), by reason, when the source counts them.
-	MaskedCells ingest.CellCounts
+	MaskedCells    ingest.CellCounts
 	Gaps           []ingest.Gap
 	FrameInterval  float64
 	SeaState       speed.SeaState
