@@ -243,6 +243,10 @@ type ElevationMeta struct {
 	Title string
 	// Attrs holds the other global text attributes, for provenance.
 	Attrs map[string]string
+	// Georef is the bearing of the grid (and the position of its origin)
+	// from the grid_heading_deg and grid_origin_*_deg global attributes;
+	// nil when the file has no heading.
+	Georef *Georef
 }
 
 // Frame is one elevation map. Next fills it, reusing its slices when they
@@ -449,6 +453,9 @@ func (s *ElevationSource) check() error {
 		if depth > 0 {
 			s.meta.DepthM = depth
 		}
+	}
+	if err := s.readGeoref(); err != nil {
+		return err
 	}
 	attrs, err := f.TextAtts("")
 	if err != nil {
@@ -873,4 +880,37 @@ func grow[T any](s []T, n int) []T {
 		return s[:n]
 	}
 	return make([]T, n)
+}
+
+// readGeoref reads the grid's heading and origin written by this package's
+// writer (grid_heading_deg, grid_origin_latitude_deg,
+// grid_origin_longitude_deg).
+func (s *ElevationSource) readGeoref() error {
+	get := func(name string) (float64, bool, error) {
+		v, ok, err := s.f.AttFloat64("", name)
+		if err != nil {
+			return 0, false, s.errorf("cannot read the global attribute %s: %v", name, err)
+		}
+		return v, ok, nil
+	}
+	h, ok, err := get("grid_heading_deg")
+	if err != nil || !ok {
+		return err
+	}
+	g := &Georef{HeadingDeg: h, LatDeg: math.NaN(), LonDeg: math.NaN()}
+	if lat, ok, err := get("grid_origin_latitude_deg"); err != nil {
+		return err
+	} else if ok {
+		g.LatDeg = lat
+	}
+	if lon, ok, err := get("grid_origin_longitude_deg"); err != nil {
+		return err
+	} else if ok {
+		g.LonDeg = lon
+	}
+	if err := g.check(); err != nil {
+		return s.errorf("the grid georeference attributes are invalid: %v", err)
+	}
+	s.meta.Georef = g
+	return nil
 }

@@ -61,9 +61,14 @@ type Georef struct {
 	// from true north; +y points 90° anticlockwise from +x (z up).
 	HeadingDeg float64
 	// LatDeg and LonDeg are the WGS 84 latitude and longitude of the grid
-	// origin, the point x = 0, y = 0.
+	// origin, the point x = 0, y = 0; both NaN when only the heading is
+	// known (the grid then carries no latitude and longitude).
 	LatDeg, LonDeg float64
 }
+
+// Placed reports whether the georeference has a position, not only a
+// heading.
+func (g *Georef) Placed() bool { return !math.IsNaN(g.LatDeg) && !math.IsNaN(g.LonDeg) }
 
 // check reports why g cannot be written, or nil.
 func (g *Georef) check() error {
@@ -71,6 +76,8 @@ func (g *Georef) check() error {
 	switch {
 	case bad(g.HeadingDeg):
 		return fmt.Errorf("heading %g° is not a finite bearing", g.HeadingDeg)
+	case math.IsNaN(g.LatDeg) && math.IsNaN(g.LonDeg):
+		return nil // heading only
 	case bad(g.LatDeg) || math.Abs(g.LatDeg) >= 89:
 		return fmt.Errorf("latitude %g° is outside (-89°, 89°)", g.LatDeg)
 	case bad(g.LonDeg) || math.Abs(g.LonDeg) > 360:
@@ -251,7 +258,7 @@ func (ew *ElevationWriter) define(grid Grid, level int, opt WriteOptions) error 
 		text(n.Eta, "coverage_content_type", "physicalMeasurement"),
 	}
 	var latlon []float64 // lat then lon, (y, x) order
-	if g := opt.Georef; g != nil {
+	if g := opt.Georef; g != nil && g.Placed() {
 		latlon = make([]float64, 2*grid.Ny()*grid.Nx())
 		c := grid.Ny() * grid.Nx()
 		for iy, y := range grid.Y {
@@ -357,7 +364,10 @@ func (ew *ElevationWriter) define(grid Grid, level int, opt WriteOptions) error 
 		steps = append(steps, func() error { return w.PutAttFloat64("", k, v) })
 	}
 	if g := opt.Georef; g != nil {
-		steps = append(steps, geoAttrs(w, g, grid, latlon)...)
+		steps = append(steps, headingAttrs(w, g)...)
+		if g.Placed() {
+			steps = append(steps, geoAttrs(w, g, grid, latlon)...)
+		}
 	}
 	steps = append(steps,
 		w.EndDef,
@@ -403,7 +413,15 @@ func geoAttrs(w *netcdf.Writer, g *Georef, grid Grid, latlon []float64) []func()
 		func() error { return w.PutAttText("", "geospatial_lon_units", "degrees_east") },
 		func() error { return w.PutAttText("", "geospatial_bounds", "POLYGON (("+strings.Join(pts, ", ")+"))") },
 		func() error { return w.PutAttText("", "geospatial_bounds_crs", "EPSG:4326") },
-		num("grid_heading_deg", g.HeadingDeg),
+		num("grid_origin_latitude_deg", g.LatDeg),
+		num("grid_origin_longitude_deg", g.LonDeg),
+	}
+}
+
+// headingAttrs returns the steps that write the bearing of the grid's axes.
+func headingAttrs(w *netcdf.Writer, g *Georef) []func() error {
+	return []func() error{
+		func() error { return w.PutAttFloat64("", "grid_heading_deg", g.HeadingDeg) },
 		func() error {
 			return w.PutAttText("", "grid_heading_comment", "grid_heading_deg is the bearing of the grid's +x axis in degrees clockwise from true north; +y points 90 degrees anticlockwise from +x")
 		},

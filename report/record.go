@@ -21,6 +21,9 @@ import (
 
 // RunInfo describes the run for provenance.
 type RunInfo struct {
+	// Site places the record; nil when nothing is known of it. When it has
+	// a grid heading, directions are also given as true bearings.
+	Site            *summary.SiteSummary
 	Version         string
 	Config          any
 	Inputs          []FileInfo
@@ -181,6 +184,10 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		s.Frames.Gaps = append(s.Frames.Gaps, summary.GapSummary{AfterTimeS: g.Start, BeforeTimeS: g.End, Missing: g.Missing})
 	}
 	s.SeaState = seaStateOf(rec)
+	s.Site = run.Site
+	if st := run.Site; st != nil && !math.IsNaN(st.GridHeading) {
+		s.SeaState.DirectionToTrue, s.SeaState.DirectionFromTrue = summary.TrueBearings(s.SeaState.MeanDirection, st.GridHeading)
+	}
 	s.Crests = summary.CrestsSummary{
 		Detections: rec.Detections, Tracks: len(rec.Tracks), Rows: len(rec.Rows),
 		RowsWithSpeed: len(rec.Rows) - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
@@ -210,6 +217,7 @@ func seaStateOf(rec *analysis.Record) summary.SeaStateSummary {
 	return summary.SeaStateSummary{
 		Hm0: ss.Hm0, Tp: ss.Tp, TpUncertainty: tpU,
 		MeanDirection: rec.Refs.Theta * 180 / math.Pi, DirectionSource: dirSrc,
+		DirectionToTrue: math.NaN(), DirectionFromTrue: math.NaN(),
 		DirectionSpread: ss.DirectionSpread * 180 / math.Pi,
 		Depth:           rec.Refs.DepthM, DepthSource: depthSrc,
 		PeakPhaseSpeed: rec.Refs.PeakPhaseSpeed, PeakPhaseSpeedUncertainty: cpU, PeakWavelength: rec.Refs.PeakPhaseSpeed * ss.Tp,

@@ -39,6 +39,7 @@ type Config struct {
 	Workers     int               `yaml:"workers"`
 	Quiet       bool              `yaml:"quiet"`
 	Force       bool              `yaml:"force"`
+	Site        SiteConfig        `yaml:"site"`
 	Synthesize  SynthesizeConfig  `yaml:"synthesize"`
 	Track       TrackConfig       `yaml:"track"`
 	Report      ReportConfig      `yaml:"report"`

@@ -258,6 +258,9 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 		}
 		units = "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z")
 	}
+	if err := c.Site.check(); err != nil {
+		return nil, usageError{err}
+	}
 	opt := cfg.surfaceOptions(c.Workers)
 	if err := opt.Validate(); err != nil {
 		return nil, usageError{fmt.Errorf("reconstruct settings: %w", err)}
@@ -290,7 +293,8 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	opt.Progress = update
 	sink := &surface.FileSink{Path: out, PointsPath: pointsPath, Options: ingest.WriteOptions{
 		Deflate: cfg.Deflate, TimeUnits: units, DepthM: cfg.DepthM,
-		Attrs: map[string]string{"rig_file": cfg.Rig},
+		Attrs:    map[string]string{"rig_file": cfg.Rig, "site": c.Site.Name},
+		Platform: c.Site.Platform, Georef: c.Site.georef(),
 	}}
 	res, err := surface.Run(ctx, rig, open, opt, sink)
 	stop()

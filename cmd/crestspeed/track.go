@@ -45,6 +45,7 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f := cmd.Flags()
 	f.String("input", "", "elevation maps: a NetCDF file, a quoted glob of files in time order, or an index of parts (.json, .txt)")
 	f.String("variable", "", "name of the elevation variable (default: found by CF standard_name, else eta)")
+	f.Float64("heading", 0, "bearing of the grid's +x axis, degrees clockwise from true north (site.heading_deg); default: the file's")
 	f.Float64("depth", 0, "water depth (m); 0 = deep water; default: the file's water_depth_m")
 	f.Float64("direction", 0, "mean direction of wave travel (degrees counter-clockwise from +x); default: estimated")
 	f.Float64("current-speed", 0, "uniform current speed (m/s)")
@@ -55,6 +56,7 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f.Bool("no-report", false, "skip the report after tracking")
 	app.bindFlag(cmd, "input", "track.input")
 	app.bindFlag(cmd, "variable", "track.variable")
+	app.bindFlag(cmd, "heading", "site.heading_deg")
 	app.bindFlag(cmd, "depth", "track.depth_m")
 	app.bindFlag(cmd, "direction", "track.direction_deg")
 	app.bindFlag(cmd, "current-speed", "track.current_speed_mps")
@@ -76,6 +78,9 @@ func checkTrack(cfg Config) error {
 		return usageError{fmt.Errorf("give the elevation-map file with --input FILE.nc (track.input)")}
 	case cfg.Out == "":
 		return usageError{fmt.Errorf("give the output folder with --out DIR")}
+	}
+	if err := cfg.Site.check(); err != nil {
+		return usageError{err}
 	}
 	if err := checkSteepnessBounds(tc.SteepnessBounds); err != nil {
 		return usageError{err}
@@ -133,6 +138,7 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		con.logf("track: warning: %s", w)
 	}
 	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
+		Site:    siteSummary(cfg.Site, src.Meta()),
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started,
 	})
@@ -164,8 +170,11 @@ func checkSteepnessBounds(b []float64) error {
 
 func printTrackSummary(con *console, s *report.Summary) {
 	ss := s.SeaState
-	con.logf("sea state: Hm0 %.2f m, Tp %.2f s, mean direction %.1f° (%s), depth %s, peak phase speed %.2f m/s",
+	con.logf("sea state: Hm0 %.2f m, Tp %.2f s, mean direction %.1f° counter-clockwise from the grid's +x (%s), depth %s, peak phase speed %.2f m/s",
 		ss.Hm0, ss.Tp, ss.MeanDirection, ss.DirectionSource, depthText(ss.Depth), ss.PeakPhaseSpeed)
+	if !math.IsNaN(ss.DirectionToTrue) {
+		con.logf("sea state: waves travel toward %.1f° true, coming from %.1f° true", ss.DirectionToTrue, ss.DirectionFromTrue)
+	}
 	con.logf("frames: %d read, %d skipped %v; masked fraction %.3f", s.Frames.Read, s.Frames.Skipped, s.Frames.SkippedReasons, s.Masked)
 	if len(s.Frames.MaskedCells) > 0 {
 		con.logf("cells masked on reading: %v", s.Frames.MaskedCells)

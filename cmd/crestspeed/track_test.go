@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"crestspeed/internal/pyref"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -145,5 +146,46 @@ print(json.dumps({"Files": files}))
 	}
 	if idx := read(index, "index"); !bytes.Equal(single, idx) {
 		t.Errorf("the index of three files gives other crests than the single file")
+	}
+}
+
+// With the grid's heading given, summary.json gives the mean direction as
+// true bearings too: toward = heading − θ0 and from = toward + 180°
+// (θ0 counter-clockwise from +x, bearings clockwise from north), and the
+// site block says where the heading came from.
+func TestTrackTrueBearings(t *testing.T) {
+	dir := t.TempDir()
+	in := synthSmall(t, dir)
+	out := filepath.Join(dir, "tracks")
+	if _, _, err := run(t, "track", "--input", in, "--out", out, "--heading", "200", "--quiet", "--no-report"); err != nil {
+		t.Fatal(err)
+	}
+	var sum struct {
+		SeaState struct {
+			Mean float64 `json:"mean_direction_deg"`
+			To   float64 `json:"direction_to_deg_true"`
+			From float64 `json:"direction_from_deg_true"`
+		} `json:"sea_state"`
+		Site struct {
+			Heading float64 `json:"grid_heading_deg"`
+			Source  string  `json:"georeference_source"`
+			Name    string  `json:"name"`
+		} `json:"site"`
+	}
+	b, _ := os.ReadFile(filepath.Join(out, "summary.json"))
+	if err := json.Unmarshal(b, &sum); err != nil {
+		t.Fatal(err)
+	}
+	ss := sum.SeaState
+	want := math.Mod(200-ss.Mean+720, 360)
+	if math.Abs(ss.To-want) > 1e-9 || math.Abs(ss.From-math.Mod(want+180, 360)) > 1e-9 {
+		t.Errorf("θ0 %.3f° with heading 200°: toward %.3f°, from %.3f°; want %.3f°, %.3f°", ss.Mean, ss.To, ss.From, want, math.Mod(want+180, 360))
+	}
+	// the synthetic sea travels toward 20° in the grid frame (samples default)
+	if math.Abs(ss.To-180) > 5 {
+		t.Errorf("toward %.1f° true, want about 180° for a sea along 20° on a grid heading 200°", ss.To)
+	}
+	if sum.Site.Heading != 200 || !strings.Contains(sum.Site.Source, "configuration") || sum.Site.Name == "" {
+		t.Errorf("site block %+v", sum.Site)
 	}
 }

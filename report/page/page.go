@@ -233,17 +233,28 @@ func seaRows(ss summary.SeaStateSummary) []htmlKV {
 		}
 		return s
 	}
-	return []htmlKV{
+	direction := []htmlKV{{"Mean direction of travel θ<sub>0</sub>, grid frame",
+		fmt.Sprintf("%.1f° counter-clockwise from the grid's +x axis, the direction the waves travel toward (%s)", ss.MeanDirection, ss.DirectionSource)}}
+	if !math.IsNaN(ss.DirectionToTrue) {
+		direction = append(direction,
+			htmlKV{"Waves travel toward (true bearing)", fmt.Sprintf("%.1f° clockwise from true north (oceanographic convention)", ss.DirectionToTrue)},
+			htmlKV{"Waves come from (true bearing)", fmt.Sprintf("%.1f° clockwise from true north (nautical and meteorological convention)", ss.DirectionFromTrue)})
+	} else {
+		direction = append(direction, htmlKV{"True bearings", "not given: the grid's heading is unknown (set site.heading_deg)"})
+	}
+	rows := []htmlKV{
 		{"Significant wave height H<sub>m0</sub> = 4√m<sub>0</sub>", fmt.Sprintf("%.2f m", ss.Hm0)},
 		{"Peak period T<sub>p</sub>", pm(ss.Tp, ss.TpUncertainty, "%.2f") + fmt.Sprintf(" s (f<sub>p</sub> = %.3f Hz)", 1/ss.Tp)},
 		{"Peak phase speed c<sub>p</sub> (linear dispersion)", pm(ss.PeakPhaseSpeed, ss.PeakPhaseSpeedUncertainty, "%.2f") + " m/s"},
 		{"Peak wavelength c<sub>p</sub> T<sub>p</sub>", fmt.Sprintf("%.1f m", ss.PeakWavelength)},
-		{"Mean direction of travel θ<sub>0</sub>", fmt.Sprintf("%.1f° (%s)", ss.MeanDirection, ss.DirectionSource)},
-		{"Directional spread", fmt.Sprintf("%.1f°", ss.DirectionSpread)},
-		{"Water depth", fmt.Sprintf("%s (%s)", depth, ss.DepthSource)},
-		{"Uniform current (x, y)", fmt.Sprintf("%.2f, %.2f m/s", ss.CurrentU, ss.CurrentV)},
-		{"Shear (vorticity dU/dz)", fmt.Sprintf("%.3g 1/s", ss.Vorticity)},
 	}
+	rows = append(rows, direction...)
+	return append(rows,
+		htmlKV{"Directional spread", fmt.Sprintf("%.1f°", ss.DirectionSpread)},
+		htmlKV{"Water depth", fmt.Sprintf("%s (%s)", depth, ss.DepthSource)},
+		htmlKV{"Uniform current (x, y)", fmt.Sprintf("%.2f, %.2f m/s", ss.CurrentU, ss.CurrentV)},
+		htmlKV{"Shear (vorticity dU/dz)", fmt.Sprintf("%.3g 1/s", ss.Vorticity)},
+	)
 }
 
 // qualityRows are the rows of the counts and quality table.

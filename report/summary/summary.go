@@ -58,6 +58,7 @@ type Summary struct {
 	Config   any                         `json:"config"`
 	Inputs   []FileInfo                  `json:"inputs"`
 	Record   RecordSummary               `json:"record"`
+	Site     *SiteSummary                `json:"site,omitempty"`
 	Frames   FramesSummary               `json:"frames"`
 	SeaState SeaStateSummary             `json:"sea_state"`
 	Masked   float64                     `json:"masked_fraction"`
@@ -113,7 +114,15 @@ type SeaStateSummary struct {
 	// a known c_p uncertainty widens the intervals of c_cr/c_p and
 	// c_br/c_p.
 	TpUncertainty             float64 `json:"tp_uncertainty_s"`
-	MeanDirection             float64 `json:"mean_direction_deg"`
+	// MeanDirection is the direction of travel θ0 in the grid's frame:
+	// degrees counter-clockwise from the grid's +x axis.
+	MeanDirection float64 `json:"mean_direction_deg"`
+	// DirectionToTrue and DirectionFromTrue are θ0 as true bearings,
+	// degrees clockwise from true north, of where the waves travel to
+	// (oceanographic convention) and come from (nautical and meteorological
+	// convention); NaN (null) when the grid's heading is unknown.
+	DirectionToTrue   float64 `json:"direction_to_deg_true"`
+	DirectionFromTrue float64 `json:"direction_from_deg_true"`
 	DirectionSource           string  `json:"direction_source"`
 	DirectionSpread           float64 `json:"direction_spread_deg"`
 	Depth                     float64 `json:"depth_m"`
@@ -308,4 +317,30 @@ func (s *Summary) SteepnessBounds() ([]float64, error) {
 		return out, nil
 	}
 	return nil, errors.New("the summary does not record the steepness class boundaries (method.steepness_bounds)")
+}
+
+// SiteSummary places the record: the site and platform names and the
+// grid's georeference (NaN, written null, where unknown).
+type SiteSummary struct {
+	Name     string `json:"name,omitempty"`
+	Platform string `json:"platform,omitempty"`
+	// GridHeading is the bearing of the grid's +x axis, degrees clockwise
+	// from true north; Source says where it came from.
+	GridHeading float64 `json:"grid_heading_deg"`
+	Source      string  `json:"georeference_source"`
+	// Latitude and Longitude (WGS 84) of the grid's origin.
+	Latitude  float64 `json:"latitude_deg"`
+	Longitude float64 `json:"longitude_deg"`
+}
+
+// TrueBearings turns a direction in the grid frame (degrees
+// counter-clockwise from +x) into true bearings (degrees clockwise from
+// north, in [0, 360)) of where the waves go to and come from, for a grid
+// whose +x axis has the bearing heading.
+func TrueBearings(gridDeg, heading float64) (to, from float64) {
+	to = math.Mod(heading-gridDeg, 360)
+	if to < 0 {
+		to += 360
+	}
+	return to, math.Mod(to+180, 360)
 }
