@@ -611,7 +611,7 @@ func TestPairsErrors(t *testing.T) {
 		{"mixed names", PairSpec{Dir: filepath.Join(dir, "mix")}, "mix conventions"},
 		{"no pair", PairSpec{Dir: filepath.Join(dir, "lonely"), FPS: 10}, "no usable image pair"},
 		{"bad time", PairSpec{TimestampsFile: bad}, "line 2"},
-		{"bad header", PairSpec{TimestampsFile: nohead}, `no "time_s" column`},
+		{"bad header", PairSpec{TimestampsFile: nohead}, `neither a "time_s" nor a "utc" column`},
 		{"missing csv", PairSpec{TimestampsFile: filepath.Join(dir, "none.csv")}, "does not exist"},
 		{"missing dir", PairSpec{Dir: filepath.Join(dir, "none")}, "does not exist"},
 		{"nothing", PairSpec{}, "no stereo images"},
