@@ -60,25 +60,25 @@ func formatOffset(d time.Duration) string {
 // Limits of the EXIF reader: it reads no more than these, so that a damaged
 // or hostile file costs little.
 const (
-	exifMaxSegments = 64       // JPEG marker segments examined before giving up
-	exifMaxHeader   = 1 << 20  // bytes of JPEG header examined
-	exifMaxEntries  = 4096     // entries of one IFD
-	exifMaxASCII    = 256      // bytes of an ASCII value read
-	exifMaxFile     = 1 << 40  // largest TIFF offset believed
-	exifTagExifIFD  = 0x8769   // Exif IFD pointer, in IFD0
-	exifTagDTO      = 0x9003   // DateTimeOriginal
-	exifTagSubSec   = 0x9291   // SubSecTimeOriginal
-	exifTagOffset   = 0x9011   // OffsetTimeOriginal
-	tiffTypeASCII   = 2        // TIFF field type ASCII
-	tiffTypeLong    = 4        // LONG
-	tiffTypeIFD     = 13       // IFD (Exif and TIFF/EP)
-	jpegAPP1        = 0xE1     // JPEG application segment 1, holds EXIF
-	jpegSOS         = 0xDA     // start of scan: the header ends
-	jpegEOI         = 0xD9     // end of image
-	jpegSOI         = 0xD8     // start of image
-	jpegTEM         = 0x01     // marker without a length
-	jpegRST0        = 0xD0     // RST0–RST7 have no length
-	jpegRST7        = 0xD7     //
+	exifMaxSegments = 64      // JPEG marker segments examined before giving up
+	exifMaxHeader   = 1 << 20 // bytes of JPEG header examined
+	exifMaxEntries  = 4096    // entries of one IFD
+	exifMaxASCII    = 256     // bytes of an ASCII value read
+	exifMaxFile     = 1 << 40 // largest TIFF offset believed
+	exifTagExifIFD  = 0x8769  // Exif IFD pointer, in IFD0
+	exifTagDTO      = 0x9003  // DateTimeOriginal
+	exifTagSubSec   = 0x9291  // SubSecTimeOriginal
+	exifTagOffset   = 0x9011  // OffsetTimeOriginal
+	tiffTypeASCII   = 2       // TIFF field type ASCII
+	tiffTypeLong    = 4       // LONG
+	tiffTypeIFD     = 13      // IFD (Exif and TIFF/EP)
+	jpegAPP1        = 0xE1    // JPEG application segment 1, holds EXIF
+	jpegSOS         = 0xDA    // start of scan: the header ends
+	jpegEOI         = 0xD9    // end of image
+	jpegSOI         = 0xD8    // start of image
+	jpegTEM         = 0x01    // marker without a length
+	jpegRST0        = 0xD0    // RST0–RST7 have no length
+	jpegRST7        = 0xD7    //
 	exifPrefix      = "Exif\x00\x00"
 )
 
