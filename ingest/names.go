@@ -128,7 +128,7 @@ func chooseNameRule(files []namedFile, fps float64, what string) (nameRule, erro
 	kind, kindFile := files[0].p.kind, files[0].path
 	for _, f := range files[1:] {
 		if f.p.kind != kind {
-			return nameRule{}, fmt.Errorf("ingest: %s names mix conventions: %s carries %s but %s carries %s; name all files of a record the same way or give a timestamps file", what, kindFile, kind, f.path, f.p.kind)
+			return nameRule{}, fmt.Errorf("ingest: %s names mix conventions: %s carries %s but %s carries %s; name all files of a record the same way or give a timestamps file", what, oneLineText(kindFile), kind, oneLineText(f.path), f.p.kind)
 		}
 	}
 	switch {
@@ -144,7 +144,7 @@ func chooseNameRule(files []namedFile, fps float64, what string) (nameRule, erro
 	}
 	for _, f := range files {
 		if f.p.digits < millisDigits {
-			return nameRule{}, fmt.Errorf("ingest: %s names such as %s carry a frame number but no time, and there is no timestamps file; give the frame rate (FPS) or a timestamps file", what, f.path)
+			return nameRule{}, fmt.Errorf("ingest: %s names such as %s carry a frame number but no time, and there is no timestamps file; give the frame rate (FPS) or a timestamps file", what, oneLineText(f.path))
 		}
 	}
 	vals := make([]float64, len(files))
@@ -165,7 +165,7 @@ func chooseNameRule(files []namedFile, fps float64, what string) (nameRule, erro
 	slices.Sort(steps)
 	step := steps[(len(steps)-1)/2]
 	if step < minMillisStep {
-		return nameRule{}, fmt.Errorf("ingest: %s names such as %s carry numbers of %d or more digits that step by %g, like a frame counter, so they cannot be told from milliseconds (that would be %g Hz); give the frame rate (FPS) or a timestamps file", what, files[0].path, millisDigits, step, 1000/step)
+		return nameRule{}, fmt.Errorf("ingest: %s names such as %s carry numbers of %d or more digits that step by %g, like a frame counter, so they cannot be told from milliseconds (that would be %g Hz); give the frame rate (FPS) or a timestamps file", what, oneLineText(files[0].path), millisDigits, step, 1000/step)
 	}
 	rule.note = fmt.Sprintf("times read from the file names: the last number of each name (%d or more digits, no frame rate given) taken as milliseconds (time = number / 1000 s), stepping by %g ms (%.4g Hz)", millisDigits, step, 1000/step)
 	return rule, nil

@@ -35,7 +35,7 @@ func (it SkippedItem) String() string {
 	files := make([]string, 0, len(it.Files))
 	for _, f := range it.Files {
 		if f != "" {
-			files = append(files, f)
+			files = append(files, oneLineText(f))
 		}
 	}
 	b.WriteString(strings.Join(files, " + "))
@@ -47,7 +47,7 @@ func (it SkippedItem) String() string {
 	}
 	b.WriteString(it.Reason)
 	if it.Detail != "" {
-		b.WriteString(" (" + it.Detail + ")")
+		b.WriteString(" (" + oneLineText(it.Detail) + ")")
 	}
 	return b.String()
 }

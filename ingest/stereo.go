@@ -467,7 +467,7 @@ func (s *PairSource) pairFromNames(left, right []string, fps, maxSpan float64) e
 		}
 	}
 	if len(all) == 0 {
-		return fmt.Errorf("ingest: no image name carries a number (for example %s); give a timestamps file, or names with a time or frame number", left[0])
+		return fmt.Errorf("ingest: no image name carries a number (for example %s); give a timestamps file, or names with a time or frame number", oneLineText(left[0]))
 	}
 	rule, err := chooseNameRule(all, fps, "image")
 	if err != nil {
@@ -609,7 +609,9 @@ func (s *PairSource) pairFromTable(tab *tsTable, left, right []string, maxSpan f
 	selecting := left != nil
 	inL, inR := setOf(left), setOf(right)
 	listed := map[string]bool{}
-	selected := func(l, r string) bool { return !selecting || inL[l] || inR[r] }
+	// A row is selected when either of its files is among the matches;
+	// one that names no file at all is always examined (and counted).
+	selected := func(l, r string) bool { return !selecting || inL[l] || inR[r] || (l == "" && r == "") }
 	for _, it := range tab.skips {
 		l, r := it.Files[1], it.Files[2]
 		listed[l], listed[r] = true, true

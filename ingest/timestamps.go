@@ -163,6 +163,7 @@ func parseTimestamps(r io.Reader, name, base string, fileCols []string) (*tsTabl
 	if len(headText) > 200 {
 		headText = headText[:200] + "..."
 	}
+	headText = oneLineText(headText)
 	for _, c := range append([]string{colFrame}, fileCols...) {
 		if col[c] < 0 {
 			return nil, fmt.Errorf("ingest: timestamps file %s has no %q column in its header (%s); the header must name %s", name, c, headText, hint)
@@ -295,6 +296,15 @@ func fieldError(pe *csv.ParseError, nHead int) string {
 func clip(s string) string {
 	if len(s) > 40 {
 		return s[:40] + "..."
+	}
+	return s
+}
+
+// oneLineText quotes s when it holds line breaks or other control
+// characters, so that a message stays one line.
+func oneLineText(s string) string {
+	if strings.IndexFunc(s, func(r rune) bool { return r < ' ' || r == 0x7f }) >= 0 {
+		return strconv.Quote(s)
 	}
 	return s
 }
