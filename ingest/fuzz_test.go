@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bytes"
+	"io"
 	"math"
 	"strings"
 	"testing"
@@ -140,6 +141,82 @@ func FuzzCaptureTime(f *testing.F) {
 			}
 			if y := c.UTC.Year(); y < -1 || y > 10000 {
 				t.Fatalf("capture time %v", c.UTC)
+			}
+		}
+	})
+}
+
+// FuzzPLY reads any bytes as a PLY file: no panic, errors are one
+// sentence, the points are finite, and no more points come out than the
+// header announces.
+func FuzzPLY(f *testing.F) {
+	f.Fuzz(func(t *testing.T, data []byte) {
+		p, err := NewPLYReader(bytes.NewReader(data), "f.ply")
+		if err != nil {
+			oneSentence(t, err.Error())
+			return
+		}
+		buf := make([]Point, 7)
+		total := int64(0)
+		for {
+			n, err := p.Read(buf)
+			total += int64(n)
+			for _, q := range buf[:n] {
+				if !finite(q.X) || !finite(q.Y) || !finite(q.Z) {
+					t.Fatalf("point %v", q)
+				}
+			}
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				oneSentence(t, err.Error())
+				break
+			}
+			if n == 0 {
+				t.Fatal("Read returned no points and no error")
+			}
+		}
+		if total+int64(p.Dropped()) > p.Count() {
+			t.Fatalf("%d points and %d dropped of %d announced", total, p.Dropped(), p.Count())
+		}
+	})
+}
+
+// FuzzXYZ reads any bytes as a point text file, with the delimiter found
+// and with each one set: no panic, errors are one sentence naming a line,
+// the points are finite.
+func FuzzXYZ(f *testing.F) {
+	f.Fuzz(func(t *testing.T, data []byte, delim uint8) {
+		opt := XYZOptions{Delimiter: []string{"", ",", ";", "tab", "space"}[int(delim)%5]}
+		if delim >= 128 {
+			opt.Indexes = []int{int(delim) % 3, 2, int(delim) % 5}
+		}
+		x, err := NewXYZReader(bytes.NewReader(data), "f.xyz", opt)
+		if err != nil {
+			oneSentence(t, err.Error())
+			return
+		}
+		buf := make([]Point, 5)
+		for {
+			n, err := x.Read(buf)
+			for _, q := range buf[:n] {
+				if !finite(q.X) || !finite(q.Y) || !finite(q.Z) {
+					t.Fatalf("point %v", q)
+				}
+			}
+			if err == io.EOF {
+				return
+			}
+			if err != nil {
+				oneSentence(t, err.Error())
+				if !strings.Contains(err.Error(), " line ") {
+					t.Fatalf("error %q names no line", err)
+				}
+				return
+			}
+			if n == 0 {
+				t.Fatal("Read returned no points and no error")
 			}
 		}
 	})

@@ -526,8 +526,15 @@ func (s *PairSource) skipSide(i int, path, reason, detail string) {
 // inFileOrder, the items being in frame order) out of time order, keeping
 // the longest increasing run; then sorts the rest by time.
 func (s *PairSource) screen(maxSpan float64, inFileOrder bool) {
+	s.items = screenItems(s.items, maxSpan, inFileOrder, &s.log, func(it pairItem) []string { return []string{it.left, it.right} })
+}
+
+// screenItems is [PairSource.screen] on a list of items; files gives the
+// files of an item for the list of skipped items.
+func screenItems(items []pairItem, maxSpan float64, inFileOrder bool, log *skipLog, files func(pairItem) []string) []pairItem {
+	s := struct{ items []pairItem }{items}
 	skip := func(it pairItem, reason string) {
-		s.log.add(SkippedItem{Files: []string{it.left, it.right}, Line: it.line, Reason: reason, Detail: fmt.Sprintf("time %g s", it.time)})
+		log.add(SkippedItem{Files: files(it), Line: it.line, Reason: reason, Detail: fmt.Sprintf("time %g s", it.time)})
 	}
 	kept := s.items[:0]
 	for _, it := range s.items {
@@ -564,8 +571,7 @@ func (s *PairSource) screen(maxSpan float64, inFileOrder bool) {
 			}
 			kept = append(kept, it)
 		}
-		s.items = kept
-		return
+		return kept
 	}
 	// Sorted by time already: distinct numbers give distinct times
 	// except through rounding of huge values; keep the order strict.
@@ -577,7 +583,7 @@ func (s *PairSource) screen(maxSpan float64, inFileOrder bool) {
 		}
 		kept = append(kept, it)
 	}
-	s.items = kept
+	return kept
 }
 
 func cmpFloat(a, b float64) int {
