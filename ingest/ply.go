@@ -77,7 +77,7 @@ type PLYReader struct {
 	format  string // "ascii", "binary_little_endian", "binary_big_endian"
 	order   binary.ByteOrder
 	elems   []plyElement
-	vert    int   // index of the vertex element
+	vert    int    // index of the vertex element
 	xyz     [3]int // property indexes of x, y, z in the vertex element
 	left    int64  // vertices still to read
 	offset  int64  // bytes read so far (binary), for messages
