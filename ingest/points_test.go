@@ -171,7 +171,7 @@ func TestPointReadersNumpy(t *testing.T) {
 }
 
 // writeText writes text to dir/name and returns the path.
-func writeText(t *testing.T, dir, name, text string) string {
+func writeText(t testing.TB, dir, name, text string) string {
 	t.Helper()
 	p := filepath.Join(dir, name)
 	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
@@ -356,5 +356,46 @@ func TestPLYEmptyElementBeforeVertices(t *testing.T) {
 	n, err := p.Read(buf)
 	if n != 1 || err != nil || buf[0] != (Point{1, 2, 3}) {
 		t.Errorf("got %d points %v, %v; want (1, 2, 3)", n, buf[:n], err)
+	}
+}
+
+// BenchmarkPointFiles reads a PLY (binary, double x y z and a uchar) and
+// an XYZ text file of 200 000 points each through a PointSource.
+func BenchmarkPointFiles(b *testing.B) {
+	const n = 200_000
+	dir := b.TempDir()
+	var ply strings.Builder
+	fmt.Fprintf(&ply, "ply\nformat binary_little_endian 1.0\nelement vertex %d\nproperty double x\nproperty double y\nproperty double z\nproperty uchar q\nend_header\n", n)
+	rec := make([]byte, 25)
+	var txt strings.Builder
+	txt.WriteString("# x y z\n")
+	for i := 0; i < n; i++ {
+		x, y, z := float64(i)*0.01, float64(i%500)*0.02, math.Sin(float64(i))
+		for k, v := range []float64{x, y, z} {
+			u := math.Float64bits(v)
+			for j := 0; j < 8; j++ {
+				rec[8*k+j] = byte(u >> (8 * j))
+			}
+		}
+		ply.Write(rec)
+		fmt.Fprintf(&txt, "%.18e %.18e %.18e\n", x, y, z)
+	}
+	for _, c := range []struct{ name, data string }{{"f_000000000.ply", ply.String()}, {"f_000000000.xyz", txt.String()}} {
+		writeText(b, dir, c.name, c.data)
+		b.Run(filepath.Ext(c.name)[1:], func(b *testing.B) {
+			src, err := OpenPoints(PointSpec{Glob: filepath.Join(dir, c.name)})
+			if err != nil {
+				b.Fatal(err)
+			}
+			var f PointFrame
+			b.SetBytes(int64(len(c.data)))
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				src.Rewind()
+				if err := src.Next(&f); err != nil || len(f.Points) != n {
+					b.Fatalf("%v, %d points", err, len(f.Points))
+				}
+			}
+		})
 	}
 }

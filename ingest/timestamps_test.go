@@ -65,8 +65,11 @@ func skipNamed(t *testing.T, list SkipList, line int, reason string) {
 func TestTimestampsStrayQuote(t *testing.T) {
 	checkMats(t)
 	p := tsRecord(t, 5, "frame,time_s,left,right", func(k int, l, r string) string {
-		if k == 2 {
+		switch k {
+		case 2:
 			return fmt.Sprintf(`%d,0.%d,img/l_"%d.png,%s`, k, k, k, r) // bare quote
+		case 3:
+			return fmt.Sprintf(`%d"`, k) // bare quote in the first field: the panic of old
 		}
 		return fmt.Sprintf("%d,0.%d,%s,%s", k, k, l, r)
 	})
@@ -74,16 +77,17 @@ func TestTimestampsStrayQuote(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// Check: the times typed in the rows other than the bad one.
-	wantTimes(t, "stray quote", src.Times(), []float64{0, 0.1, 0.3, 0.4})
-	if got, want := src.Skipped(), (SkipCounts{SkipBadRow: 1}); !maps.Equal(got, want) {
+	// Check: the times typed in the rows other than the bad ones.
+	wantTimes(t, "stray quote", src.Times(), []float64{0, 0.1, 0.4})
+	if got, want := src.Skipped(), (SkipCounts{SkipBadRow: 2}); !maps.Equal(got, want) {
 		t.Errorf("Skipped = %v, want %v", got, want)
 	}
 	skipNamed(t, src.SkippedFiles(), 4, SkipBadRow) // header is line 1, frame 2 line 4
+	skipNamed(t, src.SkippedFiles(), 5, SkipBadRow)
 
 	open := tsRecord(t, 4, "frame,time_s,left,right", func(k int, l, r string) string {
 		if k == 1 {
-			return fmt.Sprintf(`%d,"0.%d,%s,%s`, k, k, l, r) // quote never closed
+			return fmt.Sprintf(`"%d,0.%d,%s,%s`, k, k, l, r) // quote never closed
 		}
 		return fmt.Sprintf("%d,0.%d,%s,%s", k, k, l, r)
 	})

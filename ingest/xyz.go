@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bufio"
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
@@ -46,6 +47,7 @@ type XYZReader struct {
 	havePen bool
 	err     error
 	fields  []string
+	lineBuf []byte
 }
 
 func (x *XYZReader) fail(format string, args ...any) error {
@@ -166,7 +168,8 @@ func (x *XYZReader) splitWith(l, delim string) []string {
 			}
 			i := strings.IndexAny(l, " \t")
 			if i < 0 {
-				return append(x.fields, l)
+				x.fields = append(x.fields, l)
+				return x.fields
 			}
 			x.fields = append(x.fields, l[:i])
 			l = l[i:]
@@ -217,12 +220,22 @@ func namesAll(f []string, cols []string) bool {
 	return true
 }
 
-// readLine reads one line without its end, bounded in length.
+// readLine reads one line without its end, bounded in length. The line
+// buffer is reused; the string returned is the only allocation.
 func (x *XYZReader) readLine() (string, error) {
-	var b []byte
+	b := x.lineBuf[:0]
 	for {
 		chunk, err := x.r.ReadSlice('\n')
+		if err == nil && len(b) == 0 {
+			// The whole line in one piece: no copy before the string.
+			x.line++
+			if len(chunk) > maxXYZLine {
+				return "", x.fail("the line is longer than %d bytes; this is not a point text file", maxXYZLine)
+			}
+			return string(bytes.TrimRight(chunk, "\r\n")), nil
+		}
 		b = append(b, chunk...)
+		x.lineBuf = b[:0]
 		if len(b) > maxXYZLine {
 			x.line++
 			return "", x.fail("the line is longer than %d bytes; this is not a point text file", maxXYZLine)
@@ -230,7 +243,7 @@ func (x *XYZReader) readLine() (string, error) {
 		switch {
 		case err == nil:
 			x.line++
-			return strings.TrimRight(string(b), "\r\n"), nil
+			return string(bytes.TrimRight(b, "\r\n")), nil
 		case errors.Is(err, bufio.ErrBufferFull):
 			continue
 		case err == io.EOF:
@@ -238,7 +251,7 @@ func (x *XYZReader) readLine() (string, error) {
 				return "", io.EOF
 			}
 			x.line++
-			return strings.TrimRight(string(b), "\r\n"), nil
+			return string(bytes.TrimRight(b, "\r\n")), nil
 		default:
 			x.line++
 			return "", x.fail("cannot be read (%v)", err)
