@@ -87,4 +87,26 @@
 // partner, an unreadable image, a wrong size, a time going backwards or
 // repeated) are skipped and counted by reason in Skipped, like the frames of
 // elevation maps.
+//
+// # Times, absolute time and skipped files
+//
+// Every source of stereo pairs or point clouds says in one sentence how it
+// timed its frames (TimeRule: which column of which timestamps file, or how
+// the file names were read), gives the absolute instant of time 0 when the
+// record has one (Origin: the start_utc setting, the utc column of the
+// timestamps file, or the EXIF DateTimeOriginal of the images, see
+// [ReadCaptureTime]), and names the first [MaxNamedSkips] items it skipped
+// with their reasons ([SkipList], from SkippedFiles). A bad row of a
+// timestamps file costs that row only: rows that cannot be read, times that
+// are not finite, farther than the longest plausible record from the median
+// time, or out of order are skipped, counted and named by line.
+//
+// # Point clouds
+//
+// [OpenPoints] reads a record of point clouds, one file per frame (PLY,
+// ASCII or binary, through [PLYReader]; text columns through
+// [XYZReader]), timed like image pairs: by a timestamps file
+// (frame,time_s,file), by the file names, or by a frame rate. Each call to
+// Next reads one file into the caller's reused buffer; a malformed file is
+// skipped and named with the line or byte offset of the fault.
 package ingest
