@@ -53,6 +53,10 @@ type WriteOptions struct {
 	// WithFoam adds the foam(time, y, x) mask variable; WriteFrame then
 	// needs a mask for every frame.
 	WithFoam bool
+	// WithPointCounts adds point_count(time, y, x), the number of points
+	// averaged into each cell's elevation; write it with WriteCounts after
+	// each frame.
+	WithPointCounts bool
 }
 
 // Georef places an elevation-map grid on the Earth.
@@ -132,6 +136,7 @@ type ElevationWriter struct {
 	names    Names
 	ny, nx   int
 	withFoam bool
+	counts   bool    // the point_count variable is defined
 	n        int     // frames written
 	first    float64 // time of the first frame
 	last     float64 // time of the last frame
@@ -141,6 +146,30 @@ type ElevationWriter struct {
 	tbuf           [1]float64
 	start1, count1 []int
 	start3, count3 []int
+}
+
+// PointCountVariable is the name of the points-per-cell variable written
+// WithPointCounts.
+const PointCountVariable = "point_count"
+
+// WriteCounts writes the points per cell of the frame last written by
+// WriteFrame (the writer must be created WithPointCounts).
+func (ew *ElevationWriter) WriteCounts(counts []int32) error {
+	switch {
+	case ew.w == nil:
+		return fmt.Errorf("ingest: %s: writer already committed or aborted", ew.path)
+	case !ew.counts:
+		return fmt.Errorf("ingest: %s: the writer was created without WithPointCounts", ew.path)
+	case ew.n == 0:
+		return fmt.Errorf("ingest: %s: point counts written before any frame", ew.path)
+	case len(counts) != ew.ny*ew.nx:
+		return fmt.Errorf("ingest: %s: %d point counts for a grid of %d cells", ew.path, len(counts), ew.ny*ew.nx)
+	}
+	ew.start3[0] = ew.n - 1
+	if err := ew.w.PutInt32Slab(PointCountVariable, ew.start3, ew.count3, counts); err != nil {
+		return fmt.Errorf("ingest: %w", err)
+	}
+	return nil
 }
 
 // CreateElevation starts an elevation-map file at path on the given grid.
@@ -190,7 +219,7 @@ func CreateElevation(path string, grid Grid, opt WriteOptions) (*ElevationWriter
 	}
 	ew := &ElevationWriter{
 		path: path, w: nw, names: names, units: units,
-		ny: grid.Ny(), nx: grid.Nx(), withFoam: opt.WithFoam,
+		ny: grid.Ny(), nx: grid.Nx(), withFoam: opt.WithFoam, counts: opt.WithPointCounts,
 		start1: []int{0}, count1: []int{1},
 		start3: []int{0, 0, 0}, count3: []int{1, grid.Ny(), grid.Nx()},
 	}
@@ -287,6 +316,17 @@ func (ew *ElevationWriter) define(grid Grid, level int, opt WriteOptions) error 
 			text("crs", "long_name", "WGS 84 datum of lat and lon"),
 			text(n.Eta, "coordinates", "lat lon"),
 			text(n.Eta, "grid_mapping", "crs: lat lon"),
+		)
+	}
+	if ew.counts {
+		steps = append(steps,
+			func() error { return w.DefVar(PointCountVariable, netcdf.Int32, ds) },
+			func() error { return w.SetChunks(PointCountVariable, []int{1, grid.Ny(), grid.Nx()}) },
+			func() error { return w.SetDeflate(PointCountVariable, level, true) },
+			text(PointCountVariable, "long_name", "number of points averaged into the cell's elevation"),
+			text(PointCountVariable, "units", "1"),
+			text(PointCountVariable, "coverage_content_type", "qualityInformation"),
+			text(n.Eta, "ancillary_variables", PointCountVariable),
 		)
 	}
 	if ew.withFoam {

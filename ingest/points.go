@@ -327,6 +327,11 @@ func (s *PointSource) TimeRule() string { return s.rule }
 // is false when the record gives none.
 func (s *PointSource) Origin() (o TimeOrigin, ok bool) { return s.origin, s.hasOrigin }
 
+// Seek makes the next call to Next start at file i (0 ≤ i < Len). A source
+// that seeks ahead counts the skips of the files it passes over only when
+// it reads them; use a separate source for sampling.
+func (s *PointSource) Seek(i int) { s.next = min(max(i, 0), len(s.items)) }
+
 // Rewind makes the next call to Next return the first file again. Files
 // skipped by Next are counted once however often the record is read.
 func (s *PointSource) Rewind() { s.next = 0 }

@@ -46,6 +46,7 @@ type Config struct {
 	Demo        DemoConfig        `yaml:"demo"`
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
+	Grid        GridConfig        `yaml:"grid"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -85,6 +86,7 @@ func defaultConfig() Config {
 		Demo:        DemoConfig{Dir: "demo-output"},
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
+		Grid:        defaultGridConfig(),
 	}
 }
 
