@@ -113,7 +113,7 @@ type SeaStateSummary struct {
 	// uncertainties of Tp and c_p, NaN (null) when the analysis gave none;
 	// a known c_p uncertainty widens the intervals of c_cr/c_p and
 	// c_br/c_p.
-	TpUncertainty             float64 `json:"tp_uncertainty_s"`
+	TpUncertainty float64 `json:"tp_uncertainty_s"`
 	// MeanDirection is the direction of travel θ0 in the grid's frame:
 	// degrees counter-clockwise from the grid's +x axis.
 	MeanDirection float64 `json:"mean_direction_deg"`
@@ -121,8 +121,8 @@ type SeaStateSummary struct {
 	// degrees clockwise from true north, of where the waves travel to
 	// (oceanographic convention) and come from (nautical and meteorological
 	// convention); NaN (null) when the grid's heading is unknown.
-	DirectionToTrue   float64 `json:"direction_to_deg_true"`
-	DirectionFromTrue float64 `json:"direction_from_deg_true"`
+	DirectionToTrue           float64 `json:"direction_to_deg_true"`
+	DirectionFromTrue         float64 `json:"direction_from_deg_true"`
 	DirectionSource           string  `json:"direction_source"`
 	DirectionSpread           float64 `json:"direction_spread_deg"`
 	Depth                     float64 `json:"depth_m"`
