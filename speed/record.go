@@ -236,6 +236,10 @@ func AnalyseRecord(ctx context.Context, src *ingest.ElevationSource, opt RecordO
 		return nil, fmt.Errorf("peak phase speed cannot be computed for Tp = %.3g s: %v", ss.Tp, err)
 	}
 	ref.PeakPhaseSpeed = cp
+	// The interval of c_p from that of Tp, kept with the sea state.
+	if err := rec.SeaState.SetPeakPhaseSpeed(ref.DepthM, ref.Current, ref.Theta, ref.Vorticity); err != nil {
+		return nil, fmt.Errorf("peak phase speed cannot be computed for Tp = %.3g s: %v", ss.Tp, err)
+	}
 	rec.Refs = ref
 	rec.SpeedWindowS = opt.SpeedWindowS
 	if rec.SpeedWindowS == 0 {
