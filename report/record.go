@@ -146,12 +146,18 @@ func tablesOf(rec *analysis.Record) *Deployment {
 }
 
 // referenceUncertainty is the standard uncertainty of Tp and of c_p of the
-// record, NaN while the analysis gives none: speed.SeaState carries no
-// uncertainty yet. When it does, take its fields here; the summary
-// records them and the report widens the intervals of c_cr/c_p and
-// c_br/c_p by the uncertainty of c_p.
+// record (NaN when the estimator gave none); the summary records them and
+// the report widens the intervals of c_cr/c_p and c_br/c_p by that of c_p.
 func referenceUncertainty(rec *analysis.Record) (tp, cp float64) {
-	return math.NaN(), math.NaN()
+	ss := rec.SeaState
+	tp, cp = ss.TpStd, ss.PeakPhaseSpeedStd
+	if !(tp > 0) {
+		tp = math.NaN()
+	}
+	if !(cp > 0) {
+		cp = math.NaN()
+	}
+	return tp, cp
 }
 
 // buildSummary assembles the summary of the tracking run from the record
@@ -218,6 +224,7 @@ func seaStateOf(rec *analysis.Record) summary.SeaStateSummary {
 		Hm0: ss.Hm0, Tp: ss.Tp, TpUncertainty: tpU,
 		MeanDirection: rec.Refs.Theta * 180 / math.Pi, DirectionSource: dirSrc,
 		DirectionToTrue: math.NaN(), DirectionFromTrue: math.NaN(),
+		Hm0Total: ss.Hm0Total, NoiseRMS: noiseRMS(ss), BandLowHz: ss.BandLowHz, BandHighHz: ss.BandHighHz,
 		DirectionSpread: ss.DirectionSpread * 180 / math.Pi,
 		Depth:           rec.Refs.DepthM, DepthSource: depthSrc,
 		PeakPhaseSpeed: rec.Refs.PeakPhaseSpeed, PeakPhaseSpeedUncertainty: cpU, PeakWavelength: rec.Refs.PeakPhaseSpeed * ss.Tp,
@@ -326,4 +333,13 @@ func DeploymentFromRecord(rec *analysis.Record, sum *Summary, tracksDir string) 
 	d.Summary = sum.Copy()
 	d.TracksDir = tracksDir
 	return d
+}
+
+// noiseRMS is the RMS of the noise floor removed from Hm0, NaN when the
+// spectrum showed none.
+func noiseRMS(ss speed.SeaState) float64 {
+	if !ss.NoiseFloorFound {
+		return math.NaN()
+	}
+	return ss.NoiseRMS
 }

@@ -103,6 +103,16 @@ func DefaultScenario() Scenario {
 	}
 }
 
+// BenchmarkSea is the record the benchmarks of every stage read: a
+// directional JONSWAP sea (Hs 1.5 m, Tp 6 s, s = 10) on 512×512 cells of
+// 0.5 m at 10 Hz, frames long.
+func BenchmarkSea(frames int) Scenario {
+	return Scenario{Kind: KindJONSWAP,
+		JONSWAP: JONSWAPSea{HsM: 1.5, TpS: 6, Gamma: 3.3, Spreading: 10, DirectionDeg: 25, Seed: 1, Components: 256, FMaxRatio: 3},
+		Grid:    GridSpec{Nx: 512, Ny: 512, DxM: 0.5, DyM: 0.5, FPS: 10, Duration: float64(frames) / 10},
+	}
+}
+
 // Defects are deliberate faults written into a synthetic record.
 type Defects struct {
 	DropFrames []int `json:"drop_frames,omitempty" yaml:"drop_frames"` // frame numbers left out of the file

@@ -242,8 +242,13 @@ func seaRows(ss summary.SeaStateSummary) []htmlKV {
 	} else {
 		direction = append(direction, htmlKV{"True bearings", "not given: the grid's heading is unknown (set site.heading_deg)"})
 	}
+	noise := "no white-noise floor seen in the spectrum; nothing removed"
+	if !math.IsNaN(ss.NoiseRMS) {
+		noise = fmt.Sprintf("%.3f m RMS removed (the spectrum's high-frequency floor); %.2f m before the correction", ss.NoiseRMS, ss.Hm0Total)
+	}
 	rows := []htmlKV{
-		{"Significant wave height H<sub>m0</sub> = 4√m<sub>0</sub>", fmt.Sprintf("%.2f m", ss.Hm0)},
+		{"Significant wave height H<sub>m0</sub> = 4√m<sub>0</sub>, waves' band", fmt.Sprintf("%.2f m (%.3f–%.3f Hz)", ss.Hm0, ss.BandLowHz, ss.BandHighHz)},
+		{"Measurement noise in H<sub>m0</sub>", noise},
 		{"Peak period T<sub>p</sub>", pm(ss.Tp, ss.TpUncertainty, "%.2f") + fmt.Sprintf(" s (f<sub>p</sub> = %.3f Hz)", 1/ss.Tp)},
 		{"Peak phase speed c<sub>p</sub> (linear dispersion)", pm(ss.PeakPhaseSpeed, ss.PeakPhaseSpeedUncertainty, "%.2f") + " m/s"},
 		{"Peak wavelength c<sub>p</sub> T<sub>p</sub>", fmt.Sprintf("%.1f m", ss.PeakWavelength)},

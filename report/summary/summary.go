@@ -107,8 +107,16 @@ type GapSummary struct {
 
 // SeaStateSummary is the sea state of the record.
 type SeaStateSummary struct {
-	Hm0 float64 `json:"hm0_m"`
-	Tp  float64 `json:"tp_s"`
+	// Hm0 is 4√ of the variance in the waves' band (BandLowHz–BandHighHz)
+	// with the noise floor removed; Hm0Total is 4√ of the whole variance;
+	// NoiseRMS the RMS of the white noise floor removed (NaN, null, when
+	// the spectrum shows no floor).
+	Hm0        float64 `json:"hm0_m"`
+	Hm0Total   float64 `json:"hm0_total_m"`
+	NoiseRMS   float64 `json:"noise_rms_m"`
+	BandLowHz  float64 `json:"wave_band_low_hz"`
+	BandHighHz float64 `json:"wave_band_high_hz"`
+	Tp         float64 `json:"tp_s"`
 	// TpUncertainty and PeakPhaseSpeedUncertainty are the standard
 	// uncertainties of Tp and c_p, NaN (null) when the analysis gave none;
 	// a known c_p uncertainty widens the intervals of c_cr/c_p and

@@ -16,12 +16,6 @@ import (
 	"crestspeed/tracking"
 )
 
-func benchScenario(frames int) samples.Scenario {
-	return samples.Scenario{Kind: samples.KindJONSWAP,
-		JONSWAP: samples.JONSWAPSea{HsM: 1.5, TpS: 6, Gamma: 3.3, Spreading: 10, DirectionDeg: 25, Seed: 1, Components: 256, FMaxRatio: 3},
-		Grid:    samples.GridSpec{Nx: 512, Ny: 512, DxM: 0.5, DyM: 0.5, FPS: 10, Duration: float64(frames) / 10},
-	}
-}
 
 // benchFile synthesizes (once, cached in the temp folder) a 512×512 JONSWAP
 // record of the given number of frames.
@@ -33,7 +27,7 @@ func benchFile(b *testing.B, frames int) string {
 	if _, err := os.Stat(path); err == nil {
 		return path
 	}
-	if _, err := samples.Synthesize(context.Background(), benchScenario(frames), path, 1, runtime.NumCPU(), nil); err != nil {
+	if _, err := samples.Synthesize(context.Background(), samples.BenchmarkSea(frames), path, 1, runtime.NumCPU(), nil); err != nil {
 		b.Fatal(err)
 	}
 	return path
@@ -44,7 +38,7 @@ func benchFile(b *testing.B, frames int) string {
 // and 2 workers.
 func BenchmarkDetectLink(b *testing.B) {
 	const nf = 32
-	sc := benchScenario(nf)
+	sc := samples.BenchmarkSea(nf)
 	sea, err := sc.Sea()
 	if err != nil {
 		b.Fatal(err)

@@ -203,6 +203,9 @@ func (rec *Record) setReferences(opt Options) error {
 		return fmt.Errorf("peak phase speed cannot be computed for Tp = %.3g s: %w", ss.Tp, err)
 	}
 	ref.PeakPhaseSpeed = cp
+	if err := rec.SeaState.SetPeakPhaseSpeed(ref.DepthM, ref.Current, ref.Theta, ref.Vorticity); err != nil {
+		return fmt.Errorf("peak phase speed interval cannot be computed: %w", err)
+	}
 	rec.Refs = ref
 	rec.SpeedWindowS = opt.SpeedWindowS
 	if rec.SpeedWindowS == 0 {
