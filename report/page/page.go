@@ -369,7 +369,9 @@ func methodRows(in Input, level int) []htmlKV {
 	}
 	return []htmlKV{
 		{"Sea state", "Frequency spectrum of the elevation at grid points by Welch's method (Hann window, 50 % overlap; Welch 1967), averaged over the points; " +
-			"H<sub>m0</sub> = 4√m<sub>0</sub>; T<sub>p</sub> from the spectral peak refined by a parabola; mean direction from the record unless given."},
+			"H<sub>m0</sub> = 4√m<sub>0</sub> of the variance in the waves' band, less the white-noise floor the spectrum shows at high frequencies; " +
+			"T<sub>p</sub> = 1/F<sub>p</sub> with Young's (1995) weighted peak F<sub>p</sub> = ∫ f S⁴ df / ∫ S⁴ df, its uncertainty from the spectrum's degrees of freedom and resolution; " +
+			"mean direction from the cross-spectra of successive frames unless given."},
 		{"Reference speeds", "Linear dispersion ω² = g k tanh(k h), with current and constant vorticity where given; the wavenumber from the explicit approximation of Fenton & McKee (1990) refined by Newton's method. " +
 			"c<sub>p</sub> at the peak period; c<sub>loc</sub> at the down-crossing to down-crossing wavelength around each crest, median over the speed window."},
 		{"Crests and steepness", "A crest is the highest point between a zero up-crossing and the next down-crossing along the mean direction; " +
