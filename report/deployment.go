@@ -23,6 +23,9 @@ type Deployment struct {
 	// Whitecaps holds whitecaps.csv, lambda.csv and coverage.csv; nil when
 	// the summary has no whitecaps block (no foam mask analysed).
 	Whitecaps *WhitecapTables
+	// GaugeSpectrum is gauge_spectrum.csv (table.GaugeSpectrum); nil
+	// without a gauge comparison.
+	GaugeSpectrum *table.Table
 	// TracksDir is the folder the files came from.
 	TracksDir string
 }
@@ -83,6 +86,11 @@ func LoadDeployment(dir string) (*Deployment, error) {
 	}
 	if sum.Whitecaps != nil {
 		if d.Whitecaps, err = loadWhitecaps(dir, sum.Whitecaps); err != nil {
+			return nil, err
+		}
+	}
+	if sum.Gauge != nil {
+		if d.GaugeSpectrum, err = table.ReadFile(filepath.Join(dir, "gauge_spectrum.csv"), table.GaugeSpectrum); err != nil {
 			return nil, err
 		}
 	}

@@ -11,6 +11,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"time"
 
 	"crestspeed/report/stats"
@@ -21,6 +22,8 @@ import (
 
 // RunInfo describes the run for provenance.
 type RunInfo struct {
+	// Gauge is the comparison with an in-situ series; nil without one.
+	Gauge *GaugeRun
 	// Site places the record; nil when nothing is known of it. When it has
 	// a grid heading, directions are also given as true bearings.
 	Site            *summary.SiteSummary
@@ -191,6 +194,7 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 	}
 	s.SeaState = seaStateOf(rec)
 	s.Site = run.Site
+	s.Gauge = gaugeSummary(run.Gauge)
 	if st := run.Site; st != nil && !math.IsNaN(st.GridHeading) {
 		s.SeaState.DirectionToTrue, s.SeaState.DirectionFromTrue = summary.TrueBearings(s.SeaState.MeanDirection, st.GridHeading)
 	}
@@ -263,7 +267,7 @@ func whitecapsSummary(wc *speed.WhitecapResult, t *WhitecapTables, bounds []floa
 // trackMethod is the method section of the tracking run.
 func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 	prec := map[string]map[string]string{}
-	for _, s := range []*table.Schema{table.Crests, table.Tracks, table.Spectrum, table.Whitecaps, table.Lambda, table.Coverage} {
+	for _, s := range []*table.Schema{table.Crests, table.Tracks, table.Spectrum, table.Whitecaps, table.Lambda, table.Coverage, table.GaugeSpectrum} {
 		m := map[string]string{}
 		for _, c := range s.Columns {
 			if c.Kind == table.Number {
@@ -277,7 +281,7 @@ func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 		"steepness_bounds":     run.SteepnessBounds,
 		"crest_speed":          "local quadratic (Savitzky-Golay) fit of crest position along the mean direction",
 		"crest_speed_window_s": rec.SpeedWindowS,
-		"peak_reference":       "linear dispersion at the spectral peak period (Welch spectrum, parabolic peak), with depth, current and vorticity",
+		"peak_reference":       "linear dispersion at the peak period Tp = 1/F_p, F_p Young's (1995) weighted peak of the Welch spectrum, with depth, current and vorticity",
 		"local_reference":      "linear dispersion at the down-crossing to down-crossing wavelength around the crest, median over the speed window",
 		"mode":                 "maximum of a Gaussian kernel density estimate, Silverman bandwidth, linearly binned on cells of a quarter bandwidth",
 		"percentiles":          "linear interpolation between order statistics (Hyndman & Fan type 7)",
@@ -292,12 +296,16 @@ func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 // them behind.
 func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, error) {
 	d := tablesOf(rec)
+	d.GaugeSpectrum = gaugeSpectrum(run.Gauge)
 	sum := buildSummary(rec, d, run)
 	var fs fileSet
 	defer fs.abort()
 	files := map[string]*table.Table{"crests.csv": d.Crests, "tracks.csv": table.SummariseTracks(d.Crests), "spectrum.csv": d.Spectrum}
 	if w := d.Whitecaps; w != nil {
 		files["whitecaps.csv"], files["lambda.csv"], files["coverage.csv"] = w.Rows, w.Lambda, w.Coverage
+	}
+	if d.GaugeSpectrum != nil {
+		files["gauge_spectrum.csv"] = d.GaugeSpectrum
 	}
 	for _, name := range append(append([]string{}, TrackOutputs...), whitecapOutputs...) {
 		t, ok := files[name]
@@ -342,4 +350,55 @@ func noiseRMS(ss speed.SeaState) float64 {
 		return math.NaN()
 	}
 	return ss.NoiseRMS
+}
+
+// GaugeRun is the comparison of the maps with a gauge, with where the gauge
+// was.
+type GaugeRun struct {
+	File string
+	X, Y float64
+	Cmp  *speed.GaugeComparison
+}
+
+// gaugeSummary is the gauge block of summary.json.
+func gaugeSummary(g *GaugeRun) *summary.GaugeSummary {
+	if g == nil || g.Cmp == nil {
+		return nil
+	}
+	c := g.Cmp
+	figs := func(ss speed.SeaState) summary.GaugeFigures {
+		return summary.GaugeFigures{Hm0: ss.Hm0, Tp: ss.Tp, TpStd: ss.TpStd, NoiseRMS: noiseRMS(ss)}
+	}
+	return &summary.GaugeSummary{File: g.File, X: g.X, Y: g.Y, StartS: c.StartS, EndS: c.EndS, Samples: c.Samples,
+		Maps: figs(c.Maps), Gauge: figs(c.Gauge), LagS: c.LagS, Correlation: c.Correlation,
+		ZeroLagCorrelation: c.ZeroLagCorrelation, MaxLagS: c.MaxLagS}
+}
+
+// gaugeSpectrum is the table of both spectra, the gauge's interpolated to
+// the maps' frequencies where the estimator chose other segments for it.
+func gaugeSpectrum(g *GaugeRun) *table.Table {
+	if g == nil || g.Cmp == nil {
+		return nil
+	}
+	m, gs := g.Cmp.Maps, g.Cmp.Gauge
+	t := table.New(table.GaugeSpectrum, len(m.Freqs))
+	for i, f := range m.Freqs {
+		t.Cols[0][i], t.Cols[1][i], t.Cols[2][i] = f, m.PSD[i], interpolate(gs.Freqs, gs.PSD, f)
+	}
+	t.Round()
+	return t
+}
+
+// interpolate evaluates the piecewise-linear function (xs, ys) at x; NaN
+// outside xs.
+func interpolate(xs, ys []float64, x float64) float64 {
+	i := sort.SearchFloat64s(xs, x)
+	switch {
+	case i < len(xs) && xs[i] == x:
+		return ys[i]
+	case i == 0 || i == len(xs):
+		return math.NaN()
+	}
+	w := (x - xs[i-1]) / (xs[i] - xs[i-1])
+	return (1-w)*ys[i-1] + w*ys[i]
 }

@@ -63,8 +63,9 @@ func AllTrackOutputs() []string {
 // report can be rebuilt from the files alone.
 var TrackOutputs = []string{"crests.csv", "tracks.csv", "spectrum.csv", "summary.json"}
 
-// whitecapOutputs are the files of the whitecap analysis.
-var whitecapOutputs = []string{"whitecaps.csv", "lambda.csv", "coverage.csv"}
+// whitecapOutputs are the files of the whitecap analysis, and of the
+// comparison with a gauge.
+var whitecapOutputs = []string{"whitecaps.csv", "lambda.csv", "coverage.csv", "gauge_spectrum.csv"}
 
 // ReportOutputs are what WriteReport puts in its folder (besides
 // summary.json): the page, the CF trajectories and the figures folder.

@@ -190,6 +190,9 @@ func figureInput(d *Deployment, res *Result, bounds []float64, opt Options) figu
 	in := figures.Input{Crests: d.Crests, Peak: res.Peak, Local: res.Local, Bounds: stats.ClassBounds(bounds),
 		Spectrum: figures.Spectrum{Freq: d.Spectrum.Cols[0], PSD: d.Spectrum.Cols[1]},
 		Sea:      d.Summary.SeaState, T0: t0, Highest: opt.HighestCrests, MinClassTracks: opt.MinClassTracks}
+	if g := d.GaugeSpectrum; g != nil && d.Summary.Gauge != nil {
+		in.Gauge = &figures.Gauge{Freq: g.Cols[0], Maps: g.Cols[1], Gauge: g.Cols[2], Summary: d.Summary.Gauge}
+	}
 	if res.Breaking != nil {
 		in.Breaking = &figures.Breaking{FrontRatio: res.Breaking.FrontRatio, Whitecaps: d.Summary.Whitecaps, Inception: d.Summary.Inception}
 		if d.Whitecaps != nil {

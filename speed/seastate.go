@@ -615,6 +615,42 @@ func (e *SeaStateEstimator) Result() (SeaState, error) {
 	if e.err != nil {
 		return SeaState{}, e.err
 	}
+	st, err := e.frequencySpectrum()
+	if err != nil {
+		return st, err
+	}
+	if e.pairs == 0 {
+		return st, errors.New("speed: no pair of consecutive frames was available for the wave direction; check for gaps between every frame")
+	}
+	if err := e.direction(&st); err != nil {
+		return st, err
+	}
+	return st, nil
+}
+
+// SeriesSeaState estimates the sea state of one elevation time series — a
+// wave gauge, a buoy's heave, a pressure record converted to elevation, or
+// a virtual probe of the maps — by the same frequency-spectrum estimator
+// as the maps' (Hm0 in the waves' band less the noise floor, Young's F_p
+// and its uncertainty), so that the two can be compared. series is sampled
+// every dt seconds; NaN samples (gaps) are filled linearly, and at most a
+// fifth may be missing. No direction is estimated.
+func SeriesSeaState(series []float32, dt float64) (SeaState, error) {
+	if !(dt > 0) || math.IsInf(dt, 0) {
+		return SeaState{}, fmt.Errorf("speed: sampling interval %g s of the series is invalid; give a positive interval", dt)
+	}
+	e := &SeaStateEstimator{dt: dt, series: [][]float32{series}, n: len(series)}
+	for _, v := range series {
+		if v == v {
+			e.frames++
+		}
+	}
+	return e.frequencySpectrum()
+}
+
+// frequencySpectrum is the part of Result that needs only the probes'
+// series: spectrum, noise floor, band, Hm0 and F_p with its uncertainty.
+func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
 	st := SeaState{Frames: e.frames, GapFrames: e.gapFrames, Pairs: e.pairs, DirectionBlock: e.block}
 	n := e.n
 	if n < minSegment {
@@ -748,13 +784,6 @@ func (e *SeaStateEstimator) Result() (SeaState, error) {
 	st.TpHigh = math.Inf(1)
 	if st.FpLow > 0 {
 		st.TpHigh = 1 / st.FpLow
-	}
-
-	if e.pairs == 0 {
-		return st, errors.New("speed: no pair of consecutive frames was available for the wave direction; check for gaps between every frame")
-	}
-	if err := e.direction(&st); err != nil {
-		return st, err
 	}
 	return st, nil
 }

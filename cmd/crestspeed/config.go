@@ -59,9 +59,10 @@ type SynthesizeConfig struct {
 // verb's input, the steepness classes of the statistics and whether the
 // report follows.
 type TrackConfig struct {
-	Input                   string    `yaml:"input"`
-	SteepnessBounds         []float64 `yaml:"steepness_bounds"`
-	Report                  bool      `yaml:"report"`
+	Input                   string      `yaml:"input"`
+	SteepnessBounds         []float64   `yaml:"steepness_bounds"`
+	Report                  bool        `yaml:"report"`
+	Gauge                   GaugeConfig `yaml:"gauge"`
 	ingest.ElevationOptions `yaml:",inline"`
 	analysis.Options        `yaml:",inline"`
 }

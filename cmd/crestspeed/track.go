@@ -54,9 +54,15 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f.Int("max-gap", 0, "frames a track may miss and continue")
 	f.Float64("window", 0, "crest-speed fit window (s); 0 = Tp/4")
 	f.Bool("no-report", false, "skip the report after tracking")
+	f.String("gauge", "", "in-situ elevation series to compare the maps with (CSV time_s|utc,eta_m, or CF NetCDF)")
+	f.Float64("gauge-x", 0, "x of the gauge on the grid (m)")
+	f.Float64("gauge-y", 0, "y of the gauge on the grid (m)")
 	app.bindFlag(cmd, "input", "track.input")
 	app.bindFlag(cmd, "variable", "track.variable")
 	app.bindFlag(cmd, "heading", "site.heading_deg")
+	app.bindFlag(cmd, "gauge", "track.gauge.file")
+	app.bindFlag(cmd, "gauge-x", "track.gauge.x_m")
+	app.bindFlag(cmd, "gauge-y", "track.gauge.y_m")
 	app.bindFlag(cmd, "depth", "track.depth_m")
 	app.bindFlag(cmd, "direction", "track.direction_deg")
 	app.bindFlag(cmd, "current-speed", "track.current_speed_mps")
@@ -126,6 +132,13 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 	}
 	opt := tc.Options
 	opt.Workers = cfg.Workers
+	gauge, err := openGauge(tc.Gauge, src.Meta())
+	if err != nil {
+		return nil, err
+	}
+	if gauge != nil {
+		opt.Probe = &analysis.ProbePoint{X: *tc.Gauge.XM, Y: *tc.Gauge.YM}
+	}
 	update, stop := con.passes()
 	opt.Progress = update
 	con.logf("track: %s, %d frames of %d×%d", tc.Input, len(src.Meta().Times), src.Meta().Grid.Nx(), src.Meta().Grid.Ny())
@@ -137,8 +150,16 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 	for _, w := range rec.Warnings {
 		con.logf("track: warning: %s", w)
 	}
+	var gaugeRun *report.GaugeRun
+	if gauge != nil {
+		if gaugeRun, err = gauge.compare(rec, tc.Gauge); err != nil {
+			return nil, err
+		}
+		printGauge(con, gaugeRun)
+	}
 	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
 		Site:    siteSummary(cfg.Site, src.Meta()),
+		Gauge:   gaugeRun,
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started,
 	})

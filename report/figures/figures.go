@@ -190,6 +190,8 @@ type Input struct {
 	// Breaking holds the inputs of the "Whitecaps and breaking" figures;
 	// nil when the deployment has neither whitecap results nor B_x.
 	Breaking *Breaking
+	// Gauge is the comparison with an in-situ series; nil without one.
+	Gauge *Gauge
 }
 
 // figureInput is Input with the display range of the ratios and what
@@ -852,6 +854,11 @@ func Draw(input Input) (Output, error) {
 	}
 	if in.Breaking != nil {
 		if err := in.breakingFigures(); err != nil {
+			return Output{}, err
+		}
+	}
+	if in.Gauge != nil {
+		if err := in.gaugeFigure(); err != nil {
 			return Output{}, err
 		}
 	}

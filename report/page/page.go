@@ -133,6 +133,7 @@ type htmlData struct {
 	Level                               int
 	RefUncertainty                      bool
 	Breaking                            *htmlBreaking
+	Gauge                               *htmlGauge
 }
 
 // Render writes report.html.
@@ -174,6 +175,7 @@ func Render(in Input) ([]byte, error) {
 		}
 	}
 	hd.Breaking = breakingSection(in)
+	hd.Gauge = gaugeSection(in)
 	hd.Method = methodRows(in, hd.Level)
 	hd.References = references
 	if sum.Whitecaps != nil || sum.Inception != nil {
@@ -583,6 +585,7 @@ footer { margin-top: 2.5rem; color: var(--muted); font-size: .85rem; border-top:
 {{end}}</section>
 
 {{template "breaking" .Breaking}}
+{{template "gauge" .Gauge}}
 <section id="method">
 <h2>Method</h2>
 <dl class="method">

@@ -70,6 +70,8 @@ type Summary struct {
 	// Whitecaps and Inception are present when the record had a foam mask
 	// and when B_x was computed.
 	Whitecaps *WhitecapsSummary `json:"whitecaps,omitempty"`
+	// Gauge compares the maps with an in-situ series, when one was given.
+	Gauge *GaugeSummary `json:"gauge,omitempty"`
 	Inception *speed.Inception  `json:"inception,omitempty"`
 }
 
@@ -351,4 +353,35 @@ func TrueBearings(gridDeg, heading float64) (to, from float64) {
 		to += 360
 	}
 	return to, math.Mod(to+180, 360)
+}
+
+// GaugeSummary compares the maps at an instrument's position with the
+// instrument's own series, over their common span.
+type GaugeSummary struct {
+	File string  `json:"file"`
+	X    float64 `json:"x_m"`
+	Y    float64 `json:"y_m"`
+	// StartS and EndS bound the common span, seconds on the maps' time
+	// base; Samples counts the samples where both series are known.
+	StartS  float64 `json:"start_s"`
+	EndS    float64 `json:"end_s"`
+	Samples int     `json:"samples"`
+	// Maps and Gauge are the two series' figures, by the same estimator.
+	Maps  GaugeFigures `json:"maps"`
+	Gauge GaugeFigures `json:"gauge"`
+	// LagS: the gauge's series lags the maps' by this (positive: later);
+	// Correlation at that lag, ZeroLagCorrelation at none; the lag is
+	// searched within ±MaxLagS.
+	LagS               float64 `json:"lag_s"`
+	Correlation        float64 `json:"correlation"`
+	ZeroLagCorrelation float64 `json:"correlation_at_zero_lag"`
+	MaxLagS            float64 `json:"max_lag_s"`
+}
+
+// GaugeFigures are the sea-state figures of one series.
+type GaugeFigures struct {
+	Hm0      float64 `json:"hm0_m"`
+	Tp       float64 `json:"tp_s"`
+	TpStd    float64 `json:"tp_uncertainty_s"`
+	NoiseRMS float64 `json:"noise_rms_m"`
 }

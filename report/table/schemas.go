@@ -165,8 +165,17 @@ var Spectrum = newSchema("spectrum.csv", "frequencies", 3,
 	number("psd_m2_per_hz", "m2 Hz-1", precSpectral, "power spectral density of the surface elevation").required().atLeast(0),
 )
 
+// GaugeSpectrum is gauge_spectrum.csv: the frequency spectra of the maps at
+// the gauge's position and of the gauge's series, over their common span.
+var GaugeSpectrum = newSchema("gauge_spectrum.csv", "frequencies", 3,
+	number("frequency_hz", "Hz", precFreq, "frequency").required().atLeast(0),
+	number("maps_psd_m2_per_hz", "m2 Hz-1", precSpectral, "power spectral density of the maps' elevation at the gauge").atLeast(0),
+	number("gauge_psd_m2_per_hz", "m2 Hz-1", precSpectral, "power spectral density of the gauge's elevation").atLeast(0),
+)
+
 func init() {
 	Spectrum.Check = increasing(0, "has a frequency no higher than the one before; frequencies must increase")
+	GaugeSpectrum.Check = increasing(0, "has a frequency no higher than the one before; frequencies must increase")
 }
 
 // increasing checks that column k strictly increases.

@@ -54,6 +54,9 @@ type Options struct {
 	// MaxGapFrames are taken from this record's.
 	Whitecaps bool                  `yaml:"whitecaps"`
 	Breaking  speed.BreakingOptions `yaml:",inline"`
+	// Probe, when set, samples the maps at a point (a virtual wave gauge)
+	// in every frame: Record.Probe.
+	Probe *ProbePoint `yaml:"-"`
 	// Workers run the per-frame work in parallel; ≤ 0 means one. The
 	// result does not depend on it.
 	Workers int `yaml:"-"`
@@ -126,3 +129,6 @@ func (o Options) current() speed.Current {
 	d := o.CurrentDirectionDeg * math.Pi / 180
 	return speed.Current{U: o.CurrentSpeedMPS * math.Cos(d), V: o.CurrentSpeedMPS * math.Sin(d)}
 }
+
+// ProbePoint is a position on the grid, metres.
+type ProbePoint struct{ X, Y float64 }

@@ -41,6 +41,11 @@ type Record struct {
 	// Inception the breaking-inception flags (nil without B_x).
 	Whitecaps *speed.WhitecapResult
 	Inception *speed.Inception
+	// Probe is the maps' elevation at Options.Probe in every frame of the
+	// record's time base (frame k at Meta.Times[0] + k·FrameInterval; NaN
+	// where the frame is missing or the point unknown); nil without a
+	// probe.
+	Probe []float32
 	// Warnings say where the record is too short, too coarse or too small
 	// for the estimates to be trusted; they are reported, not fatal.
 	Warnings []string

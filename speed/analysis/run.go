@@ -130,6 +130,10 @@ func (rec *Record) seaStatePass(ctx context.Context, src Source, opt Options) ([
 	var masked, cells int64
 	prev := -1
 	fc := rec.frames()
+	probe, err := newProbe(opt.Probe, meta, fc)
+	if err != nil {
+		return nil, err
+	}
 	src.Rewind()
 	for {
 		if err := ctx.Err(); err != nil {
@@ -162,6 +166,9 @@ func (rec *Record) seaStatePass(ctx context.Context, src Source, opt Options) ([
 			}
 		}
 		cells += int64(len(f.Eta))
+		if probe != nil {
+			probe.sample(n, f.Eta)
+		}
 		rec.FramesRead++
 		if opt.Progress != nil {
 			opt.Progress("sea state", f.Index+1, total)
@@ -176,6 +183,9 @@ func (rec *Record) seaStatePass(ctx context.Context, src Source, opt Options) ([
 	}
 	rec.SeaState = ss
 	rec.MaskedFraction = float64(masked) / float64(cells)
+	if probe != nil {
+		rec.Probe = probe.series
+	}
 	mean := make([]float32, nx*ny)
 	for i := range mean {
 		if cnt[i] > 0 {
@@ -332,3 +342,37 @@ func (p *framePool) next(ctx context.Context, src Source) (*ingest.Frame, error)
 }
 
 func (p *framePool) put(f *ingest.Frame) { p.free <- f }
+
+// probe samples the maps at one point, frame by frame.
+type probe struct {
+	series []float32
+	nx, ny int
+	fx, fy float64
+}
+
+// newProbe prepares the probe at pt (nil for none); a point outside the
+// grid is refused.
+func newProbe(pt *ProbePoint, meta ingest.ElevationMeta, fc frameCounter) (*probe, error) {
+	if pt == nil {
+		return nil, nil
+	}
+	g := meta.Grid
+	fx, fy := (pt.X-g.X[0])/g.Dx(), (pt.Y-g.Y[0])/g.Dy()
+	if !(fx >= 0 && fy >= 0 && fx <= float64(g.Nx()-1) && fy <= float64(g.Ny()-1)) {
+		return nil, fmt.Errorf("%w: the gauge position (%g, %g) m is outside the grid (x %g–%g m, y %g–%g m)",
+			ErrSetting, pt.X, pt.Y, g.X[0], g.X[g.Nx()-1], g.Y[0], g.Y[g.Ny()-1])
+	}
+	n := fc.number(meta.Times[len(meta.Times)-1]) + 1
+	p := &probe{series: make([]float32, n), nx: g.Nx(), ny: g.Ny(), fx: fx, fy: fy}
+	for i := range p.series {
+		p.series[i] = float32(math.NaN())
+	}
+	return p, nil
+}
+
+// sample records frame number k.
+func (p *probe) sample(k int, eta []float32) {
+	if k >= 0 && k < len(p.series) {
+		p.series[k] = float32(bilinearAt(eta, p.nx, p.ny, p.fx, p.fy))
+	}
+}
