@@ -384,12 +384,52 @@ func readConfigFile(v *viper.Viper, path string) error {
 	if err := yaml.Unmarshal(b, &m); err != nil {
 		return usageError{fmt.Errorf("config file %s is not valid YAML: %v", path, err)}
 	}
+	if err := namedKeys(m, ""); err != nil {
+		return usageError{fmt.Errorf("config file %s: %w", path, err)}
+	}
 	var c Config
 	if err := decodeInto(m, &c); err != nil {
 		return usageError{fmt.Errorf("config file %s: %s", path, cause(err))}
 	}
 	if err := v.MergeConfigMap(m); err != nil {
 		return usageError{fmt.Errorf("config file %s cannot be read: %w", path, err)}
+	}
+	return nil
+}
+
+// namedKeys checks that every key of a configuration tree is a name (YAML
+// allows numbers, nulls and lists as keys; the configuration does not),
+// turning maps with such keys into errors.
+func namedKeys(m map[string]any, prefix string) error {
+	for k, v := range m {
+		full := k
+		if prefix != "" {
+			full = prefix + "." + k
+		}
+		switch sub := v.(type) {
+		case map[string]any:
+			if err := namedKeys(sub, full); err != nil {
+				return err
+			}
+		case map[any]any:
+			for kk := range sub {
+				if _, ok := kk.(string); !ok {
+					return fmt.Errorf("the key %v under %s is not a setting name", kk, full)
+				}
+			}
+			return fmt.Errorf("the section %s cannot be read", full)
+		case []any:
+			for i, e := range sub {
+				if em, ok := e.(map[string]any); ok {
+					if err := namedKeys(em, fmt.Sprintf("%s[%d]", full, i)); err != nil {
+						return err
+					}
+				}
+				if _, ok := e.(map[any]any); ok {
+					return fmt.Errorf("an entry of %s has a key that is not a setting name", full)
+				}
+			}
+		}
 	}
 	return nil
 }
