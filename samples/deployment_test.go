@@ -140,7 +140,7 @@ func TestTinyDeployment(t *testing.T) {
 
 // TestRigTruthRoundTrip: the rig file of a deployment carries the sea
 // plane of the pose exactly, and its world frame puts the left camera at
-// (0, 0, H) (definition of the world frame, PHYSICS.md §7).
+// (0, 0, H) (definition of the world frame, docs/methods.md "Stereo geometry").
 func TestRigTruthRoundTrip(t *testing.T) {
 	dir := filepath.Join(t.TempDir(), "d")
 	d := tinyDeployment()

@@ -89,7 +89,7 @@ type AutoFoam struct {
 	// from which the crest is painted as breaking.
 	MinSteepness float64 `json:"min_steepness" yaml:"min_steepness"`
 	// SpeedRatio is the front speed over the nominal phase speed of the
-	// centre period; 0 means 0.8 (Rapp & Melville 1990, PHYSICS.md §5).
+	// centre period; 0 means 0.8 (Rapp & Melville 1990).
 	SpeedRatio float64 `json:"speed_ratio,omitempty" yaml:"speed_ratio"`
 	// FrontLengthM, LengthM and DurationS shape the patch; 0 means half
 	// the centre wavelength, an eighth of it, and one centre period.
@@ -267,7 +267,7 @@ func (f FoamSpec) setupFoam(s Scenario, sea *LinearSea, xs, ys []float64) (*Foam
 
 // atFocus measures the linear crest at the packet's focus — its elevation
 // a_c = η there, its zero-crossing width w_c on the profile along the
-// packet's direction, S_c = a_c π / w_c (PHYSICS.md §2) — and, when S_c
+// packet's direction, S_c = a_c π / w_c (docs/methods.md) — and, when S_c
 // reaches the threshold, the patch painted there.
 func (a AutoFoam) atFocus(pk FocusingPacket, sea *LinearSea) (FoamPatch, AutoFoamTruth, error) {
 	th := pk.DirectionDeg * math.Pi / 180

@@ -150,7 +150,7 @@ func TestSynthesizeWithFoam(t *testing.T) {
 
 // Automatic foam on a one-component "packet" (a cosine focused at the
 // focus): the crest steepness there is exactly a·k (geometry of the
-// cosine, PHYSICS.md §2), the patch is painted only when a·k reaches the
+// cosine, docs/methods.md "Crests"), the patch is painted only when a·k reaches the
 // threshold, at the focus and time, with front speed 0.8·gT/(2π) (deep
 // water linear phase speed; Dean & Dalrymple 1991).
 func TestAutoFoamAtFocus(t *testing.T) {

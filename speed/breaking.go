@@ -47,7 +47,7 @@ const (
 	// DefaultFrontPredictRatio: fronts are predicted to move at 0.8 c_p
 	// between frames when linking (whitecap speeds of about 0.8 of the
 	// phase speed: Rapp & Melville 1990, Phil. Trans. R. Soc. A 331 —
-	// PHYSICS.md §5).
+	// docs/methods.md).
 	DefaultFrontPredictRatio = 0.8
 	// DefaultSpeedBinWidth is the width of the Λ(c) speed bins, m/s.
 	DefaultSpeedBinWidth = 0.25

@@ -136,7 +136,7 @@ func TestFentonMcKeeStart(t *testing.T) {
 	}
 	t.Logf("Fenton–McKee worst relative error %.3g %%", 100*worst)
 
-	// Check value α = 1 → kh = 1.19967864 (PHYSICS.md §1; verified here
+	// Check value α = 1 → kh = 1.19967864 (Fenton & McKee 1990 check value, docs/methods.md; verified here
 	// by the residual x tanh x − α of the dispersion relation).
 	const khRef = 1.19967864
 	if r := math.Abs(khRef*math.Tanh(khRef) - 1); r > 1e-8 {

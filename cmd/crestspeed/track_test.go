@@ -26,7 +26,7 @@ func synthSmall(t *testing.T, dir string) string {
 	return out
 }
 
-// Results must not depend on the number of workers (DESIGN.md rule).
+// Results must not depend on the number of workers (docs/architecture.md).
 func TestTrackDeterministicAcrossWorkers(t *testing.T) {
 	dir := t.TempDir()
 	in := synthSmall(t, dir)
