@@ -71,8 +71,8 @@ type Summary struct {
 	// and when B_x was computed.
 	Whitecaps *WhitecapsSummary `json:"whitecaps,omitempty"`
 	// Gauge compares the maps with an in-situ series, when one was given.
-	Gauge *GaugeSummary `json:"gauge,omitempty"`
-	Inception *speed.Inception  `json:"inception,omitempty"`
+	Gauge     *GaugeSummary    `json:"gauge,omitempty"`
+	Inception *speed.Inception `json:"inception,omitempty"`
 }
 
 // RecordSummary describes the analysed record: its title and text

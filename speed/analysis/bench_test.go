@@ -16,7 +16,6 @@ import (
 	"crestspeed/tracking"
 )
 
-
 // benchFile synthesizes (once, cached in the temp folder) a 512×512 JONSWAP
 // record of the given number of frames.
 func benchFile(b *testing.B, frames int) string {
