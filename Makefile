@@ -30,8 +30,9 @@ test: deps
 fuzz: deps
 	FUZZTIME=$${FUZZTIME:-2m} scripts/fuzz-smoke
 
-bench: deps
+bench: build
 	$(GO) test -run '^$$' -bench . -benchmem -benchtime 3x -timeout 60m $(PKGS)
+	scripts/bench/track-vs-numpy $(BIN)
 
 lint:
 	@out=$$(gofmt -l $$(git ls-files '*.go')); if [ -n "$$out" ]; then echo "gofmt needed:"; echo "$$out"; exit 1; fi
