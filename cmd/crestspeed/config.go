@@ -45,6 +45,7 @@ type Config struct {
 	Demo        DemoConfig        `yaml:"demo"`
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
+	Campaign    CampaignConfig    `yaml:"campaign"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -84,6 +85,7 @@ func defaultConfig() Config {
 		Demo:        DemoConfig{Dir: "demo-output"},
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
+		Campaign:    defaultCampaignConfig(),
 	}
 }
 
