@@ -16,7 +16,9 @@ type CampaignConfig struct {
 	campaign.Options `yaml:",inline"`
 }
 
-func defaultCampaignConfig() CampaignConfig { return CampaignConfig{Options: campaign.DefaultOptions()} }
+func defaultCampaignConfig() CampaignConfig {
+	return CampaignConfig{Options: campaign.DefaultOptions()}
+}
 
 func newCampaignCmd(app *App) *cobra.Command {
 	cmd := &cobra.Command{
