@@ -331,6 +331,38 @@ func TestMismatchedSettings(t *testing.T) {
 	if !bytes.Equal(a, b) {
 		t.Error("the pooled statistics changed when a deployment recorded other classes; its rows should have been classed again")
 	}
+	// other speed bins of Λ(c) in lambda.csv: Λ(c/c_p) is rebuilt from
+	// the whitecap rows, so the pooled curve is unchanged, and said so
+	other = copyFolder(t, dirs[1])
+	lp := filepath.Join(other, "lambda.csv")
+	lam, err := table.ReadFile(lp, table.Lambda)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := 0; k < 2; k++ {
+		for i := range lam.Cols[k] {
+			lam.Cols[k][i] *= 1.2
+		}
+	}
+	f, _ := os.Create(lp)
+	lam.Write(f)
+	f.Close()
+	deps2, err := Load([]string{dirs[0], other})
+	if err != nil {
+		t.Fatal(err)
+	}
+	res2, err := Analyse(deps2, testOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if conv := res2.Summary.Campaign.Deployments[1].Conversions; len(conv) != 1 || !strings.Contains(conv[0], "Λ(c)") || !strings.Contains(conv[0], other) {
+		t.Errorf("other Λ bins: conversions %q", conv)
+	}
+	a, _ = json.Marshal(base.Summary.Campaign.Lambda)
+	b, _ = json.Marshal(res2.Summary.Campaign.Lambda)
+	if !bytes.Equal(a, b) {
+		t.Error("the pooled Λ(c/c_p) changed with the bins of a lambda.csv")
+	}
 	// the campaign's own classes, given
 	opt := testOptions()
 	opt.SteepnessBounds = []float64{0.15}

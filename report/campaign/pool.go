@@ -78,6 +78,7 @@ func Analyse(deps []Deployment, opt Options) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
+	lambdaBins(deps, conversions)
 	res := &Result{Deployments: deps, Bounds: bounds, Options: opt, started: started}
 	sum := &summary.Campaign{
 		Tool:    map[string]string{"name": "crestspeed", "version": opt.Version},
@@ -454,4 +455,28 @@ func b2f(b bool) float64 {
 		return 1
 	}
 	return 0
+}
+
+// lambdaBins adds to conversions a sentence for each deployment whose
+// lambda.csv has speed bins of another width than the first deployment
+// with whitecaps (the top bin follows c_p by default, so it differs
+// anyway): Λ(c/c_p) is rebuilt from the whitecap rows on the campaign's
+// bins, so the bins of lambda.csv do not enter and the pooling is exact.
+func lambdaBins(deps []Deployment, conversions [][]string) {
+	first, firstDir := 0.0, ""
+	for i, d := range deps {
+		if d.Whitecaps == nil || d.Whitecaps.Lambda.Len() == 0 {
+			continue
+		}
+		l := d.Whitecaps.Lambda
+		width := l.Cols[1][0] - l.Cols[0][0]
+		if firstDir == "" {
+			first, firstDir = width, d.TracksDir
+			continue
+		}
+		if math.Abs(width-first) > 1e-6*first {
+			conversions[i] = append(conversions[i], fmt.Sprintf("track folder %s binned Λ(c) in %.4g m/s, %s in %.4g m/s; "+
+				"Λ(c/c_p) is rebuilt from the whitecap rows of each on the campaign's bins of c/c_p, which is exact", d.TracksDir, width, firstDir, first))
+		}
+	}
 }

@@ -334,7 +334,7 @@ func campaignMethod(in CampaignInput, level int) []htmlKV {
 	return []htmlKV{
 		{"Deployments", "Each deployment is a folder of the tracking stage (crests.csv, summary.json, spectrum.csv, and the whitecap files with a foam mask), read back and checked against its summary. " +
 			"Deployments whose reference settings differ (the definitions of S<sub>c</sub>, c<sub>p</sub> and c<sub>loc</sub>, the crest-speed fit and its window, the smallest crests and whitecap patches kept) are refused. " +
-			"The steepness classes are converted exactly: every row carries its own S<sub>c</sub> and is classed into the campaign's classes."},
+			"The steepness classes are converted exactly: every row carries its own S<sub>c</sub> and is classed into the campaign's classes; so are the speed bins of Λ(c), which is rebuilt from the whitecap rows on the campaign's bins of c/c<sub>p</sub>."},
 		{"Pooling", "The pooled statistics are those of all rows of all deployments taken together — the same numbers as one analysis of the concatenated rows — with each ratio relative to the reference speeds of its own deployment. " +
 			"Percentiles by linear interpolation between order statistics (Hyndman &amp; Fan 1996, type 7); densities and modes as in the deployment report (Silverman 1986; Wand 1994)."},
 		{"Confidence intervals", fmt.Sprintf("Bootstrap intervals at %d %% (Efron &amp; Tibshirani 1993): %d resamples (seed %d), each drawing, within every deployment, as many whole tracks (whitecaps) with replacement as it has — "+
