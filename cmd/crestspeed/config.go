@@ -42,10 +42,10 @@ type Config struct {
 	Synthesize  SynthesizeConfig  `yaml:"synthesize"`
 	Track       TrackConfig       `yaml:"track"`
 	Report      ReportConfig      `yaml:"report"`
+	Campaign    CampaignConfig    `yaml:"campaign"`
 	Demo        DemoConfig        `yaml:"demo"`
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
-	Campaign    CampaignConfig    `yaml:"campaign"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -82,10 +82,10 @@ func defaultConfig() Config {
 			Options:          analysis.DefaultOptions(),
 		},
 		Report:      defaultReportConfig(),
+		Campaign:    defaultCampaignConfig(),
 		Demo:        DemoConfig{Dir: "demo-output"},
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
-		Campaign:    defaultCampaignConfig(),
 	}
 }
 
