@@ -168,7 +168,8 @@ func TestDeploymentStatisticsEqualDeploymentReport(t *testing.T) {
 // keeps. (2) Its integral over c/c_p is the tracking stage's ∫ Λ dc
 // (summary.json lambda_integral_per_m) to the rounding of the front
 // lengths and areas. (3) The pooled curve is the frame-weighted mean of
-// the deployments' curves: Σ_d F_d Λ̂_d / Σ_d F_d, to 1e-12.
+// the deployments' curves: Σ_d F_d Λ̂_d / Σ_d F_d, to 1e-12. (4) Every
+// curve equals Phillips's definition evaluated by numpy from the files.
 func TestLambdaNormalised(t *testing.T) {
 	deps, err := Load(fixture(t))
 	if err != nil {
@@ -188,27 +189,104 @@ func TestLambdaNormalised(t *testing.T) {
 		if len(got.Bins) != lam.Len() {
 			t.Fatalf("deployment %d: %d bins of c/c_p, lambda.csv has %d", i+1, len(got.Bins), lam.Len())
 		}
-		filled := 0
-		for j, b := range got.Bins {
-			want := cp * lam.Cols[2][j]
-			if math.Abs(b.Lambda-want) > 5e-6*math.Max(want, 1e-300) {
-				t.Errorf("deployment %d bin %d: Λ(c/c_p) %.7g, c_p Λ(c) from lambda.csv %.7g", i+1, j, b.Lambda, want)
+		// A front whose speed lies within the rounding of whitecaps.csv
+		// (1 mm/s) of a bin edge may fall on the other side of it than in
+		// lambda.csv, made from the unrounded speeds: a difference in two
+		// neighbouring bins is accepted when their sum agrees and such a
+		// front exists.
+		nearEdge := func(j int) bool {
+			edge := lam.Cols[1][j]
+			for _, v := range d.Whitecaps.Rows.Cols[table.WhitecapFrontSpeed] {
+				if math.Abs(v-edge) <= 0.0005+1e-9 {
+					return true
+				}
 			}
-			if b.Lambda > 0 {
+			return false
+		}
+		near := func(a, b float64) bool { return math.Abs(a-b) <= 5e-6*math.Max(math.Abs(b), 1e-300) }
+		filled, flips := 0, 0
+		for j := 0; j < len(got.Bins); j++ {
+			want := cp * lam.Cols[2][j]
+			if got.Bins[j].Lambda > 0 {
 				filled++
 			}
+			if near(got.Bins[j].Lambda, want) {
+				continue
+			}
+			if j+1 < len(got.Bins) && nearEdge(j) && near(got.Bins[j].Lambda+got.Bins[j+1].Lambda, want+cp*lam.Cols[2][j+1]) {
+				flips++
+				j++
+				continue
+			}
+			t.Errorf("deployment %d bin %d: Λ(c/c_p) %.7g, c_p Λ(c) from lambda.csv %.7g", i+1, j, got.Bins[j].Lambda, want)
+		}
+		if flips > 1 {
+			t.Errorf("deployment %d: %d fronts on bin edges; more than the rounding of a fixture should give", i+1, flips)
 		}
 		ws := d.Summary.Whitecaps
 		if ws.LengthOutOfRange == 0 && math.Abs(got.Integral-ws.LambdaIntegral) > 1e-4*ws.LambdaIntegral {
 			t.Errorf("deployment %d: ∫Λ(c/c_p) d(c/c_p) = %.7g, ∫Λ dc of the tracking stage %.7g", i+1, got.Integral, ws.LambdaIntegral)
 		}
-		t.Logf("deployment %d: %d of %d bins filled, ∫ %.5g 1/m (tracking stage %.5g)", i+1, filled, len(got.Bins), got.Integral, ws.LambdaIntegral)
+		t.Logf("deployment %d: %d of %d bins filled (%d front on a bin edge), ∫ %.5g 1/m (tracking stage %.5g)", i+1, filled, len(got.Bins), flips, got.Integral, ws.LambdaIntegral)
 		if filled < 3 {
 			t.Errorf("deployment %d: only %d filled bins; the check needs fronts", i+1, filled)
 		}
 	}
 	res, _ := analyseFixture(t, testOptions())
 	cb := res.Summary.Campaign
+	// Phillips's definition evaluated by numpy from the files: front
+	// samples are the whitecaps.csv rows with a front speed and a front
+	// length, on the area of their frame in coverage.csv, each
+	// deployment's speeds over its c_p, Λ̂_j = Σ L / (A F Δĉ) over the F
+	// analysed frames (coverage.csv rows) of the deployment, or of all.
+	var ref struct {
+		Deployments [][]float64
+		Pooled      []float64
+	}
+	var cps []float64
+	for _, d := range cb.Deployments {
+		cps = append(cps, d.PeakPhaseSpeed)
+	}
+	pyref.JSON(t, `
+import csv, json, sys
+import numpy as np
+d = json.load(sys.stdin)
+w, top = d["width"], d["top"]
+nb = int(np.ceil(top / w - 1e-9))
+def samples(folder, cp):
+    area = {int(r["frame"]): float(r["area_m2"]) for r in csv.DictReader(open(folder + "/coverage.csv"))}
+    frames = len(area)
+    out = []
+    for r in csv.DictReader(open(folder + "/whitecaps.csv")):
+        if r["front_speed_mps"] == "" or r["front_length_m"] == "" or not float(r["front_length_m"]) > 0:
+            continue
+        out.append((float(r["front_speed_mps"]) / cp, float(r["front_length_m"]), area[int(r["frame"])]))
+    return out, frames
+def lam(s, frames):
+    L = np.zeros(nb)
+    for c, l, a in s:
+        if c < 0 or c >= nb * w:
+            continue
+        L[min(int(np.floor(c / w)), nb - 1)] += l / a / frames / w
+    return L.tolist()
+per, alls, allf = [], [], 0
+for folder, cp in zip(d["dirs"], d["cps"]):
+    s, f = samples(folder, cp)
+    per.append(lam(s, f)); alls += s; allf += f
+print(json.dumps({"Deployments": per, "Pooled": lam(alls, allf)}))
+`, map[string]any{"dirs": fixture(t), "cps": cps, "width": res.Options.LambdaBinWidth, "top": res.Options.LambdaMaxRatio}, &ref)
+	for i, d := range cb.Deployments {
+		for j, b := range d.Lambda.Bins {
+			if w := ref.Deployments[i][j]; math.Abs(b.Lambda-w) > 1e-9*math.Max(w, 1e-300) {
+				t.Errorf("deployment %d bin %d: Λ(c/c_p) %.10g, numpy %.10g", i+1, j, b.Lambda, w)
+			}
+		}
+	}
+	for j, b := range cb.Lambda.Bins {
+		if w := ref.Pooled[j]; math.Abs(b.Lambda-w) > 1e-9*math.Max(w, 1e-300) {
+			t.Errorf("pooled bin %d: Λ(c/c_p) %.10g, numpy %.10g", j, b.Lambda, w)
+		}
+	}
 	frames := 0
 	for _, d := range cb.Deployments {
 		frames += d.Lambda.Frames
