@@ -43,6 +43,7 @@ type Config struct {
 	Synthesize  SynthesizeConfig  `yaml:"synthesize"`
 	Track       TrackConfig       `yaml:"track"`
 	Report      ReportConfig      `yaml:"report"`
+	Campaign    CampaignConfig    `yaml:"campaign"`
 	Demo        DemoConfig        `yaml:"demo"`
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
@@ -84,6 +85,7 @@ func defaultConfig() Config {
 			Options:          analysis.DefaultOptions(),
 		},
 		Report:      defaultReportConfig(),
+		Campaign:    defaultCampaignConfig(),
 		Demo:        DemoConfig{Dir: "demo-output"},
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),

@@ -472,16 +472,8 @@ func prettyJSON(v any) string {
 	return string(b)
 }
 
-var pageTemplate = template.Must(template.New("report").Funcs(template.FuncMap{
-	"raw": func(s string) template.HTML { return template.HTML(s) },
-}).Parse(`<!DOCTYPE html>
-<html lang="en">
-<head>
-<meta charset="utf-8">
-<meta name="viewport" content="width=device-width, initial-scale=1">
-<title>{{.Title}}{{if .Subtitle}} — {{.Subtitle}}{{end}}</title>
-<style>
-:root { --ink: #1b1b1b; --muted: #5a5a5a; --rule: #d0d0d0; --band: #f4f6f8; --accent: #0072b2; --warn: #d55e00; }
+// pageCSS is the style of the report pages (deployment and campaign).
+const pageCSS = `:root { --ink: #1b1b1b; --muted: #5a5a5a; --rule: #d0d0d0; --band: #f4f6f8; --accent: #0072b2; --warn: #d55e00; }
 * { box-sizing: border-box; }
 html { font-size: 16px; }
 body { margin: 0; color: var(--ink); background: #fff; font-family: "Liberation Sans", "DejaVu Sans", Arial, Helvetica, sans-serif; line-height: 1.45; }
@@ -529,7 +521,18 @@ footer { margin-top: 2.5rem; color: var(--muted); font-size: .85rem; border-top:
   figure, table, .caution, .glance { break-inside: avoid; }
   pre { white-space: pre-wrap; }
 }
-</style>
+`
+
+var pageTemplate = template.Must(template.New("report").Funcs(template.FuncMap{
+	"raw": func(s string) template.HTML { return template.HTML(s) },
+}).Parse(`<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>{{.Title}}{{if .Subtitle}} — {{.Subtitle}}{{end}}</title>
+<style>
+` + pageCSS + `</style>
 </head>
 <body>
 <main>

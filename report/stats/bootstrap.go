@@ -104,6 +104,8 @@ type group struct {
 // drawn once.
 type bootSample struct {
 	nUnits int
+	// strata lists the units of each stratum (nil: one stratum of all).
+	strata [][]int32
 	groups []group
 	// entries of unit u are unitStart[u]..unitStart[u+1]; an entry is
 	// group<<56 | cell<<16 | position in the cell.
@@ -117,6 +119,12 @@ type bootSample struct {
 func newBootSample(s Sample) *bootSample {
 	K := len(s.Bounds)
 	bs := &bootSample{nUnits: s.Units, groups: make([]group, K+1)}
+	for u, h := range s.Stratum {
+		for int(h) >= len(bs.strata) {
+			bs.strata = append(bs.strata, nil)
+		}
+		bs.strata[h] = append(bs.strata[h], int32(u))
+	}
 	members := make([][]int32, K+1)
 	for i, v := range s.Values {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -222,11 +230,21 @@ func (bs *bootSample) newScratch() *scratch {
 	return sc
 }
 
-// resample draws the unit multiplicities and bins the drawn values.
+// resample draws the unit multiplicities and bins the drawn values:
+// nUnits draws from all units, or with strata as many draws from each
+// stratum's units as it has, stratum after stratum.
 func (bs *bootSample) resample(sc *scratch, rng *rand.Rand) {
 	clear(sc.w)
-	for range bs.nUnits {
-		sc.w[rng.IntN(bs.nUnits)]++
+	if bs.strata == nil {
+		for range bs.nUnits {
+			sc.w[rng.IntN(bs.nUnits)]++
+		}
+	} else {
+		for _, units := range bs.strata {
+			for range units {
+				sc.w[units[rng.IntN(len(units))]]++
+			}
+		}
 	}
 	bs.accumulate(sc)
 }

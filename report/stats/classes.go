@@ -18,6 +18,12 @@ type Sample struct {
 	// variable.
 	Class  []int8
 	Bounds [][2]float64
+	// Stratum, when not nil, gives the stratum of each unit (len Units,
+	// 0 ≤ Stratum < the number of strata): a resample then draws, within
+	// each stratum, as many units as the stratum has (stratified
+	// resampling; see Describe). Nil is one stratum: every unit drawn
+	// from all.
+	Stratum []int32
 }
 
 // Classify makes a Sample: value i comes from the unit identified by
@@ -37,6 +43,36 @@ func Classify(values, by, ids []float64, inner []float64) Sample {
 		s.Class[i] = int8(ClassOf(s.Bounds, by[i]))
 	}
 	s.Units = len(index)
+	return s
+}
+
+// ClassifyStratified is Classify for values from several strata (the
+// deployments of a campaign): value i comes from the unit identified by
+// the pair (strata[i], ids[i]) — the same id in two strata names two
+// units — and the unit lies in stratum strata[i]. Strata and units are
+// numbered in order of appearance.
+func ClassifyStratified(values, by, ids, strata []float64, inner []float64) Sample {
+	s := Sample{Values: values, Unit: make([]int32, len(values)), Class: make([]int8, len(values)), Bounds: ClassBounds(inner)}
+	type key struct{ stratum, id float64 }
+	units := map[key]int32{}
+	strataIndex := map[float64]int32{}
+	for i := range values {
+		st, ok := strataIndex[strata[i]]
+		if !ok {
+			st = int32(len(strataIndex))
+			strataIndex[strata[i]] = st
+		}
+		k := key{strata[i], ids[i]}
+		u, ok := units[k]
+		if !ok {
+			u = int32(len(units))
+			units[k] = u
+			s.Stratum = append(s.Stratum, st)
+		}
+		s.Unit[i] = u
+		s.Class[i] = int8(ClassOf(s.Bounds, by[i]))
+	}
+	s.Units = len(units)
 	return s
 }
 
@@ -88,6 +124,16 @@ type Options struct {
 // Freedman–Diaconis histogram and the kernel density curve. A group with
 // fewer than two units has unknown intervals. The result depends only on
 // s and the options, not on the number of workers.
+//
+// With s.Stratum set the resampling is stratified: each resample draws,
+// for every stratum h, n_h of its n_h units with replacement, so that the
+// strata (the deployments of a campaign, independent samples of fixed
+// size) keep their numbers of units and a resample never moves weight
+// from one to another — the bootstrap of several independent samples
+// (Efron & Tibshirani 1993, An Introduction to the Bootstrap, ch. 8;
+// Davison & Hinkley 1997, Bootstrap Methods and their Application, §3.2,
+// "several samples"; chapter and section from memory). The point
+// estimates do not depend on the strata.
 func Describe(s Sample, opt Options) Distributions {
 	bs := newBootSample(s)
 	var reps [][nStats][]float64

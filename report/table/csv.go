@@ -60,7 +60,11 @@ func (t *Table) Write(w io.Writer) error {
 	for i := 0; i < t.Len(); i++ {
 		buf, ends = buf[:0], ends[:0]
 		for k := range t.Cols {
-			buf = t.Schema.Columns[k].Append(buf, t.Cols[k][i])
+			if t.Schema.Columns[k].Kind == Text {
+				buf = append(buf, t.Text[k][i]...)
+			} else {
+				buf = t.Schema.Columns[k].Append(buf, t.Cols[k][i])
+			}
 			ends = append(ends, len(buf))
 		}
 		s := string(buf) // one string per row; the fields share it
@@ -119,6 +123,14 @@ func read(r io.Reader, s *Schema, name string, size int64) (*Table, error) {
 	}
 	cr.FieldsPerRecord = len(header)
 	t := &Table{Schema: s, Cols: make([][]float64, len(s.Columns))}
+	for k, c := range s.Columns {
+		if c.Kind == Text {
+			if t.Text == nil {
+				t.Text = make([][]string, len(s.Columns))
+			}
+			t.Text[k] = []string{}
+		}
+	}
 	if size > 0 {
 		est := int(size/int64(8*len(header)+1)) + 16 // a field is rarely shorter than 7 characters
 		for k := range t.Cols {
@@ -147,6 +159,9 @@ func read(r io.Reader, s *Schema, name string, size int64) (*Table, error) {
 				return nil, &Error{File: name, Line: line, Column: s.Columns[k].Name, Msg: msg}
 			}
 			t.Cols[k] = append(t.Cols[k], v)
+			if s.Columns[k].Kind == Text {
+				t.Text[k] = append(t.Text[k], f) // the record slice is reused, its strings are not
+			}
 		}
 	}
 	if tail.n > 0 && tail.last != '\n' {
@@ -235,6 +250,12 @@ func csvError(name string, err error, got, want int) error {
 
 // parseField reads one field of column c; msg says why it cannot be used.
 func parseField(c *Column, f string) (v float64, msg string) {
+	if c.Kind == Text {
+		if c.Required && f == "" {
+			return 0, "the field is empty but a value is needed"
+		}
+		return math.NaN(), ""
+	}
 	f = strings.TrimSpace(f)
 	if c.Kind == Level {
 		for i, l := range c.Levels {

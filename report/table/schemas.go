@@ -197,31 +197,37 @@ var FitLevels = []string{"none", "centred", "edge", "short"}
 
 // Whitecaps is whitecaps.csv: one row per whitecap per frame.
 var Whitecaps = newSchema("whitecaps.csv", "whitecap rows", 0,
-	count("whitecap_id", "whitecap track identifier"),
-	number("time_s", "s", precTime, "time").required(),
-	count("frame", "frame index in the input record"),
-	number("x_m", "m", precPosition, "patch centroid x"),
-	number("y_m", "m", precPosition, "patch centroid y"),
-	number("front_along_m", "m", precPosition, "breaking front position along the mean direction"),
-	number("front_across_m", "m", precPosition, "breaking front position across the mean direction"),
-	number("front_length_m", "m", precPosition, "breaking front length across the mean direction").atLeast(0),
-	number("area_m2", "m2", precArea, "foam patch area").atLeast(0),
-	number("front_speed_mps", "m s-1", precSpeed, "breaking front speed c_br along the mean direction"),
-	Column{Name: "speed_fit", Units: "1", Long: "how the front speed was fitted", Kind: Level, Required: true, Levels: FitLevels},
-	number("phase_speed_peak_mps", "m s-1", precSpeed, "linear phase speed c_p at the spectral peak"),
-	number("phase_speed_local_mps", "m s-1", precSpeed, "linear phase speed c_loc of the parent crest"),
-	number("ratio_peak", "1", precRatio, "front speed ratio c_br/c_p"),
-	number("ratio_local", "1", precRatio, "front speed ratio c_br/c_loc"),
-	count("parent_track_id", "crest track the whitecap rides on (0: none)"),
-	number("parent_steepness_sc", "1", precRatio, "steepness S_c of the parent crest"),
+	count("whitecap_id", "whitecap track identifier").cf("whitecap_id", ""),
+	number("time_s", "s", precTime, "time").required().cf("time", "time"),
+	count("frame", "frame index in the input record").cf("frame", ""),
+	number("x_m", "m", precPosition, "patch centroid x").cf("x", ""),
+	number("y_m", "m", precPosition, "patch centroid y").cf("y", ""),
+	number("front_along_m", "m", precPosition, "breaking front position along the mean direction").cf("front_along", ""),
+	number("front_across_m", "m", precPosition, "breaking front position across the mean direction").cf("front_across", ""),
+	number("front_length_m", "m", precPosition, "breaking front length across the mean direction").atLeast(0).cf("front_length", ""),
+	number("area_m2", "m2", precArea, "foam patch area").atLeast(0).cf("area", ""),
+	number("front_speed_mps", "m s-1", precSpeed, "breaking front speed c_br along the mean direction").cf("front_speed", ""),
+	Column{Name: "speed_fit", Units: "1", Long: "how the front speed was fitted", Kind: Level, Required: true, Levels: FitLevels, NC: "speed_fit"},
+	number("phase_speed_peak_mps", "m s-1", precSpeed, "linear phase speed c_p at the spectral peak").cf("phase_speed_peak", ""),
+	number("phase_speed_local_mps", "m s-1", precSpeed, "linear phase speed c_loc of the parent crest").cf("phase_speed_local", ""),
+	number("ratio_peak", "1", precRatio, "front speed ratio c_br/c_p").cf("ratio_peak", ""),
+	number("ratio_local", "1", precRatio, "front speed ratio c_br/c_loc").cf("ratio_local", ""),
+	count("parent_track_id", "crest track the whitecap rides on (0: none)").cf("parent_track_id", ""),
+	number("parent_steepness_sc", "1", precRatio, "steepness S_c of the parent crest").cf("parent_steepness", ""),
 )
 
 // Positions of the columns of Whitecaps read by the report.
 var (
-	WhitecapID         = Whitecaps.must("whitecap_id")
-	WhitecapRatioPeak  = Whitecaps.must("ratio_peak")
-	WhitecapRatioLocal = Whitecaps.must("ratio_local")
-	WhitecapSteepness  = Whitecaps.must("parent_steepness_sc")
+	WhitecapID          = Whitecaps.must("whitecap_id")
+	WhitecapTime        = Whitecaps.must("time_s")
+	WhitecapFrame       = Whitecaps.must("frame")
+	WhitecapX           = Whitecaps.must("x_m")
+	WhitecapY           = Whitecaps.must("y_m")
+	WhitecapFrontLength = Whitecaps.must("front_length_m")
+	WhitecapFrontSpeed  = Whitecaps.must("front_speed_mps")
+	WhitecapRatioPeak   = Whitecaps.must("ratio_peak")
+	WhitecapRatioLocal  = Whitecaps.must("ratio_local")
+	WhitecapSteepness   = Whitecaps.must("parent_steepness_sc")
 )
 
 // Lambda is lambda.csv: the speed bins of Phillips's (1985) Λ(c),
@@ -258,6 +264,12 @@ var Coverage = newSchema("coverage.csv", "frames", 0,
 	count("foam_cells", "foam cells of known elevation"),
 	count("valid_cells", "cells of known elevation"),
 	number("area_m2", "m2", precArea, "known sea-surface area").atLeast(0),
+)
+
+// Positions of the columns of Coverage read by the report.
+var (
+	CoverageFrame = Coverage.must("frame")
+	CoverageArea  = Coverage.must("area_m2")
 )
 
 func init() { Coverage.Check = coverageRows }

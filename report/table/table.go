@@ -10,7 +10,8 @@
 // order of its Schema: whole numbers (counts, identifiers, 0/1 flags) as
 // whole float64 values, a column of named levels (whitecaps.csv's
 // speed_fit) as the index of the level, an unknown value as NaN (an empty
-// field in the file).
+// field in the file). A column of free text (the site names and UTC
+// times of deployments.csv) is held in Table.Text, its []float64 all NaN.
 //
 // # Precision
 //
@@ -48,6 +49,7 @@ const (
 	Count              // a whole number from 0 to 2147483647
 	Flag               // 0 or 1
 	Level              // one of the column's Levels, held as its index
+	Text               // free text, held in Table.Text
 )
 
 // Precision is how a number is written: Sig significant digits when Sig
@@ -83,7 +85,7 @@ type Column struct {
 	// Prec is the precision of a Number column.
 	Prec Precision
 	// Required columns may not be empty (Count, Flag and Level columns
-	// always are required).
+	// always are required; a Text column may be empty unless Required).
 	Required bool
 	// Min and Max bound a known value.
 	Min, Max float64
@@ -104,6 +106,11 @@ func count(name, long string) Column {
 	return Column{Name: name, Units: "1", Long: long, Kind: Count, Required: true, Min: 0, Max: 1<<31 - 1}
 }
 
+// text is an optional Text column.
+func text(name, long string) Column {
+	return Column{Name: name, Units: "1", Long: long, Kind: Text}
+}
+
 func (c Column) required() Column         { c.Required = true; return c }
 func (c Column) atLeast(v float64) Column { c.Min = v; return c }
 func (c Column) atMost(v float64) Column  { c.Max = v; return c }
@@ -111,9 +118,10 @@ func (c Column) cf(nc, std string) Column { c.NC, c.Standard = nc, std; return c
 
 // Append appends the text of v as the column writes it: empty for an
 // unknown value, a whole number, a level name, or a number at the
-// column's precision (never "-0").
+// column's precision (never "-0"). A Text column's text is in
+// Table.Text, not in v: Append writes nothing for it.
 func (c *Column) Append(dst []byte, v float64) []byte {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
+	if math.IsNaN(v) || math.IsInf(v, 0) || c.Kind == Text {
 		return dst
 	}
 	switch c.Kind {
@@ -234,9 +242,13 @@ func (s *Schema) Names() []string {
 type Table struct {
 	Schema *Schema
 	Cols   [][]float64
+	// Text holds the Text columns, Text[k] for column k (nil for the
+	// other columns, and nil altogether when the schema has none).
+	Text [][]string
 }
 
-// New returns a table of n rows, every value unknown (NaN).
+// New returns a table of n rows, every value unknown (NaN, or empty
+// text).
 func New(s *Schema, n int) *Table {
 	t := &Table{Schema: s, Cols: make([][]float64, len(s.Columns))}
 	for k := range t.Cols {
@@ -245,8 +257,22 @@ func New(s *Schema, n int) *Table {
 			col[i] = math.NaN()
 		}
 		t.Cols[k] = col
+		if s.Columns[k].Kind == Text {
+			if t.Text == nil {
+				t.Text = make([][]string, len(s.Columns))
+			}
+			t.Text[k] = make([]string, n)
+		}
 	}
 	return t
+}
+
+// TextCol returns the named Text column, nil if the schema has none.
+func (t *Table) TextCol(name string) []string {
+	if i := t.Schema.Index(name); i >= 0 && t.Text != nil {
+		return t.Text[i]
+	}
+	return nil
 }
 
 // Len is the number of rows.
@@ -286,5 +312,15 @@ func (t *Table) Permute(perm []int) {
 			tmp[i] = col[p]
 		}
 		copy(col, tmp)
+	}
+	for _, col := range t.Text {
+		if col == nil {
+			continue
+		}
+		txt := make([]string, len(perm))
+		for i, p := range perm {
+			txt[i] = col[p]
+		}
+		copy(col, txt)
 	}
 }
