@@ -261,18 +261,3 @@ func (g *GaugeSeries) Shifted(origin time.Time) []float64 {
 	}
 	return out
 }
-
-// TimeOriginOf returns the reference instant of CF time units ("seconds
-// since 2026-06-14T09:00:00Z"), zero when the units name none.
-func TimeOriginOf(units string) time.Time {
-	_, ref, err := parseTimeUnits(units)
-	if err != nil {
-		return time.Time{}
-	}
-	ref = strings.TrimSpace(strings.TrimPrefix(strings.TrimSpace(ref), "since"))
-	o, err := ParseInstant(ref)
-	if err != nil {
-		return time.Time{}
-	}
-	return o
-}

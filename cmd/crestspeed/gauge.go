@@ -57,7 +57,7 @@ func openGauge(gc GaugeConfig, meta ingest.ElevationMeta) (*openedGauge, error) 
 	if err != nil {
 		return nil, err
 	}
-	origin := ingest.TimeOriginOf(meta.TimeUnits)
+	origin, _ := ingest.TimeReference(meta.TimeUnits)
 	if !s.Origin.IsZero() && origin.IsZero() {
 		return nil, fmt.Errorf("gauge file %s gives UTC times but the maps' time axis has no reference instant; give the gauge's times as time_s on the maps' time base", gc.File)
 	}
