@@ -9,9 +9,11 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"testing"
 
 	"crestspeed/calib"
+	"crestspeed/internal/cvshim"
 )
 
 // testRig is a 640×512 two-camera rig 2.5 m apart, slightly toed in and
@@ -282,5 +284,112 @@ func TestOptionsValidate(t *testing.T) {
 		if err := o.Validate(); err == nil {
 			t.Errorf("%s: accepted", name)
 		}
+	}
+}
+
+// TestSeaSigma: σ_η of points whose heights about a known plane are
+// normal with σ = 0.2 m (plus a stereo error growing with the square of
+// the range, as the depth-error law σ_Z ∝ Z² has it, and 10 % gross
+// mismatches spread over ±8 m) is recovered. Reference: the normal
+// distribution. Of the mismatches about 0.75 % fall within the 3σ clip and
+// add about 1 % to the estimate, the stereo error in the nearer half
+// (≤ 0.017 m in quadrature) 0.4 %, and the estimate's standard error over
+// N = 50000 points, σ/√(2N), is 0.3 %: bound 3 %.
+func TestSeaSigma(t *testing.T) {
+	truth := calib.PlaneFromPose(12, 30, 0.5)
+	w, err := truth.World()
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(7, 8))
+	const sigma = 0.2
+	var pts [][3]float32
+	for i := 0; i < 100000; i++ {
+		x, y := 10+50*rng.Float64(), -20+40*rng.Float64()
+		R := math.Hypot(x, y)
+		z := sigma*rng.NormFloat64() + 0.05*(R/60)*(R/60)*rng.NormFloat64()
+		if i%10 == 0 {
+			z = -8 + 16*rng.Float64()
+		}
+		X := w.ToCamera([3]float64{x, y, z})
+		pts = append(pts, [3]float32{float32(X[0]), float32(X[1]), float32(X[2])})
+	}
+	got, n := SeaSigma(pts, truth, 10)
+	t.Logf("σ_η %.4f m from %d points (truth %.2f m)", got, n, sigma)
+	// Used: the nearer 50000, less the mismatches outside the clip (about
+	// 9.2 % of them).
+	if math.Abs(got/sigma-1) > 0.03 || n < 44000 || n > 46500 {
+		t.Errorf("σ_η %.4f m from %d points; want %.2f m within 3 %% from about 45400", got, n, sigma)
+	}
+	if s, n := SeaSigma(pts[:50], truth, 10); s != 0 || n != 0 {
+		t.Errorf("50 points gave σ_η %g from %d", s, n)
+	}
+}
+
+// TestStripsCoverTheSeaBand checks the strip plan against the camera
+// model: points of the water ±h about the mean plane, projected into both
+// cameras (calib's Brown–Conrady projection) and rectified, have residual
+// disparities (their disparity minus the plane's, over 1 − a) inside the
+// used range of the strip that keeps their row; the plan does less work
+// than one range over the whole image; and one strip with Band.Strips off.
+func TestStripsCoverTheSeaBand(t *testing.T) {
+	rig := testRig()
+	r, err := New(rig, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	const h = 0.9
+	if err := r.setBand(h, nil); err != nil {
+		t.Fatal(err)
+	}
+	st := r.Strips()
+	rc := r.Rectification()
+	w := r.World()
+	worst := math.Inf(1)
+	checked := 0
+	for x := 8.0; x <= 80; x += 0.5 {
+		for y := -40.0; y <= 40; y += 0.5 {
+			for _, z := range []float64{-h, 0, h} {
+				X := w.ToCamera([3]float64{x, y, z})
+				pl, okl := rc.RectifyLeft(rig.ProjectLeft(X))
+				pr, okr := rc.RectifyRight(rig.ProjectRight(X))
+				if !okl || !okr || pl[0] < 0 || pl[1] < 0 || pl[0] > float64(rig.Size.X-1) || pl[1] > float64(rig.Size.Y-1) || pr[0] < 0 || pr[0] > float64(rig.Size.X-1) {
+					continue
+				}
+				e := (pl[0] - pr[0] - r.PlaneDisparity(pl[0], pl[1])) / (1 - r.pa)
+				row := int(math.Round(pl[1]))
+				k := slices.IndexFunc(st, func(s cvshim.Strip) bool { return row >= s.Row0 && row < s.Row1 })
+				if k < 0 {
+					t.Fatalf("row %d (point %v) is in no strip %v", row, [3]float64{x, y, z}, st)
+				}
+				s := st[k]
+				lo, hi := float64(s.MinDisparity+1), float64(s.MinDisparity+s.NumDisparities-1)
+				worst = math.Min(worst, math.Min(e-lo, hi-e))
+				checked++
+			}
+		}
+	}
+	t.Logf("%d strips %v; %d points checked, closest to a range end %.2f px; work %.2f of one range", len(st), st, checked, worst, stripWork(st, rig.Size.Y))
+	if worst < 0.5 || checked < 1000 {
+		t.Errorf("a sea point lies %.2f px from its strip's range end (want ≥ 0.5 px for the matcher's noise)", worst)
+	}
+	if len(st) < 2 || stripWork(st, rig.Size.Y) >= 0.9 {
+		t.Errorf("the plan of %d strips does %.2f of the work of one range", len(st), stripWork(st, rig.Size.Y))
+	}
+	opt := DefaultOptions()
+	opt.Band.Strips = false
+	r1, err := New(rig, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r1.Close()
+	if err := r1.setBand(h, nil); err != nil {
+		t.Fatal(err)
+	}
+	one := r1.Strips()
+	minD, numD := unionRange(st)
+	if len(one) != 1 || one[0].Row0 != 0 || one[0].Row1 != rig.Size.Y || one[0].MinDisparity > minD || one[0].MinDisparity+one[0].NumDisparities < minD+numD {
+		t.Errorf("strips off: %v, want one strip over the image covering %d+%d", one, minD, numD)
 	}
 }

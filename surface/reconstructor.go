@@ -30,8 +30,11 @@ type Reconstructor struct {
 	world     calib.WorldFrame
 	qCam      [16]float64 // (u, v, disparity px, 1) → left camera frame
 	qWorld    [16]float64 // (u, v, disparity px, 1) → world frame
-	minD      int         // disparity search range, pixels
-	numD      int
+	// The matcher's strips and disparity ranges (residual about the
+	// plane's disparity when prewarped); bandM the half-width of the band
+	// of water heights they cover when the range is automatic.
+	strips    []cvshim.Strip
+	bandM     float64
 	autoRange bool
 	// Prewarp: the right image is sheared by the plane's disparity
 	// d_p = pa·u + pb·v + pc (see shearRightMap).
@@ -69,11 +72,17 @@ func New(rig *calib.Rig, opt Options) (*Reconstructor, error) {
 	}
 	r := &Reconstructor{rig: *rig, maps: maps, opt: opt}
 	r.rig.SeaPlane = nil
+	whole := func(minD, numD int) []cvshim.Strip {
+		return []cvshim.Strip{{Row0: 0, Row1: rig.Size.Y, MinDisparity: minD, NumDisparities: numD}}
+	}
 	if m := opt.Matcher; m.NumDisparities > 0 {
-		r.minD, r.numD = m.MinDisparity, m.NumDisparities
+		r.strips = whole(m.MinDisparity, m.NumDisparities)
 	} else {
+		// Until a plane is known: the sea at least about 4·f/W baselines
+		// away.
 		r.autoRange = true
-		r.minD, r.numD = 0, roundUp16(float64(rig.Size.X)/4)
+		r.strips = whole(0, roundUp16(float64(rig.Size.X)/4))
+		r.bandM = opt.ElevationMarginM
 	}
 	if err := r.checkRange(); err != nil {
 		maps.Close()
@@ -120,10 +129,25 @@ func (r *Reconstructor) SeaPlane() (calib.Plane, bool) { return r.plane, r.haveP
 // World returns the world frame of the sea plane (valid once a plane is set).
 func (r *Reconstructor) World() calib.WorldFrame { return r.world }
 
-// DisparityRange returns the disparity search range in pixels: the
-// smallest disparity and the number searched (of the residual disparity
-// about the plane's when prewarped; see [Reconstructor.Prewarped]).
-func (r *Reconstructor) DisparityRange() (minD, numD int) { return r.minD, r.numD }
+// DisparityRange returns the disparity search range in pixels over all
+// strips: the smallest disparity and the number searched (of the residual
+// disparity about the plane's when prewarped; see
+// [Reconstructor.Prewarped]).
+func (r *Reconstructor) DisparityRange() (minD, numD int) { return unionRange(r.strips) }
+
+// Strips returns the matcher's strips: the rows and disparity range of
+// each (see [cvshim.Strip]).
+func (r *Reconstructor) Strips() []cvshim.Strip { return append([]cvshim.Strip(nil), r.strips...) }
+
+// BandHalfWidth returns the half-width, metres, of the band of water
+// heights about the mean plane that the automatic disparity range covers
+// (0 for a configured range).
+func (r *Reconstructor) BandHalfWidth() float64 {
+	if !r.autoRange {
+		return 0
+	}
+	return r.bandM
+}
 
 // Prewarped reports whether the right image is sheared by the sea plane's
 // disparity before matching.
@@ -141,7 +165,11 @@ func (r *Reconstructor) Options() Options { return r.opt }
 // on, shears the right image's rectification map by the plane's disparity
 // (see [Reconstructor.PlaneDisparity]) so that the matcher searches only
 // the residual disparity of the waves about the plane.
-func (r *Reconstructor) SetSeaPlane(p calib.Plane) error {
+func (r *Reconstructor) SetSeaPlane(p calib.Plane) error { return r.setPlane(p, true) }
+
+// setPlane sets the plane; with band, it also plans the automatic
+// disparity range for it.
+func (r *Reconstructor) setPlane(p calib.Plane, band bool) error {
 	w, err := p.World()
 	if err != nil {
 		return fmt.Errorf("surface: %v", err)
@@ -152,15 +180,10 @@ func (r *Reconstructor) SetSeaPlane(p calib.Plane) error {
 	r.plane, r.world, r.havePlane = p, w, true
 	r.prewarp = r.autoRange && r.opt.Prewarp
 	r.pa, r.pb, r.pc = r.planeDisparity()
-	if r.autoRange {
-		minD, numD, err := r.seaRange()
-		if err != nil {
+	if r.autoRange && band {
+		if err := r.setBand(r.bandM, nil); err != nil {
 			return err
 		}
-		r.minD, r.numD = minD, numD
-	}
-	if err := r.checkRange(); err != nil {
-		return err
 	}
 	if r.prewarp {
 		if err := r.shearRightMap(); err != nil {
@@ -283,10 +306,41 @@ func (r *Reconstructor) shearRightMap() error {
 }
 
 func (r *Reconstructor) checkRange() error {
-	if r.numD >= r.rig.Size.X {
-		return fmt.Errorf("surface: the disparity search range %d–%d px is as wide as the %d px image; set max_range_m or a narrower range", r.minD, r.minD+r.numD, r.rig.Size.X)
+	for _, st := range r.strips {
+		if st.NumDisparities >= r.rig.Size.X {
+			return fmt.Errorf("surface: the disparity search range %d–%d px (rows %d–%d) is as wide as the %d px image; set max_range_m or a narrower range", st.MinDisparity, st.MinDisparity+st.NumDisparities, st.Row0, st.Row1, r.rig.Size.X)
+		}
 	}
 	return nil
+}
+
+// setBand sets the automatic disparity range for water within ±halfM of
+// the mean plane, over the pixels whose ground points ground accepts (all
+// that see the sea when nil).
+func (r *Reconstructor) setBand(halfM float64, ground func(x, y float64) bool) error {
+	st, err := r.planStrips(halfM, ground)
+	if err != nil {
+		return err
+	}
+	r.strips, r.bandM = st, halfM
+	return r.checkRange()
+}
+
+// setStrips sets the matcher's strips as given (from a settled geometry).
+func (r *Reconstructor) setStrips(st []cvshim.Strip, halfM float64) error {
+	if len(st) == 0 {
+		return fmt.Errorf("surface: the settled geometry has no disparity strips; settle the record again")
+	}
+	prev := 0
+	for _, s := range st {
+		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Row1 > r.rig.Size.Y || s.NumDisparities < 16 || s.NumDisparities%16 != 0 {
+			return fmt.Errorf("surface: the settled geometry's disparity strip rows %d–%d (from %d), range %d+%d px, does not fit the rig's %d×%d px images; settle the record again",
+				s.Row0, s.Row1, s.Top, s.MinDisparity, s.NumDisparities, r.rig.Size.X, r.rig.Size.Y)
+		}
+		prev = s.Row1
+	}
+	r.strips, r.bandM = append([]cvshim.Strip(nil), st...), halfM
+	return r.checkRange()
 }
 
 // roundUp16 rounds a positive width up to a multiple of 16 (at least 16).
@@ -307,58 +361,6 @@ func (r *Reconstructor) rectRay(u, v float64) [3]float64 {
 		cam[i] = rc.R1[i]*ray[0] + rc.R1[3+i]*ray[1] + rc.R1[6+i]*ray[2]
 	}
 	return r.world.DirectionToWorld(cam)
-}
-
-// seaRange finds the disparities of the planes ±ElevationMarginM about the
-// mean plane over the rectified image (every 4th pixel), limited to
-// MaxRangeM when set; when prewarped, the residual disparities about the
-// plane's.
-func (r *Reconstructor) seaRange() (minD, numD int, err error) {
-	rc := r.maps.Rectification
-	f, B := rc.FocalPx(), rc.BaselineM()
-	H := r.world.T[2]
-	hi := math.Min(r.opt.ElevationMarginM, 0.9*H)
-	lo := -r.opt.ElevationMarginM
-	dLo, dHi := math.Inf(1), math.Inf(-1)
-	maxR := r.opt.MaxRangeM
-	for v := 0; v < r.rig.Size.Y; v += 4 {
-		for u := 0; u < r.rig.Size.X; u += 4 {
-			d := r.rectRay(float64(u), float64(v))
-			horiz := math.Hypot(d[0], d[1])
-			if !(d[2] < 0) {
-				// Above the horizon: no sea here.
-				continue
-			}
-			tHi := (hi - H) / d[2]
-			if maxR > 0 && tHi*horiz > maxR {
-				continue
-			}
-			tLo := (lo - H) / d[2]
-			if maxR > 0 && tLo*horiz > maxR {
-				tLo = maxR / horiz
-			}
-			eHi, eLo := f*B/tHi, f*B/tLo
-			if r.prewarp {
-				dp := r.PlaneDisparity(float64(u), float64(v))
-				eHi, eLo = (eHi-dp)/(1-r.pa), (eLo-dp)/(1-r.pa)
-			}
-			dHi = math.Max(dHi, eHi)
-			dLo = math.Min(dLo, eLo)
-		}
-	}
-	if math.IsInf(dHi, -1) {
-		return 0, 0, fmt.Errorf("surface: no pixel of the rectified left image sees the sea within %g m; check the sea plane and max_range_m", maxR)
-	}
-	if maxR == 0 && !r.prewarp {
-		// Rays close to the horizon reach disparities near zero.
-		dLo = math.Max(0, dLo)
-	}
-	minD = int(math.Floor(dLo)) - 1
-	if !r.prewarp {
-		minD = max(minD, 0)
-	}
-	numD = roundUp16(math.Ceil(dHi) + 1 - float64(minD))
-	return minD, numD, nil
 }
 
 // SetGrid sets the output grid: regular, increasing axes of at least two
@@ -438,28 +440,21 @@ func (m *Map) Coverage() float64 {
 // owns a matcher and image buffers and is not safe for concurrent use:
 // make one per goroutine, and Close it.
 type Worker struct {
-	r    *Reconstructor
-	sgbm *cvshim.StereoSGBM
-	// Raw disparities (1/16 px) in [minValid, maxValid) are used: the
-	// search range without its two end pixels, where the matcher's cost
-	// minimum sits on the edge of the range (no sub-pixel fit; a match
-	// outside the range or in a region the other camera does not see).
-	minValid, maxValid int16
-	rectL              gocv.Mat
-	rectR              gocv.Mat
-	disp               gocv.Mat // raw matcher output, CV_16SC1, 1/16 px
-	dispF              gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
-	xyz                gocv.Mat
-	sum                []float64
-	foam               *FoamDetector // nil when foam detection is off
+	r     *Reconstructor
+	sm    *cvshim.StripMatcher
+	rectL gocv.Mat
+	rectR gocv.Mat
+	dispF gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
+	xyz   gocv.Mat
+	sum   []float64
+	foam  *FoamDetector // nil when foam detection is off
 	// Times accumulates the wall time of the worker's stages.
 	Times StageTimes
 }
 
-// NewWorker makes a worker for the current disparity range.
+// NewWorker makes a worker for the current disparity strips.
 func (r *Reconstructor) NewWorker() (*Worker, error) {
-	p := r.opt.Matcher.params(r.minD, r.numD)
-	s, err := cvshim.NewStereoSGBM(p)
+	s, err := cvshim.NewStripMatcher(r.opt.Matcher.params(0, 16), r.strips, r.opt.Matcher.LRCheck)
 	if err != nil {
 		return nil, fmt.Errorf("surface: %v", err)
 	}
@@ -471,20 +466,18 @@ func (r *Reconstructor) NewWorker() (*Worker, error) {
 		}
 	}
 	return &Worker{
-		r: r, sgbm: s, foam: det,
-		minValid: int16((r.minD + 1) * cvshim.DisparityScale),
-		maxValid: int16((r.minD + r.numD - 1) * cvshim.DisparityScale),
-		rectL:    gocv.NewMat(), rectR: gocv.NewMat(), disp: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
+		r: r, sm: s, foam: det,
+		rectL: gocv.NewMat(), rectR: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
 	}, nil
 }
 
 // Close releases the worker's matcher and buffers.
 func (w *Worker) Close() error {
-	if w.sgbm != nil {
-		w.sgbm.Close()
-		w.sgbm = nil
+	if w.sm != nil {
+		w.sm.Close()
+		w.sm = nil
 	}
-	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.disp, &w.dispF, &w.xyz} {
+	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.dispF, &w.xyz} {
 		if m.Ptr() != nil {
 			m.Close()
 			*m = gocv.Mat{}
@@ -493,8 +486,12 @@ func (w *Worker) Close() error {
 	return nil
 }
 
-// SGBMParams returns the matcher parameters the worker uses.
-func (w *Worker) SGBMParams() cvshim.SGBMParams { return w.sgbm.Params() }
+// SGBMParams returns the matcher parameters the worker uses, with the
+// disparity range over all its strips.
+func (w *Worker) SGBMParams() cvshim.SGBMParams {
+	minD, numD := unionRange(w.r.strips)
+	return w.r.opt.Matcher.params(minD, numD)
+}
 
 // checkPair checks a source pair against the rig.
 func (w *Worker) checkPair(left, right gocv.Mat) error {
@@ -530,24 +527,16 @@ func (w *Worker) Rectify(left, right gocv.Mat) error {
 // Rectified returns the worker's last rectified pair (owned by the worker).
 func (w *Worker) Rectified() (left, right gocv.Mat) { return w.rectL, w.rectR }
 
-// Match computes the disparity of the last rectified pair, with the
-// left-right check when configured.
+// Match computes the disparity of the last rectified pair, strip by strip,
+// with the left-right check when configured (see
+// [cvshim.StripMatcher.Compute]).
 func (w *Worker) Match() (cvshim.CheckStats, error) {
 	t0 := time.Now()
-	var st cvshim.CheckStats
-	var err error
+	tol := 0.0
 	if m := w.r.opt.Matcher; m.LRCheck {
-		st, err = w.sgbm.ComputeChecked(w.rectL, w.rectR, &w.disp, m.LRMaxDiffPx)
-	} else {
-		err = w.sgbm.Compute(w.rectL, w.rectR, &w.disp)
-		if err == nil {
-			st.ValidBefore = w.countValid()
-			st.ValidAfter = st.ValidBefore
-		}
+		tol = m.LRMaxDiffPx
 	}
-	if err == nil {
-		err = cvshim.DisparityToFloat(w.disp, w.minValid, w.maxValid, &w.dispF)
-	}
+	st, err := w.sm.Compute(w.rectL, w.rectR, &w.dispF, tol)
 	w.Times.Match += time.Since(t0)
 	if err != nil {
 		return st, fmt.Errorf("surface: %v", err)
@@ -555,29 +544,11 @@ func (w *Worker) Match() (cvshim.CheckStats, error) {
 	return st, nil
 }
 
-// Disparity returns the worker's last raw disparity map (CV_16SC1,
-// 1/16 px; values below (MinDisparity+1)·16 or from
-// (MinDisparity+NumDisparities−1)·16 up are not used), owned by the worker.
-func (w *Worker) Disparity() gocv.Mat { return w.disp }
-
 // DisparityPx returns the worker's last disparity map in pixels (CV_32FC1,
-// NaN where there is none or where it is not used), owned by the worker.
-// When prewarped it is the residual disparity about the plane's.
+// NaN where there is none, where it is not used and in rows outside the
+// strips), owned by the worker. When prewarped it is the residual
+// disparity about the plane's.
 func (w *Worker) DisparityPx() gocv.Mat { return w.dispF }
-
-func (w *Worker) countValid() int {
-	d, err := w.disp.DataPtrInt16()
-	if err != nil {
-		return 0
-	}
-	n := 0
-	for _, v := range d {
-		if v >= w.minValid && v < w.maxValid {
-			n++
-		}
-	}
-	return n
-}
 
 // reproject turns the last disparity map into 3-D points, in the world
 // frame or in the left camera's frame.
