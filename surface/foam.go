@@ -468,7 +468,7 @@ func (w *Worker) Foam(det *FoamDetector, dst []uint8) ([]uint8, FoamStats, error
 	votes := d.votes
 	clear(votes)
 	x0, y0, inv := r.gx0, r.gy0, 1/r.gd
-	zmax := float32(r.opt.MaxAbsElevationM)
+	zmax := float32(r.pointLimit())
 	cam := r.world.T
 	for v := 0; v < rows; v++ {
 		for u := 0; u < cols; u++ {

@@ -393,3 +393,78 @@ func TestStripsCoverTheSeaBand(t *testing.T) {
 		t.Errorf("strips off: %v, want one strip over the image covering %d+%d", one, minD, numD)
 	}
 }
+
+// TestMedianTest: the normalised median test (Westerweel & Scarano 2005,
+// Exp. Fluids 39) on a tilted plane of elevations with noise flags the
+// spikes put in it and nothing else; and one cell against the formula
+// worked by hand.
+func TestMedianTest(t *testing.T) {
+	const nx, ny = 40, 30
+	rng := rand.New(rand.NewPCG(9, 10))
+	eta := make([]float32, nx*ny)
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			eta[j*nx+i] = float32(0.05*float64(i) - 0.03*float64(j) + 0.005*rng.NormFloat64())
+		}
+	}
+	spikes := map[int]bool{5*nx + 7: true, 20*nx + 30: true, 21*nx + 30: true, 0: true}
+	for c := range spikes {
+		eta[c] += 0.8
+	}
+	eta[10*nx+10] = float32(math.NaN())
+	flags := make([]bool, len(eta))
+	n := medianTest(eta, nx, ny, 2, 0.02, flags)
+	for c, f := range flags {
+		if f != spikes[c] {
+			t.Errorf("cell (%d, %d): flagged %v, spike %v", c%nx, c/nx, f, spikes[c])
+		}
+	}
+	if n != len(spikes) {
+		t.Errorf("%d cells flagged, %d spikes", n, len(spikes))
+	}
+	// By hand: neighbours 1..8 (median 4.5, deviations 3.5 2.5 1.5 0.5
+	// 0.5 1.5 2.5 3.5, median 2), centre 11: |11 − 4.5| / (2 + 0.25) =
+	// 2.89, above 2.5 but not 3.
+	h := []float32{1, 2, 3, 4, 11, 5, 6, 7, 8}
+	f := make([]bool, 9)
+	for _, c := range []struct {
+		ratio float64
+		want  bool
+	}{{2.5, true}, {3, false}} {
+		medianTest(h, 3, 3, c.ratio, 0.25, f)
+		if f[4] != c.want {
+			t.Errorf("ratio %g: centre flagged %v, want %v", c.ratio, f[4], c.want)
+		}
+	}
+}
+
+// TestLargestComponent against a flood fill by hand on a small mask.
+func TestLargestComponent(t *testing.T) {
+	const nx, ny = 6, 5
+	rows := []string{
+		"11.0..",
+		"1..0.1",
+		"1.00.1",
+		"..0..1",
+		"000.11",
+	}
+	mask := make([]bool, nx*ny)
+	for j, r := range rows {
+		for i, ch := range r {
+			mask[j*nx+i] = ch != '.'
+		}
+	}
+	keep, i0, i1, j0, j1 := largestComponent(mask, nx, ny)
+	// The largest 4-connected set is the eight cells marked 0 (the 1s form
+	// sets of 4 and 5).
+	for j, r := range rows {
+		for i, ch := range r {
+			if keep[j*nx+i] != (ch == '0') {
+				t.Errorf("cell (%d, %d) kept %v", i, j, keep[j*nx+i])
+			}
+		}
+	}
+	if i0 != 0 || i1 != 4 || j0 != 0 || j1 != 5 {
+		t.Errorf("bounding box [%d, %d) × [%d, %d), want [0, 4) × [0, 5)", i0, i1, j0, j1)
+	}
+}

@@ -147,6 +147,13 @@ type Options struct {
 	// MaxAbsElevationM drops points farther than this from the mean plane
 	// as mismatches, metres (default 10).
 	MaxAbsElevationM float64 `yaml:"max_abs_elevation_m"`
+	// OutlierRatio is the threshold of the normalised median test that
+	// removes a cell whose elevation departs from its neighbours' (see
+	// medianTest; default 2, the value its authors recommend; 0 turns the
+	// test off), and OutlierNoiseM its noise level ε, metres (default
+	// 0.02 m, about the elevation error of a cell at mid-range).
+	OutlierRatio  float64 `yaml:"outlier_ratio"`
+	OutlierNoiseM float64 `yaml:"outlier_noise_m"`
 	// MinFrameCoverage skips a frame whose supported cells are fewer than
 	// this fraction of the grid's supported cells (default 0.1).
 	MinFrameCoverage float64 `yaml:"min_frame_coverage"`
@@ -181,6 +188,8 @@ func DefaultOptions() Options {
 		Prewarp:          true,
 		MinPoints:        3,
 		MaxAbsElevationM: 10,
+		OutlierRatio:     2,
+		OutlierNoiseM:    0.02,
 		MinFrameCoverage: 0.1,
 		Workers:          1,
 		Foam:             DefaultFoamOptions(),
@@ -223,6 +232,10 @@ func (o Options) Validate() error {
 		return fmt.Errorf("minimum points per cell %d is below 1", o.MinPoints)
 	case !(o.MaxAbsElevationM > 0) || !finite(o.MaxAbsElevationM):
 		return fmt.Errorf("maximum elevation %g m is not positive", o.MaxAbsElevationM)
+	case !(o.OutlierRatio >= 0 && o.OutlierRatio <= 100):
+		return fmt.Errorf("outlier ratio %g is outside 0–100 (2 usual; 0 turns the median test off)", o.OutlierRatio)
+	case !(o.OutlierNoiseM >= 0 && o.OutlierNoiseM <= 10):
+		return fmt.Errorf("outlier noise level %g m is outside 0–10 m", o.OutlierNoiseM)
 	case !(o.MinFrameCoverage >= 0 && o.MinFrameCoverage <= 1):
 		return fmt.Errorf("minimum frame coverage %g is outside 0–1", o.MinFrameCoverage)
 	case o.Plane.Frames < 1 || o.Plane.Frames > 10000:

@@ -405,7 +405,8 @@ type FrameStats struct {
 	Consistent int // left pixels with a disparity after it
 	Dropped    int // points dropped: beyond MaxAbsElevationM from the plane or beyond MaxRangeM
 	Gridded    int // points binned into grid cells
-	Cells      int // cells with at least MinPoints points
+	Cells      int // cells with an elevation: at least MinPoints points, not an outlier
+	Outliers   int // cells with MinPoints points whose elevation failed the median test
 }
 
 // Map is the elevation map of one pair.
@@ -447,6 +448,7 @@ type Worker struct {
 	dispF gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
 	xyz   gocv.Mat
 	sum   []float64
+	flags []bool
 	foam  *FoamDetector // nil when foam detection is off
 	// Times accumulates the wall time of the worker's stages.
 	Times StageTimes
@@ -640,7 +642,7 @@ func (w *Worker) forEachPoint(fn func(x, y, z float32)) (dropped int, err error)
 	if err != nil {
 		return 0, err
 	}
-	zmax := float32(w.r.opt.MaxAbsElevationM)
+	zmax := float32(w.r.pointLimit())
 	maxR2 := float32(w.r.opt.MaxRangeM * w.r.opt.MaxRangeM)
 	for i := 0; i+2 < len(p); i += 3 {
 		x, y, z := p[i], p[i+1], p[i+2]
@@ -736,7 +738,100 @@ func (w *Worker) bin(m *Map) error {
 		}
 	}
 	m.Stats.Dropped, m.Stats.Gridded, m.Stats.Cells = dropped, gridded, cells
+	m.Stats.Outliers = 0
+	if r.opt.OutlierRatio > 0 {
+		w.flags = resize(w.flags, n)
+		k := medianTest(m.Eta, nx, ny, r.opt.OutlierRatio, r.opt.OutlierNoiseM, w.flags)
+		for c, f := range w.flags {
+			if f {
+				m.Eta[c], m.Points[c] = nan, 0
+			}
+		}
+		m.Stats.Outliers = k
+		m.Stats.Cells -= k
+	}
 	return nil
+}
+
+// pointLimit is the distance from the mean plane beyond which a point is
+// a mismatch: MaxAbsElevationM, or the half-width of the automatic band
+// when smaller (the matcher finds water only within it, so points beyond
+// it are matches pressed against the end of its range).
+func (r *Reconstructor) pointLimit() float64 {
+	if r.autoRange && r.havePlane && r.bandM > 0 {
+		return math.Min(r.opt.MaxAbsElevationM, r.bandM)
+	}
+	return r.opt.MaxAbsElevationM
+}
+
+// medianTest flags (in flags, row-major ny×nx) the cells of eta whose
+// elevation departs from those of their neighbours by more than ratio
+// times the neighbours' own spread, and returns their number. Cells with
+// fewer than 3 neighbours with an elevation are not tested.
+//
+// Method: the normalised median test (Westerweel & Scarano 2005,
+// "Universal outlier detection for PIV data", Exp. Fluids 39): for a cell
+// of value u₀ with neighbours u_i (its 8-neighbourhood), u_m the median of
+// the u_i and r_m the median of |u_i − u_m|, the cell is an outlier when
+// |u₀ − u_m| / (r_m + ε) > ratio, ε the measurement noise (noiseM).
+func medianTest(eta []float32, nx, ny int, ratio, noiseM float64, flags []bool) int {
+	var nb, dev [8]float32
+	k := 0
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			c := j*nx + i
+			flags[c] = false
+			u0 := eta[c]
+			if u0 != u0 {
+				continue
+			}
+			n := 0
+			for dj := -1; dj <= 1; dj++ {
+				jj := j + dj
+				if jj < 0 || jj >= ny {
+					continue
+				}
+				for di := -1; di <= 1; di++ {
+					ii := i + di
+					if (di == 0 && dj == 0) || ii < 0 || ii >= nx {
+						continue
+					}
+					if v := eta[jj*nx+ii]; v == v {
+						nb[n] = v
+						n++
+					}
+				}
+			}
+			if n < 3 {
+				continue
+			}
+			um := median8(nb[:n])
+			for q := 0; q < n; q++ {
+				dev[q] = float32(math.Abs(float64(nb[q] - um)))
+			}
+			rm := median8(dev[:n])
+			if math.Abs(float64(u0-um)) > ratio*(float64(rm)+noiseM) {
+				flags[c] = true
+				k++
+			}
+		}
+	}
+	return k
+}
+
+// median8 returns the median of up to 8 values, reordering them
+// (insertion sort).
+func median8(a []float32) float32 {
+	for i := 1; i < len(a); i++ {
+		for j := i; j > 0 && a[j] < a[j-1]; j-- {
+			a[j], a[j-1] = a[j-1], a[j]
+		}
+	}
+	n := len(a)
+	if n%2 == 1 {
+		return a[n/2]
+	}
+	return (a[n/2-1] + a[n/2]) / 2
 }
 
 func resize[T any](s []T, n int) []T {
