@@ -40,3 +40,7 @@ func SetDisparityPx(w *Worker, d []float32) error {
 	copy(p, d)
 	return nil
 }
+
+// StripWork is the matcher's work of a strip plan relative to one range
+// over the whole image.
+func StripWork(st []cvshim.Strip, rows int) float64 { return stripWork(st, rows) }

@@ -80,7 +80,7 @@ func (s *filePairs) SeekIndex(i int) error {
 func (s *filePairs) PairNames(i int) (string, string) { return s.left[i], s.right[i] }
 
 // deploymentPairs lists the frames of a rendered deployment.
-func deploymentPairs(t *testing.T, dir string, frames int, fps float64) (left, right []string, times []float64) {
+func deploymentPairs(t testing.TB, dir string, frames int, fps float64) (left, right []string, times []float64) {
 	fd := filepath.Join(dir, samples.DeploymentFramesDir)
 	for i := 0; i < frames; i++ {
 		tt := float64(i) / fps
