@@ -75,10 +75,14 @@
 // # Sea state
 //
 // The standard deviation σ_η of the sea-surface elevation is measured on
-// the points of the sampled pairs about the mean plane ([SeaSigma]): 1.4826
-// times the median absolute deviation of their heights (robust to the
-// matcher's outliers), over the nearer half of the points, where the
-// stereo error adds least to the sea's own spread.
+// the points of the sampled pairs about the mean plane ([SeaSigma]): the
+// standard deviation of their heights after the matcher's gross outliers
+// are clipped at 3 robust standard deviations (1.4826 times the median
+// absolute deviation). The stereo error adds to it, which errs on the
+// wide side for the band; a footprint smaller than the longest waves, or a
+// record shorter than their period, shows less than the sea's variance,
+// so the band of such records should be given a wider Band.MarginM (or
+// Band.Sigmas 0, the band ±ElevationMarginM).
 //
 // # Prewarp
 //

@@ -229,45 +229,29 @@ func (r *Reconstructor) gridGround() func(x, y float64) bool {
 // SeaSigma returns the standard deviation of the sea-surface elevation
 // measured on stereo points (in the left camera's frame) about the mean
 // plane p, and the number of points used. The heights above the plane of
-// the nearer half of the points within maxAbsM of it (by distance from the
-// camera, where the stereo error, which grows as the square of the range,
-// adds least to the sea's own spread) give a first scale, 1.4826 times
-// their median absolute deviation from the median (Hampel 1974, "The
-// influence curve and its role in robust estimation", JASA 69; the factor
-// makes it the standard deviation of a normal distribution); the result
-// is the standard deviation of the heights within 3 of those scales of the
+// the points within maxAbsM of it give a first scale, 1.4826 times their
+// median absolute deviation from the median (Hampel 1974, "The influence
+// curve and its role in robust estimation", JASA 69; the factor makes it
+// the standard deviation of a normal distribution); the result is the
+// standard deviation of the heights within 3 of those scales of the
 // median (sigma clipping, common practice, which drops the matcher's gross
 // outliers), divided by √0.97334 for the part of a normal distribution the
 // clipping removes (the variance of a standard normal truncated at ±3 is
-// 1 − 6φ(3)/(2Φ(3) − 1) = 0.97334). It returns 0 for fewer than 100
-// points.
+// 1 − 6φ(3)/(2Φ(3) − 1) = 0.97334). The stereo error of the points adds to
+// it in quadrature, which errs on the wide side for the disparity band.
+// Over a footprint smaller than the longest waves, or pairs spanning less
+// than their period, it measures only the part of the sea's variance those
+// resolve. It returns 0 for fewer than 200 points.
 func SeaSigma(points [][3]float32, p calib.Plane, maxAbsM float64) (float64, int) {
-	type hd struct{ h, d float64 }
-	v := make([]hd, 0, len(points))
+	hs := make([]float64, 0, len(points))
 	for _, q := range points {
-		X := [3]float64{float64(q[0]), float64(q[1]), float64(q[2])}
-		h := p.Height(X)
-		if !(math.Abs(h) <= maxAbsM) {
-			continue
+		h := p.Height([3]float64{float64(q[0]), float64(q[1]), float64(q[2])})
+		if math.Abs(h) <= maxAbsM {
+			hs = append(hs, h)
 		}
-		v = append(v, hd{h, X[0]*X[0] + X[1]*X[1] + X[2]*X[2]})
 	}
-	if len(v) < 200 {
+	if len(hs) < 200 {
 		return 0, 0
-	}
-	slices.SortFunc(v, func(a, b hd) int {
-		switch {
-		case a.d < b.d:
-			return -1
-		case a.d > b.d:
-			return 1
-		}
-		return 0
-	})
-	near := v[:len(v)/2]
-	hs := make([]float64, len(near))
-	for i, x := range near {
-		hs[i] = x.h
 	}
 	slices.Sort(hs)
 	med := median(hs)
