@@ -43,7 +43,8 @@ const (
 // left pixel (u, v) for water between hLo and hHi metres about the mean
 // plane: residual ones when prewarped. ok is false when the pixel does not
 // see the sea (above the horizon, or beyond MaxRangeM at the crest
-// height). ground, when not nil, is told the pixel's ground points at the
+// height) or when its match lies left of the right image for all heights
+// of the band. ground, when not nil, is told the pixel's ground points at the
 // three heights hLo, 0 and hHi and may reject the pixel.
 func (r *Reconstructor) pixelBand(u, v, hLo, hHi float64, ground func(x, y float64) bool) (lo, hi float64, ok bool) {
 	rc := r.maps.Rectification
@@ -78,6 +79,10 @@ func (r *Reconstructor) pixelBand(u, v, hLo, hHi float64, ground func(x, y float
 		}
 	}
 	eHi, eLo := f*B/tHi, f*B/tLo
+	if u-eLo < 0 {
+		// Even the lowest water is matched left of the right image.
+		return 0, 0, false
+	}
 	if r.prewarp {
 		dp := r.PlaneDisparity(u, v)
 		eHi, eLo = (eHi-dp)/(1-r.pa), (eLo-dp)/(1-r.pa)
@@ -91,6 +96,7 @@ func (r *Reconstructor) pixelBand(u, v, hLo, hHi float64, ground func(x, y float
 // blockBand is the band of one block of stripBlockRows rows.
 type blockBand struct {
 	lo, hi float64
+	col0   int // first column with a pixel that sees the sea kept
 	ok     bool
 }
 
@@ -122,10 +128,11 @@ func (r *Reconstructor) rangeOf(lo, hi float64) (minD, numD int) {
 // band is the union of pixelBand over its pixels (every 4th pixel and
 // row). Blocks that see none of the sea kept are left out at the top and
 // bottom; the rest are partitioned into strips by dynamic programming
-// (common practice) minimising Σ rows·(disparities + 16) + a fixed cost
+// (common practice) minimising Σ pixels·(disparities + 16) + a fixed cost
 // per strip, the matcher's work being about proportional to pixels times
 // disparities plus a part per pixel; each strip also matches the block
-// above its kept rows.
+// above its kept rows, and only the columns from a little left of the
+// first one whose pixels can be matched in the right image.
 func (r *Reconstructor) planStrips(halfM float64, ground func(x, y float64) bool) ([]cvshim.Strip, error) {
 	W, H := r.rig.Size.X, r.rig.Size.Y
 	hHi := math.Min(halfM, 0.9*r.world.T[2])
@@ -133,7 +140,7 @@ func (r *Reconstructor) planStrips(halfM float64, ground func(x, y float64) bool
 	blocks := make([]blockBand, nb)
 	for b := range blocks {
 		v0, v1 := b*stripBlockRows, min((b+1)*stripBlockRows, H)
-		bb := blockBand{lo: math.Inf(1), hi: math.Inf(-1)}
+		bb := blockBand{lo: math.Inf(1), hi: math.Inf(-1), col0: W}
 		for v := v0; v < v1; v += 4 {
 			for _, vv := range []int{v, min(v+3, v1-1)} {
 				for u := 0; u < W; u += 4 {
@@ -144,6 +151,7 @@ func (r *Reconstructor) planStrips(halfM float64, ground func(x, y float64) bool
 						}
 						bb.ok = true
 						bb.lo, bb.hi = math.Min(bb.lo, lo), math.Max(bb.hi, hi)
+						bb.col0 = min(bb.col0, max(uu-4, 0))
 					}
 				}
 			}
@@ -162,18 +170,26 @@ func (r *Reconstructor) planStrips(halfM float64, ground func(x, y float64) bool
 	strip := func(i, j int) cvshim.Strip {
 		top := max(i-stripOverlapBlocks, 0)
 		lo, hi := math.Inf(1), math.Inf(-1)
+		c0 := W
 		for b := top; b < j; b++ {
 			if blocks[b].ok {
 				lo, hi = math.Min(lo, blocks[b].lo), math.Max(hi, blocks[b].hi)
+				c0 = min(c0, blocks[b].col0)
 			}
 		}
 		minD, numD := r.rangeOf(lo, hi)
 		r0, r1 := rows(i, j)
-		return cvshim.Strip{Row0: r0, Row1: r1, Top: top * stripBlockRows, MinDisparity: minD, NumDisparities: numD}
+		// The matcher leaves the first max(0, minD + numD) columns it is
+		// given without a disparity, and its left-to-right paths need a
+		// few more to build up: start that far left of the first column
+		// that sees the sea kept.
+		lead := max(0, minD+numD) + r.opt.Matcher.BlockSize + stripBlockRows
+		col0 := min(max(0, c0-lead), max(0, W-numD-16))
+		return cvshim.Strip{Row0: r0, Row1: r1, Top: top * stripBlockRows, Col0: col0, MinDisparity: minD, NumDisparities: numD}
 	}
 	if !r.opt.Band.Strips {
 		s := strip(0, nb)
-		s.Row0, s.Row1, s.Top = 0, H, 0
+		s.Row0, s.Row1, s.Top, s.Col0 = 0, H, 0, 0
 		return []cvshim.Strip{s}, nil
 	}
 	n := last - first + 1
@@ -186,7 +202,7 @@ func (r *Reconstructor) planStrips(halfM float64, ground func(x, y float64) bool
 		best[k] = math.Inf(1)
 		for s := k - 1; s >= 0 && k-s <= maxBlocks; s-- {
 			st := strip(first+s, first+k)
-			matched := float64(st.Row1 - st.Top)
+			matched := float64(st.Row1-st.Top) * float64(W-st.Col0) / float64(W)
 			c := best[s] + matched*float64(st.NumDisparities+stripPixelCost) + stripFixedCost
 			if c < best[k] {
 				best[k], from[k] = c, s
@@ -214,12 +230,12 @@ func unionRange(strips []cvshim.Strip) (minD, numD int) {
 
 // stripWork returns the matcher's work of a strip plan relative to one
 // strip over the whole image with the plan's union range, by the cost
-// model of planStrips.
-func stripWork(strips []cvshim.Strip, rows int) float64 {
+// model of planStrips, for images of cols × rows pixels.
+func stripWork(strips []cvshim.Strip, cols, rows int) float64 {
 	_, numD := unionRange(strips)
 	var w float64
 	for _, s := range strips {
-		w += float64(s.Row1-s.Top) * float64(s.NumDisparities+stripPixelCost)
+		w += float64(s.Row1-s.Top) * float64(cols-s.Col0) * float64(s.NumDisparities+stripPixelCost)
 	}
-	return w / (float64(rows) * float64(numD+stripPixelCost))
+	return w / (float64(rows) * float64(cols) * float64(numD+stripPixelCost))
 }

@@ -365,7 +365,7 @@ func benchVersus(b *testing.B, size image.Point) {
 	minD, numD := rec.DisparityRange()
 	b.Logf("%v: σ_η %.3f m, band ±%.2f m, %d strips %v (union %d+%d px, work %.2f of one range); plain range 0–%d px; grid %d × %d of %g m",
 		size, geom.SeaSigmaM, geom.Band.HalfWidthM, len(geom.Band.Strips), geom.Band.Strips, minD, numD,
-		surface.StripWork(geom.Band.Strips, rig.Size.Y), params.NumDisparities-1, geom.Grid.Nx(), geom.Grid.Ny(), geom.Grid.Dx())
+		surface.StripWork(geom.Band.Strips, rig.Size.X, rig.Size.Y), params.NumDisparities-1, geom.Grid.Nx(), geom.Grid.Ny(), geom.Grid.Dx())
 	cv2 := func() plainTiming {
 		var pt plainTiming
 		pyref.JSON(b, plainTimingScript, map[string]any{"dir": tmp, "n": n, "params": params, "reps": 2, "threads": runtime.NumCPU()}, &pt)

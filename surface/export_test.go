@@ -43,4 +43,4 @@ func SetDisparityPx(w *Worker, d []float32) error {
 
 // StripWork is the matcher's work of a strip plan relative to one range
 // over the whole image.
-func StripWork(st []cvshim.Strip, rows int) float64 { return stripWork(st, rows) }
+func StripWork(st []cvshim.Strip, cols, rows int) float64 { return stripWork(st, cols, rows) }

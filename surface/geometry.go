@@ -69,6 +69,7 @@ type stripEntry struct {
 	Row0           int `yaml:"row0"`
 	Row1           int `yaml:"row1"`
 	Top            int `yaml:"top"`
+	Col0           int `yaml:"col0"`
 	MinDisparity   int `yaml:"min_disparity"`
 	NumDisparities int `yaml:"num_disparities"`
 }

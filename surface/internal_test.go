@@ -330,7 +330,8 @@ func TestSeaSigma(t *testing.T) {
 // model: points of the water ±h about the mean plane, projected into both
 // cameras (calib's Brown–Conrady projection) and rectified, have residual
 // disparities (their disparity minus the plane's, over 1 − a) inside the
-// used range of the strip that keeps their row; the plan does less work
+// used range of the strip that keeps their row, right of the columns it
+// leaves unmatched; the plan does less work
 // than one range over the whole image; and one strip with Band.Strips off.
 func TestStripsCoverTheSeaBand(t *testing.T) {
 	rig := testRig()
@@ -364,18 +365,23 @@ func TestStripsCoverTheSeaBand(t *testing.T) {
 					t.Fatalf("row %d (point %v) is in no strip %v", row, [3]float64{x, y, z}, st)
 				}
 				s := st[k]
+				// The matcher leaves the first max(0, min + num) columns of
+				// a strip without a disparity.
+				if first := s.Col0 + max(0, s.MinDisparity+s.NumDisparities); pl[0] < float64(first) {
+					t.Fatalf("point %v at column %.1f lies left of strip %v's first matched column %d", [3]float64{x, y, z}, pl[0], s, first)
+				}
 				lo, hi := float64(s.MinDisparity+1), float64(s.MinDisparity+s.NumDisparities-1)
 				worst = math.Min(worst, math.Min(e-lo, hi-e))
 				checked++
 			}
 		}
 	}
-	t.Logf("%d strips %v; %d points checked, closest to a range end %.2f px; work %.2f of one range", len(st), st, checked, worst, stripWork(st, rig.Size.Y))
+	t.Logf("%d strips %v; %d points checked, closest to a range end %.2f px; work %.2f of one range", len(st), st, checked, worst, stripWork(st, rig.Size.X, rig.Size.Y))
 	if worst < 0.5 || checked < 1000 {
 		t.Errorf("a sea point lies %.2f px from its strip's range end (want ≥ 0.5 px for the matcher's noise)", worst)
 	}
-	if len(st) < 2 || stripWork(st, rig.Size.Y) >= 0.9 {
-		t.Errorf("the plan of %d strips does %.2f of the work of one range", len(st), stripWork(st, rig.Size.Y))
+	if len(st) < 2 || stripWork(st, rig.Size.X, rig.Size.Y) >= 0.9 {
+		t.Errorf("the plan of %d strips does %.2f of the work of one range", len(st), stripWork(st, rig.Size.X, rig.Size.Y))
 	}
 	opt := DefaultOptions()
 	opt.Band.Strips = false

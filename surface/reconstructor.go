@@ -333,7 +333,8 @@ func (r *Reconstructor) setStrips(st []cvshim.Strip, halfM float64) error {
 	}
 	prev := 0
 	for _, s := range st {
-		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Row1 > r.rig.Size.Y || s.NumDisparities < 16 || s.NumDisparities%16 != 0 {
+		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Row1 > r.rig.Size.Y || s.NumDisparities < 16 || s.NumDisparities%16 != 0 ||
+			s.Col0 < 0 || s.Col0+s.NumDisparities+16 > r.rig.Size.X {
 			return fmt.Errorf("surface: the settled geometry's disparity strip rows %d–%d (from %d), range %d+%d px, does not fit the rig's %d×%d px images; settle the record again",
 				s.Row0, s.Row1, s.Top, s.MinDisparity, s.NumDisparities, r.rig.Size.X, r.rig.Size.Y)
 		}

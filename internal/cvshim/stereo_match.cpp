@@ -238,6 +238,9 @@ char *cs_strips_new(cs_sgbm_params p, const cs_strip *strips, int n, int lr_chec
 				if (s.top < 0 || s.top > s.row0 || s.row0 >= s.row1 || s.row0 < prev) {
 					throw std::invalid_argument("strip rows are not increasing and disjoint");
 				}
+				if (s.col0 < 0) {
+					throw std::invalid_argument("a strip's first column is negative");
+				}
 				if (s.num_disparities < 16 || s.num_disparities % 16 != 0) {
 					throw std::invalid_argument("a strip's number of disparities is not a positive multiple of 16");
 				}
@@ -279,8 +282,8 @@ namespace {
 void matchStrip(cs_strip_matcher &sm, bool lrCheck, const cv::Mat &l, const cv::Mat &r, cv::Mat &out,
                 int maxDiff16) {
 	const cs_strip &s = sm.s;
-	const cv::Range rows(s.top, s.row1);
-	const cv::Mat lr = l.rowRange(rows), rr = r.rowRange(rows);  // headers, no copy
+	const cv::Rect roi(s.col0, s.top, l.cols - s.col0, s.row1 - s.top);
+	const cv::Mat lr = l(roi), rr = r(roi);  // headers, no copy
 	sm.left->compute(lr, rr, sm.dispLeft);
 	if (lrCheck) {
 		sm.right->compute(rr, lr, sm.dispRight);
@@ -288,7 +291,7 @@ void matchStrip(cs_strip_matcher &sm, bool lrCheck, const cv::Mat &l, const cv::
 			throw std::runtime_error("StereoSGBM returned an unexpected disparity type");
 		}
 	}
-	if (sm.dispLeft.type() != CV_16SC1 || sm.dispLeft.rows != s.row1 - s.top || sm.dispLeft.cols != out.cols) {
+	if (sm.dispLeft.type() != CV_16SC1 || sm.dispLeft.rows != s.row1 - s.top || sm.dispLeft.cols != out.cols - s.col0) {
 		throw std::runtime_error("StereoSGBM returned an unexpected disparity type");
 	}
 	const int minValidL = s.min_disparity * 16;
@@ -296,12 +299,16 @@ void matchStrip(cs_strip_matcher &sm, bool lrCheck, const cv::Mat &l, const cv::
 	const int useLo = (s.min_disparity + 1) * 16, useHi = (s.min_disparity + s.num_disparities - 1) * 16;
 	const float nan = std::numeric_limits<float>::quiet_NaN();
 	const float scale = 1.0f / 16;
-	const int cols = out.cols;
+	const int cols = out.cols - s.col0;  // of the strip
 	int before = 0, after = 0;
 	for (int y = s.row0; y < s.row1; y++) {
 		const short *pl = sm.dispLeft.ptr<short>(y - s.top);
 		const short *pr = lrCheck ? sm.dispRight.ptr<short>(y - s.top) : nullptr;
-		float *po = out.ptr<float>(y);
+		float *row = out.ptr<float>(y);
+		for (int x = 0; x < s.col0; x++) {
+			row[x] = nan;
+		}
+		float *po = row + s.col0;
 		for (int x = 0; x < cols; x++) {
 			const int dl = pl[x];
 			po[x] = nan;
@@ -346,6 +353,11 @@ char *cs_strips_compute(cs_strips *m, void *left, void *right, void *disp, int m
 		checkPair(l, r);
 		if (m->strips.back().s.row1 > l.rows) {
 			throw std::invalid_argument("the strips reach below the image");
+		}
+		for (const cs_strip_matcher &sm : m->strips) {
+			if (sm.s.col0 + sm.s.num_disparities + 16 > l.cols) {
+				throw std::invalid_argument("a strip's first column leaves too few columns to match");
+			}
 		}
 		d.create(l.size(), CV_32FC1);
 		// Rows of no strip.

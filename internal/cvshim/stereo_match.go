@@ -246,10 +246,11 @@ func NumThreads() (int, error) {
 // Strip is one horizontal strip of a [StripMatcher]: its disparities are
 // kept for the rows [Row0, Row1) and computed on the rows [Top, Row1)
 // (Top ≤ Row0: the rows above Row0 let the matcher's top-down paths build
-// up before the rows kept), over the disparities [MinDisparity,
+// up before the rows kept) and the columns from Col0 on (those left of it
+// are not matched), over the disparities [MinDisparity,
 // MinDisparity+NumDisparities) in whole pixels.
 type Strip struct {
-	Row0, Row1, Top              int
+	Row0, Row1, Top, Col0        int
 	MinDisparity, NumDisparities int
 }
 
@@ -282,11 +283,11 @@ func NewStripMatcher(base SGBMParams, strips []Strip, lrCheck bool) (*StripMatch
 		if err := p.Validate(); err != nil {
 			return nil, fmt.Errorf("strip %d (rows %d–%d): %v", i, s.Row0, s.Row1, err)
 		}
-		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev {
-			return nil, fmt.Errorf("strip %d has rows %d–%d from row %d; strips must run top to bottom without overlapping kept rows", i, s.Row0, s.Row1, s.Top)
+		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Col0 < 0 {
+			return nil, fmt.Errorf("strip %d has rows %d–%d from row %d and columns from %d; strips must run top to bottom without overlapping kept rows", i, s.Row0, s.Row1, s.Top, s.Col0)
 		}
 		prev = s.Row1
-		cs[i] = C.cs_strip{row0: C.int(s.Row0), row1: C.int(s.Row1), top: C.int(s.Top),
+		cs[i] = C.cs_strip{row0: C.int(s.Row0), row1: C.int(s.Row1), top: C.int(s.Top), col0: C.int(s.Col0),
 			min_disparity: C.int(s.MinDisparity), num_disparities: C.int(s.NumDisparities)}
 	}
 	cp := C.cs_sgbm_params{
@@ -347,6 +348,11 @@ func (s *StripMatcher) Compute(left, right gocv.Mat, disp *gocv.Mat, maxDiffPx f
 	}
 	if last := s.strips[len(s.strips)-1]; last.Row1 > left.Rows() {
 		return CheckStats{}, fmt.Errorf("the strips reach row %d of a %d-row image", last.Row1, left.Rows())
+	}
+	for _, st := range s.strips {
+		if st.Col0+st.NumDisparities+16 > left.Cols() {
+			return CheckStats{}, fmt.Errorf("a strip matched from column %d over %d disparities does not fit a %d-column image", st.Col0, st.NumDisparities, left.Cols())
+		}
 	}
 	var before, after C.int
 	err := call(C.cs_strips_compute(s.p, unsafe.Pointer(left.Ptr()), unsafe.Pointer(right.Ptr()),

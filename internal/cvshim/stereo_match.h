@@ -84,12 +84,14 @@ char *cs_reproject(void *disp, const double *Q, void *xyz);
  * cs_strip is one strip: its disparities are written for the rows
  * [row0, row1) and computed on the rows [top, row1) (top <= row0: the rows
  * above row0 let the matcher's top-down paths build up before the rows
- * kept), searched over [min_disparity, min_disparity + num_disparities).
+ * kept) and the columns [col0, width), searched over [min_disparity,
+ * min_disparity + num_disparities). Columns left of col0 are NaN.
  */
 typedef struct {
 	int row0;
 	int row1;
 	int top;
+	int col0;
 	int min_disparity;
 	int num_disparities;
 } cs_strip;

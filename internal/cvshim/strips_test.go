@@ -31,7 +31,8 @@ for s in d['strips']:
         blockSize=p['BlockSize'], P1=p['P1'], P2=p['P2'], disp12MaxDiff=p['Disp12MaxDiff'],
         preFilterCap=p['PreFilterCap'], uniquenessRatio=p['UniquenessRatio'],
         speckleWindowSize=p['SpeckleWindowSize'], speckleRange=p['SpeckleRange'], mode=p['Mode'])
-    l, r = np.ascontiguousarray(L[s['Top']:s['Row1']]), np.ascontiguousarray(R[s['Top']:s['Row1']])
+    c0 = s['Col0']
+    l, r = np.ascontiguousarray(L[s['Top']:s['Row1'], c0:]), np.ascontiguousarray(R[s['Top']:s['Row1'], c0:])
     dl = m.compute(l, r).astype(np.int32)
     if d['lr']:
         dr = cv2.ximgproc.createRightMatcher(m).compute(r, l).astype(np.int32)
@@ -40,15 +41,18 @@ for s in d['strips']:
         drv = np.take_along_axis(dr, np.clip(xr, 0, dl.shape[1] - 1), axis=1)
         ok = (dl >= minD * 16) & inside & (drv >= (-(minD + num) + 1) * 16) & (np.abs(dl + drv) <= int(round(d['tol'] * 16)))
         dl = np.where(ok, dl, (minD - 1) * 16)
-    out.append(dl[s['Row0'] - s['Top']:])
+    full = np.full((dl.shape[0], L.shape[1]), -32768, np.int32)
+    full[:, c0:] = dl
+    out.append(full[s['Row0'] - s['Top']:])
 np.concatenate(out).astype('<i2').tofile(d['dir'] + '/strips.bin')
 print('{}')
 `
 
 // TestStripMatcherAgainstCV2: strip matching of the Aloe pair gives, in
 // each strip's kept rows, exactly what cv2.StereoSGBM gives on those rows
-// alone with the strip's range (with and without the left-right check),
-// converted to pixels with the end pixels of the range left out; rows of
+// alone (and the columns from the strip's first one, NaN left of it) with
+// the strip's range (with and without the left-right check), converted to
+// pixels with the end pixels of the range left out; rows of
 // no strip are NaN; and one strip over the whole image is exactly
 // ComputeChecked followed by DisparityToFloat.
 func TestStripMatcherAgainstCV2(t *testing.T) {
@@ -62,7 +66,7 @@ func TestStripMatcherAgainstCV2(t *testing.T) {
 	// third strip; rows below the last strip unmatched.
 	strips := []cvshim.Strip{
 		{Row0: 0, Row1: 300, Top: 0, MinDisparity: 32, NumDisparities: 192},
-		{Row0: 300, Row1: 620, Top: 284, MinDisparity: 16, NumDisparities: 208},
+		{Row0: 300, Row1: 620, Top: 284, Col0: 150, MinDisparity: 16, NumDisparities: 208},
 		{Row0: 700, Row1: 1000, Top: 668, MinDisparity: 40, NumDisparities: 176},
 	}
 	for _, lr := range []bool{false, true} {
