@@ -34,7 +34,11 @@
 //     elevation is the mean z of its points when it holds at least
 //     MinPoints of them, NaN otherwise (no interpolation). The number of
 //     points per cell is kept as a quality measure. Points farther than
-//     MaxAbsElevationM from the plane are taken for mismatches and dropped.
+//     MaxAbsElevationM from the plane, or than the half-width of the
+//     automatic disparity band (see below), are taken for mismatches and
+//     dropped. Optionally (OutlierRatio) cells that fail the normalised
+//     median test against their neighbours (Westerweel & Scarano 2005,
+//     Exp. Fluids 39) are set to NaN.
 //
 // # Settling a record, then reconstructing it in parts
 //

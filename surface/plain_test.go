@@ -198,9 +198,6 @@ func TestNarrowBandAgainstPlainSGBM(t *testing.T) {
 		if err := surface.SetDisparityPx(wp, df); err != nil {
 			t.Fatal(err)
 		}
-		if err := surface.ReprojectWorld(wp); err != nil {
-			t.Fatal(err)
-		}
 		if err := surface.Bin(wp, &mp); err != nil {
 			t.Fatal(err)
 		}

@@ -384,6 +384,9 @@ func (r *Reconstructor) SetGrid(g ingest.Grid) error {
 }
 
 // StageTimes accumulates the wall time of each stage of a worker.
+// Reproject is the reprojection of the points of the plane fit (the
+// reprojection of the maps is done point by point while gridding, and
+// counted in Grid).
 type StageTimes struct {
 	Remap, Match, Reproject, Grid time.Duration
 	Foam                          time.Duration // foam detection and mapping
@@ -447,7 +450,6 @@ type Worker struct {
 	rectL gocv.Mat
 	rectR gocv.Mat
 	dispF gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
-	xyz   gocv.Mat
 	sum   []float64
 	flags []bool
 	foam  *FoamDetector // nil when foam detection is off
@@ -470,7 +472,7 @@ func (r *Reconstructor) NewWorker() (*Worker, error) {
 	}
 	return &Worker{
 		r: r, sm: s, foam: det,
-		rectL: gocv.NewMat(), rectR: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
+		rectL: gocv.NewMat(), rectR: gocv.NewMat(), dispF: gocv.NewMat(),
 	}, nil
 }
 
@@ -480,7 +482,7 @@ func (w *Worker) Close() error {
 		w.sm.Close()
 		w.sm = nil
 	}
-	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.dispF, &w.xyz} {
+	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.dispF} {
 		if m.Ptr() != nil {
 			m.Close()
 			*m = gocv.Mat{}
@@ -553,37 +555,47 @@ func (w *Worker) Match() (cvshim.CheckStats, error) {
 // disparity about the plane's.
 func (w *Worker) DisparityPx() gocv.Mat { return w.dispF }
 
-// reproject turns the last disparity map into 3-D points, in the world
-// frame or in the left camera's frame.
-func (w *Worker) reproject(world bool) error {
-	t0 := time.Now()
-	q := w.r.qCam
-	if world {
-		if !w.r.havePlane {
-			return fmt.Errorf("surface: no sea plane is set, so points cannot be put in the world frame")
-		}
-		q = w.r.qWorld
-	}
-	err := cvshim.ReprojectImageTo3D(w.dispF, q, &w.xyz)
-	w.Times.Reproject += time.Since(t0)
+// disparities returns the last disparity map as a Go slice over the Mat's
+// memory (no copy), with its size.
+func (w *Worker) disparities() (d []float32, cols, rows int, err error) {
+	d, err = w.dispF.DataPtrFloat32()
 	if err != nil {
-		return fmt.Errorf("surface: %v", err)
+		return nil, 0, 0, fmt.Errorf("surface: the disparity map is not readable: %v", err)
 	}
-	return nil
+	cols, rows = w.dispF.Cols(), w.dispF.Rows()
+	if len(d) != cols*rows {
+		return nil, 0, 0, fmt.Errorf("surface: the disparity map has %d values for %d×%d px", len(d), cols, rows)
+	}
+	return d, cols, rows, nil
 }
 
-// points returns the 3-D points of the last pair as a Go slice over the
-// Mat's memory (no copy): x, y, z per pixel, NaN where there is no
-// disparity.
-func (w *Worker) points() ([]float32, error) {
-	p, err := w.xyz.DataPtrFloat32()
-	if err != nil {
-		return nil, fmt.Errorf("surface: 3-D points are not readable: %v", err)
+// rowProjector reprojects the pixels of one row: q·(u, v, d, 1),
+// dehomogenised, as cv::reprojectImageTo3D does, with the terms that do
+// not change along the row computed once.
+type rowProjector struct {
+	q *[16]float64
+	c [4]float64 // q[i][1]·v + q[i][3]
+}
+
+func (p *rowProjector) setRow(q *[16]float64, v int) {
+	p.q = q
+	for i := 0; i < 4; i++ {
+		p.c[i] = q[4*i+1]*float64(v) + q[4*i+3]
 	}
-	if len(p) != 3*w.xyz.Rows()*w.xyz.Cols() {
-		return nil, fmt.Errorf("surface: 3-D image has %d values for %d pixels", len(p), w.xyz.Rows()*w.xyz.Cols())
+}
+
+// at returns the point of pixel u of the row at disparity d; ok is false
+// when it is at infinity.
+func (p *rowProjector) at(u int, d float32) (x, y, z float32, ok bool) {
+	q := p.q
+	fu, fd := float64(u), float64(d)
+	W := q[12]*fu + q[14]*fd + p.c[3]
+	if W == 0 {
+		return 0, 0, 0, false
 	}
-	return p, nil
+	inv := 1 / W
+	return float32((q[0]*fu + q[2]*fd + p.c[0]) * inv), float32((q[4]*fu + q[6]*fd + p.c[1]) * inv),
+		float32((q[8]*fu + q[10]*fd + p.c[2]) * inv), true
 }
 
 // CameraPoints reconstructs a pair and appends to dst the points, in the
@@ -599,21 +611,24 @@ func (w *Worker) CameraPoints(left, right gocv.Mat, stride int, dst [][3]float32
 	if _, err := w.Match(); err != nil {
 		return dst, err
 	}
-	if err := w.reproject(false); err != nil {
-		return dst, err
-	}
-	p, err := w.points()
+	t0 := time.Now()
+	defer func() { w.Times.Reproject += time.Since(t0) }()
+	disp, cols, rows, err := w.disparities()
 	if err != nil {
 		return dst, err
 	}
-	cols := w.xyz.Cols()
 	maxR2 := w.r.opt.MaxRangeM * w.r.opt.MaxRangeM
-	for y := stride / 2; y < w.xyz.Rows(); y += stride {
-		row := y * cols
-		for x := stride / 2; x < cols; x += stride {
-			i := row + x
-			X, Y, Z := p[3*i], p[3*i+1], p[3*i+2]
-			if !(Z > 0) || math.IsInf(float64(Z), 0) || math.IsNaN(float64(X+Y)) {
+	var rp rowProjector
+	for v := stride / 2; v < rows; v += stride {
+		rp.setRow(&w.r.qCam, v)
+		row := disp[v*cols : (v+1)*cols]
+		for u := stride / 2; u < cols; u += stride {
+			d := row[u]
+			if d != d {
+				continue
+			}
+			X, Y, Z, ok := rp.at(u, d)
+			if !ok || !(Z > 0) || math.IsInf(float64(Z), 0) || math.IsNaN(float64(X+Y)) {
 				continue
 			}
 			if maxR2 > 0 && float64(X*X+Y*Y+Z*Z) > maxR2 {
@@ -625,36 +640,43 @@ func (w *Worker) CameraPoints(left, right gocv.Mat, stride int, dst [][3]float32
 	return dst, nil
 }
 
-// worldPoints runs a pair to world points (the worker's xyz buffer).
+// worldPoints rectifies and matches a pair, for forEachPoint.
 func (w *Worker) worldPoints(left, right gocv.Mat) error {
+	if !w.r.havePlane {
+		return fmt.Errorf("surface: no sea plane is set, so points cannot be put in the world frame")
+	}
 	if err := w.Rectify(left, right); err != nil {
 		return err
 	}
-	if _, err := w.Match(); err != nil {
-		return err
-	}
-	return w.reproject(true)
+	_, err := w.Match()
+	return err
 }
 
-// forEachPoint calls fn with the world point of every valid pixel within
-// the elevation and range limits; it returns the number dropped by them.
+// forEachPoint calls fn, pixel by pixel in row order, with the world point
+// of every pixel of the last disparity map that has one within the
+// elevation and range limits; it returns the number dropped by them.
 func (w *Worker) forEachPoint(fn func(x, y, z float32)) (dropped int, err error) {
-	p, err := w.points()
+	disp, cols, rows, err := w.disparities()
 	if err != nil {
 		return 0, err
 	}
 	zmax := float32(w.r.pointLimit())
 	maxR2 := float32(w.r.opt.MaxRangeM * w.r.opt.MaxRangeM)
-	for i := 0; i+2 < len(p); i += 3 {
-		x, y, z := p[i], p[i+1], p[i+2]
-		if z != z {
-			continue // no disparity
+	var rp rowProjector
+	for v := 0; v < rows; v++ {
+		rp.setRow(&w.r.qWorld, v)
+		row := disp[v*cols : (v+1)*cols]
+		for u, d := range row {
+			if d != d {
+				continue // no disparity
+			}
+			x, y, z, ok := rp.at(u, d)
+			if !ok || !(z <= zmax && z >= -zmax) || (maxR2 > 0 && !(x*x+y*y <= maxR2)) {
+				dropped++
+				continue
+			}
+			fn(x, y, z)
 		}
-		if !(z <= zmax && z >= -zmax) || (maxR2 > 0 && !(x*x+y*y <= maxR2)) {
-			dropped++
-			continue
-		}
-		fn(x, y, z)
 	}
 	return dropped, nil
 }
@@ -672,9 +694,6 @@ func (w *Worker) Reconstruct(left, right gocv.Mat, m *Map) error {
 	}
 	st, err := w.Match()
 	if err != nil {
-		return err
-	}
-	if err := w.reproject(true); err != nil {
 		return err
 	}
 	t0 := time.Now()
