@@ -8,7 +8,7 @@ VERSION  := $(shell git describe --tags --always --dirty 2>/dev/null || echo dev
 LDFLAGS  := -X main.version=$(VERSION)
 PKGS     := ./...
 
-.PHONY: all build deps demo test bench lint clean
+.PHONY: all build deps demo test bench lint clean fuzz
 
 all: build
 
@@ -25,6 +25,10 @@ demo: build
 test: deps
 	$(GO) vet $(PKGS)
 	$(GO) test -count=1 -timeout 30m $(PKGS)
+	FUZZTIME=$${FUZZTIME:-10s} scripts/fuzz-smoke
+
+fuzz: deps
+	FUZZTIME=$${FUZZTIME:-2m} scripts/fuzz-smoke
 
 bench: deps
 	$(GO) test -run '^$$' -bench . -benchmem -benchtime 3x -timeout 60m $(PKGS)

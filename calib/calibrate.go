@@ -31,26 +31,37 @@ const (
 	maxDropRounds = 10
 )
 
-// Options configures [Calibrate] and [Solve].
+// Options configures [Calibrate] and [Solve]. The fields with yaml tags
+// are the settings of the "calibrate" section of the configuration;
+// DefaultOptions gives their defaults.
 type Options struct {
-	Pattern Pattern
+	// Pattern is the chessboard: given by the caller for each calibration.
+	Pattern Pattern `yaml:"-"`
 	// Detector is DetectorClassic (the default when empty) or DetectorSB.
-	Detector string
+	Detector string `yaml:"detector"`
 	// DropFactor k: views whose reprojection error exceeds k times the
 	// median are dropped and the calibration repeated, until none is left
-	// to drop. 0 keeps every view; otherwise k must exceed 1.
-	DropFactor float64
+	// to drop. 0 keeps every view; otherwise k must exceed 1. Default
+	// DefaultDropFactor.
+	DropFactor float64 `yaml:"drop_factor"`
 	// MinViews is the fewest good views accepted; 0 means DefaultMinViews.
-	MinViews int
+	MinViews int `yaml:"min_views"`
 	// FixK3 holds the r⁶ radial coefficient at zero, which steadies
-	// calibrations from few views of lenses with mild distortion.
-	FixK3 bool
+	// calibrations from few views of lenses with mild distortion. Default
+	// off.
+	FixK3 bool `yaml:"fix_k3"`
 	// Workers is the number of image pairs searched for corners at once;
 	// 0 means one per CPU core.
-	Workers int
+	Workers int `yaml:"-"`
 	// Progress, when set, is told how many of the image pairs have been
 	// searched for corners. Calls are serialised.
-	Progress func(done, total int)
+	Progress func(done, total int) `yaml:"-"`
+}
+
+// DefaultOptions returns the default settings (the chessboard is left for
+// the caller to give).
+func DefaultOptions() Options {
+	return Options{Detector: DetectorClassic, DropFactor: DefaultDropFactor, MinViews: DefaultMinViews}
 }
 
 func (o Options) minViews() int {

@@ -4,11 +4,11 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
-	"image"
-	"io"
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
+	"strconv"
 	"strings"
 
 	"gopkg.in/yaml.v3"
@@ -146,94 +146,386 @@ func LoadRig(path string) (*Rig, error) {
 	return ParseRig(data, path)
 }
 
-// ParseRig decodes a rig file; name labels it in errors.
+// maxRigFile is the largest rig file read, bytes; a rig file is a few
+// kilobytes even with hundreds of calibration views.
+const maxRigFile = 4 << 20
+
+// ParseRig decodes a rig file; name labels it in errors. Any bytes give
+// either a valid rig or one sentence naming the file, the key (and its
+// line) and what is wrong: not YAML, not a rig file, a wrong version, a key
+// missing, unknown or repeated, a value of the wrong kind, a list of the
+// wrong length, a number that is not finite, or a rig that cannot be right
+// (see [Rig.Validate]).
 func ParseRig(data []byte, name string) (*Rig, error) {
 	bad := func(format string, args ...any) error {
 		return fmt.Errorf("rig file %s %s", name, fmt.Sprintf(format, args...))
 	}
-	var f rigFile
-	dec := yaml.NewDecoder(bytes.NewReader(data))
-	dec.KnownFields(true)
-	if err := dec.Decode(&f); err != nil {
-		if errors.Is(err, io.EOF) {
-			return nil, bad("is empty; make one with \"crestspeed calibrate\"")
-		}
+	if len(data) > maxRigFile {
+		return nil, bad("is %d bytes long, too long to be a rig file; give the rig file written by \"crestspeed calibrate\"", len(data))
+	}
+	var doc yaml.Node
+	if err := yaml.Unmarshal(data, &doc); err != nil {
 		return nil, bad("is not a valid rig file (%s); make one with \"crestspeed calibrate\"", yamlMessage(err))
 	}
-	if f.Format == nil || *f.Format != RigFormat {
+	if doc.Kind == 0 || (doc.Kind == yaml.DocumentNode && len(doc.Content) == 0) {
+		return nil, bad("is empty; make one with \"crestspeed calibrate\"")
+	}
+	rd := &rigReader{bad: bad}
+	top, err := rd.mapping(&doc, "", rigKeys)
+	if err != nil {
+		return nil, err
+	}
+	// Format and version first, so that a file of another kind or
+	// version says so rather than naming a key it does not know.
+	if n := top["format"]; n == nil || resolve(n).Kind != yaml.ScalarNode || resolve(n).Value != RigFormat {
 		return nil, bad("is not a crestspeed rig file (its format field is not %q); make one with \"crestspeed calibrate\"", RigFormat)
 	}
-	if f.Version == nil {
+	if top["version"] == nil {
 		return nil, bad("lacks the version field; add \"version: %d\" if it was written for this crestspeed", RigVersion)
 	}
-	if *f.Version != RigVersion {
-		return nil, bad("has version %d but this crestspeed reads version %d; recalibrate or use a matching crestspeed", *f.Version, RigVersion)
+	v, err := rd.integer(top["version"], "version")
+	if err != nil {
+		return nil, err
+	}
+	if v != RigVersion {
+		return nil, bad("has version %d but this crestspeed reads version %d; recalibrate or use a matching crestspeed", v, RigVersion)
+	}
+	if err := rd.unknown(); err != nil {
+		return nil, err
 	}
 	missing := func(key string) error {
 		return bad("lacks %s; recalibrate with \"crestspeed calibrate\" or add it", key)
 	}
-	switch {
-	case f.ImageWidthPx == nil:
-		return nil, missing("image_width_px")
-	case f.ImageHeightPx == nil:
-		return nil, missing("image_height_px")
-	case f.RightFromLeft == nil:
-		return nil, missing("right_from_left")
-	case f.RightFromLeft.Rotation == nil:
-		return nil, missing("right_from_left.rotation")
-	case f.RightFromLeft.TranslationM == nil:
-		return nil, missing("right_from_left.translation_m")
-	case f.BaselineM == nil:
-		return nil, missing("baseline_m")
+	for _, k := range []string{"image_width_px", "image_height_px", "left_camera", "right_camera", "right_from_left", "baseline_m"} {
+		if top[k] == nil {
+			return nil, missing(k)
+		}
 	}
-	r := &Rig{Size: image.Pt(*f.ImageWidthPx, *f.ImageHeightPx)}
+	r := &Rig{}
+	if r.Size.X, err = rd.integer(top["image_width_px"], "image_width_px"); err != nil {
+		return nil, err
+	}
+	if r.Size.Y, err = rd.integer(top["image_height_px"], "image_height_px"); err != nil {
+		return nil, err
+	}
 	for _, c := range []struct {
 		key string
-		in  *cameraFile
 		out *Camera
-	}{{"left_camera", f.Left, &r.Left}, {"right_camera", f.Right, &r.Right}} {
-		switch {
-		case c.in == nil:
-			return nil, missing(c.key)
-		case c.in.FocalLengthPx == nil:
-			return nil, missing(c.key + ".focal_length_px")
-		case c.in.PrincipalPointPx == nil:
-			return nil, missing(c.key + ".principal_point_px")
-		case c.in.Radial == nil:
-			return nil, missing(c.key + ".radial_distortion")
-		case c.in.Tangential == nil:
-			return nil, missing(c.key + ".tangential_distortion")
+	}{{"left_camera", &r.Left}, {"right_camera", &r.Right}} {
+		cam, err := rd.mapping(top[c.key], c.key, cameraKeys)
+		if err != nil {
+			return nil, err
+		}
+		var vals [4][]float64
+		for i, k := range []struct {
+			key  string
+			n    int
+			what string
+		}{{"focal_length_px", 2, "fx, fy"}, {"principal_point_px", 2, "cx, cy"}, {"radial_distortion", 3, "k1, k2, k3"}, {"tangential_distortion", 2, "p1, p2"}} {
+			path := c.key + "." + k.key
+			if cam[k.key] == nil {
+				return nil, missing(path)
+			}
+			if vals[i], err = rd.numbers(cam[k.key], path, k.n, k.what); err != nil {
+				return nil, err
+			}
 		}
 		*c.out = Camera{
-			Fx: c.in.FocalLengthPx[0], Fy: c.in.FocalLengthPx[1],
-			Cx: c.in.PrincipalPointPx[0], Cy: c.in.PrincipalPointPx[1],
-			K1: c.in.Radial[0], K2: c.in.Radial[1], K3: c.in.Radial[2],
-			P1: c.in.Tangential[0], P2: c.in.Tangential[1],
+			Fx: vals[0][0], Fy: vals[0][1], Cx: vals[1][0], Cy: vals[1][1],
+			K1: vals[2][0], K2: vals[2][1], K3: vals[2][2], P1: vals[3][0], P2: vals[3][1],
 		}
 	}
-	rot := f.RightFromLeft.Rotation
-	r.R = [9]float64{rot[0][0], rot[0][1], rot[0][2], rot[1][0], rot[1][1], rot[1][2], rot[2][0], rot[2][1], rot[2][2]}
-	r.T = *f.RightFromLeft.TranslationM
-	if p := f.SeaPlane; p != nil {
-		if p.Normal == nil {
+	pose, err := rd.mapping(top["right_from_left"], "right_from_left", poseKeys)
+	if err != nil {
+		return nil, err
+	}
+	switch {
+	case pose["rotation"] == nil:
+		return nil, missing("right_from_left.rotation")
+	case pose["translation_m"] == nil:
+		return nil, missing("right_from_left.translation_m")
+	}
+	rows, err := rd.sequence(pose["rotation"], "right_from_left.rotation", 3, "rows of three numbers")
+	if err != nil {
+		return nil, err
+	}
+	for i, row := range rows {
+		v, err := rd.numbers(row, fmt.Sprintf("right_from_left.rotation row %d", i+1), 3, "numbers")
+		if err != nil {
+			return nil, err
+		}
+		copy(r.R[3*i:], v)
+	}
+	t, err := rd.numbers(pose["translation_m"], "right_from_left.translation_m", 3, "x, y, z in metres")
+	if err != nil {
+		return nil, err
+	}
+	copy(r.T[:], t)
+	baseline, err := rd.number(top["baseline_m"], "baseline_m")
+	if err != nil {
+		return nil, err
+	}
+	if n := top["sea_plane"]; n != nil {
+		pl, err := rd.mapping(n, "sea_plane", planeKeys)
+		if err != nil {
+			return nil, err
+		}
+		if pl["normal"] == nil {
 			return nil, missing("sea_plane.normal")
 		}
-		if p.OffsetM == nil {
+		if pl["offset_m"] == nil {
 			return nil, missing("sea_plane.offset_m")
 		}
-		r.SeaPlane = &Plane{Normal: *p.Normal, OffsetM: *p.OffsetM}
+		nv, err := rd.numbers(pl["normal"], "sea_plane.normal", 3, "x, y, z")
+		if err != nil {
+			return nil, err
+		}
+		off, err := rd.number(pl["offset_m"], "sea_plane.offset_m")
+		if err != nil {
+			return nil, err
+		}
+		r.SeaPlane = &Plane{Normal: [3]float64{nv[0], nv[1], nv[2]}, OffsetM: off}
 	}
-	r.Quality = f.Quality
+	if n := top["calibration"]; n != nil {
+		if r.Quality, err = rd.quality(n); err != nil {
+			return nil, err
+		}
+	}
 	if err := r.Validate(); err != nil {
 		return nil, bad("is inconsistent: %v; recalibrate or correct it", err)
 	}
-	if b := r.Baseline(); !(math.Abs(b-*f.BaselineM) <= 1e-9*b) {
-		return nil, bad("gives baseline_m %g but right_from_left.translation_m is %g m long; correct one of them", *f.BaselineM, b)
+	if b := r.Baseline(); !(math.Abs(b-baseline) <= 1e-9*b) {
+		return nil, bad("gives baseline_m %g but right_from_left.translation_m is %g m long; correct one of them", baseline, b)
 	}
 	return r, nil
 }
 
-// yamlMessage shortens a yaml.v3 error to its first useful line.
+// Keys of the sections of a rig file, from the yaml tags of the schema.
+var (
+	rigKeys    = yamlKeys(reflect.TypeOf(rigFile{}))
+	cameraKeys = yamlKeys(reflect.TypeOf(cameraFile{}))
+	poseKeys   = yamlKeys(reflect.TypeOf(poseFile{}))
+	planeKeys  = yamlKeys(reflect.TypeOf(planeFile{}))
+	qualKeys   = yamlKeys(reflect.TypeOf(Quality{}))
+	viewKeys   = yamlKeys(reflect.TypeOf(ViewQuality{}))
+)
+
+// yamlKeys lists the yaml key names of a struct type.
+func yamlKeys(t reflect.Type) map[string]bool {
+	m := map[string]bool{}
+	for i := 0; i < t.NumField(); i++ {
+		tag, _, _ := strings.Cut(t.Field(i).Tag.Get("yaml"), ",")
+		if tag != "" && tag != "-" {
+			m[tag] = true
+		}
+	}
+	return m
+}
+
+// rigReader walks the YAML tree of a rig file.
+type rigReader struct {
+	bad     func(format string, args ...any) error
+	pending error // an unknown key of the top level, reported after the version
+}
+
+// resolve follows aliases (a bounded number of times: an alias of an
+// alias is allowed, a cycle is not followed forever).
+func resolve(n *yaml.Node) *yaml.Node {
+	for i := 0; n != nil && n.Kind == yaml.AliasNode && i < 8; i++ {
+		n = n.Alias
+	}
+	if n != nil && n.Kind == yaml.DocumentNode && len(n.Content) == 1 {
+		n = n.Content[0]
+	}
+	return n
+}
+
+func at(n *yaml.Node) string {
+	if n == nil || n.Line == 0 {
+		return ""
+	}
+	return fmt.Sprintf(" (line %d)", n.Line)
+}
+
+// keyText is a key as written, quoted when it holds anything but letters,
+// digits, '_', '.', '-' and spaces.
+func keyText(k string) string {
+	for _, r := range k {
+		if !(r == '_' || r == '.' || r == '-' || r == ' ' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9') {
+			return strconv.Quote(k)
+		}
+	}
+	if k == "" {
+		return `""`
+	}
+	return k
+}
+
+func valueText(n *yaml.Node) string {
+	v := n.Value
+	if len(v) > 30 {
+		v = v[:30] + "..."
+	}
+	return strconv.Quote(v)
+}
+
+// mapping reads a set of keys; a key not in known is an error (held back
+// for the top level, path "", until the version is checked).
+func (rd *rigReader) mapping(n *yaml.Node, path string, known map[string]bool) (map[string]*yaml.Node, error) {
+	m := resolve(n)
+	what := path
+	if what == "" {
+		what = "its top level"
+	}
+	if m == nil || m.Kind != yaml.MappingNode {
+		if path == "" {
+			return nil, rd.bad("is not a crestspeed rig file (its top level is not a set of keys); make one with \"crestspeed calibrate\"")
+		}
+		return nil, rd.bad("has %s%s that is not a set of keys; correct it or recalibrate", path, at(n))
+	}
+	out := map[string]*yaml.Node{}
+	for i := 0; i+1 < len(m.Content); i += 2 {
+		k, v := resolve(m.Content[i]), m.Content[i+1]
+		key := ""
+		if k != nil && k.Kind == yaml.ScalarNode {
+			key = k.Value
+		}
+		full := key
+		if path != "" {
+			full = path + "." + key
+		}
+		if _, dup := out[key]; dup {
+			return nil, rd.bad("gives %s twice%s; keep one", keyText(full), at(k))
+		}
+		if !known[key] {
+			err := rd.bad("has the unknown key %s%s in %s; remove it or check its spelling", keyText(full), at(k), what)
+			if path == "" {
+				if rd.pending == nil {
+					rd.pending = err
+				}
+				continue
+			}
+			return nil, err
+		}
+		out[key] = v
+	}
+	return out, nil
+}
+
+// unknown reports an unknown key of the top level.
+func (rd *rigReader) unknown() error { return rd.pending }
+
+// number reads a finite number.
+func (rd *rigReader) number(n *yaml.Node, path string) (float64, error) {
+	s := resolve(n)
+	if s == nil || s.Kind != yaml.ScalarNode {
+		return 0, rd.bad("has %s%s that is not a number; give a number", path, at(n))
+	}
+	var v float64
+	if err := s.Decode(&v); err != nil || (s.ShortTag() != "!!int" && s.ShortTag() != "!!float") {
+		return 0, rd.bad("has %s = %s%s, which is not a number; give a number", path, valueText(s), at(s))
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, rd.bad("has %s = %s%s, which is not a finite number; recalibrate or correct it", path, valueText(s), at(s))
+	}
+	return v, nil
+}
+
+// integer reads a whole number of at most 2³¹ in size.
+func (rd *rigReader) integer(n *yaml.Node, path string) (int, error) {
+	v, err := rd.number(n, path)
+	if err != nil {
+		return 0, err
+	}
+	if v != math.Trunc(v) || math.Abs(v) > math.MaxInt32 {
+		return 0, rd.bad("has %s = %s%s, which is not a whole number; give a whole number", path, valueText(resolve(n)), at(n))
+	}
+	return int(v), nil
+}
+
+// sequence reads a list of exactly want items.
+func (rd *rigReader) sequence(n *yaml.Node, path string, want int, what string) ([]*yaml.Node, error) {
+	s := resolve(n)
+	if s == nil || s.Kind != yaml.SequenceNode {
+		return nil, rd.bad("has %s%s that is not a list; it needs %d values (%s)", path, at(n), want, what)
+	}
+	if len(s.Content) != want {
+		return nil, rd.bad("has %s%s with %d value(s); it needs %d (%s)", path, at(n), len(s.Content), want, what)
+	}
+	return s.Content, nil
+}
+
+// numbers reads a list of exactly want finite numbers.
+func (rd *rigReader) numbers(n *yaml.Node, path string, want int, what string) ([]float64, error) {
+	items, err := rd.sequence(n, path, want, what)
+	if err != nil {
+		return nil, err
+	}
+	v := make([]float64, want)
+	for i, it := range items {
+		if v[i], err = rd.number(it, fmt.Sprintf("%s value %d", path, i+1)); err != nil {
+			return nil, err
+		}
+	}
+	return v, nil
+}
+
+// quality reads the calibration section.
+func (rd *rigReader) quality(n *yaml.Node) (*Quality, error) {
+	if _, err := rd.mapping(n, "calibration", qualKeys); err != nil {
+		return nil, err
+	}
+	m := resolve(n)
+	for i := 0; i+1 < len(m.Content); i += 2 {
+		if resolve(m.Content[i]).Value != "views" {
+			continue
+		}
+		vs := resolve(m.Content[i+1])
+		if vs == nil || vs.Kind != yaml.SequenceNode {
+			continue // a type error below names it
+		}
+		for j, v := range vs.Content {
+			if _, err := rd.mapping(v, fmt.Sprintf("calibration.views item %d", j+1), viewKeys); err != nil {
+				return nil, err
+			}
+		}
+	}
+	var q Quality
+	if err := m.Decode(&q); err != nil {
+		return nil, rd.bad("has a calibration section that cannot be read (%s); correct it or recalibrate", yamlMessage(err))
+	}
+	for _, f := range []struct {
+		key string
+		v   float64
+	}{{"square_m", q.SquareM}, {"drop_factor", q.DropFactor}, {"rms_px", q.RMSPx}, {"left_rms_px", q.LeftRMSPx},
+		{"right_rms_px", q.RightRMSPx}, {"epipolar_mean_px", q.EpiMeanPx}, {"epipolar_p95_px", q.EpiP95Px}} {
+		if math.IsNaN(f.v) || math.IsInf(f.v, 0) {
+			return nil, rd.bad("has calibration.%s = %g, which is not a finite number; correct it or recalibrate", f.key, f.v)
+		}
+	}
+	for j, v := range q.Views {
+		for _, x := range []float64{v.RMSLeftPx, v.RMSRightPx, v.EpiMeanPx} {
+			if math.IsNaN(x) || math.IsInf(x, 0) {
+				return nil, rd.bad("has calibration.views item %d with an error of %g px, which is not a finite number; correct it or recalibrate", j+1, x)
+			}
+		}
+	}
+	return &q, nil
+}
+
+// goTypeWords are the words for the Go types that yaml.v3 names in its
+// messages.
+var goTypeWords = []struct{ goType, words string }{
+	{"into float64", "into a number"},
+	{"into int", "into a whole number"},
+	{"into string", "into text"},
+	{"into []calib.ViewQuality", "into a list of views"},
+	{"into calib.ViewQuality", "into a view (a set of keys)"},
+	{"into calib.Quality", "into a set of keys"},
+}
+
+// yamlMessage shortens a yaml.v3 error to its first useful line, in
+// words that name no Go type.
 func yamlMessage(err error) string {
 	s := err.Error()
 	s = strings.TrimPrefix(s, "yaml: ")
@@ -242,11 +534,16 @@ func yamlMessage(err error) string {
 		s = s[:i]
 	}
 	s = strings.TrimSpace(s)
-	// "line 3: field foo not found in type calib.rigFile" names a Go type.
 	if i := strings.Index(s, " not found in type "); i >= 0 {
 		s = strings.Replace(s[:i], "field ", "unknown key ", 1)
 	}
-	return s
+	for _, w := range goTypeWords {
+		if strings.HasSuffix(s, w.goType) {
+			s = strings.TrimSuffix(s, w.goType) + w.words
+		}
+	}
+	s = strings.ReplaceAll(s, "cannot unmarshal", "cannot read")
+	return strings.ReplaceAll(s, ". ", "; ")
 }
 
 // writeFileAtomic writes data to a temporary file beside path and renames

@@ -131,3 +131,74 @@ func TestRigFileErrors(t *testing.T) {
 	_, err = LoadRig(filepath.Join(t.TempDir(), "absent.yaml"))
 	oneSentence(t, err, "absent.yaml", "does not exist")
 }
+
+// Any YAML, or none, gives either a rig or one sentence naming the key and
+// what is wrong with it: kinds, list lengths, matrix sizes, numbers that
+// are not finite, versions that are not whole numbers, aliases, repeated
+// keys, another top level.
+func TestRigFileAnyYAML(t *testing.T) {
+	good, err := fullRig().Marshal()
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := string(good)
+	rep := func(old, new string) string {
+		if !strings.Contains(text, old) {
+			t.Fatalf("rig text lacks %q", old)
+		}
+		return strings.Replace(text, old, new, 1)
+	}
+	rot := func(r string) string {
+		i, j := strings.Index(text, "  rotation:"), strings.Index(text, "  translation_m:")
+		if i < 0 || j < i {
+			t.Fatal("rig text lacks the rotation")
+		}
+		return text[:i] + "  rotation: " + r + "\n" + text[j:]
+	}
+	for _, c := range []struct {
+		name, text string
+		want       []string
+	}{
+		{"a list", "- 1\n- 2\n", []string{"top level is not a set of keys"}},
+		{"a word", "just text", []string{"top level is not a set of keys"}},
+		{"a number", "42", []string{"top level is not a set of keys"}},
+		{"format list", "format: [1, 2]\n", []string{"not a crestspeed rig file"}},
+		{"version 1.5", rep("version: 1", "version: 1.5"), []string{"version = \"1.5\"", "not a whole number"}},
+		{"version word", rep("version: 1", "version: one"), []string{"version = \"one\"", "not a number"}},
+		{"version list", rep("version: 1", "version: [1]"), []string{"version (line 5)", "not a number"}},
+		{"version huge", rep("version: 1", "version: 1e300"), []string{"not a whole number"}},
+		{"NaN focal", rep("focal_length_px: [1400, 1401.5]", "focal_length_px: [.nan, 1401.5]"), []string{"left_camera.focal_length_px value 1", "not a finite number"}},
+		{"three focal", rep("focal_length_px: [1400, 1401.5]", "focal_length_px: [1400, 1401.5, 3]"), []string{"left_camera.focal_length_px", "with 3 value(s)", "needs 2 (fx, fy)"}},
+		{"word focal", rep("focal_length_px: [1400, 1401.5]", "focal_length_px: [a, b]"), []string{`left_camera.focal_length_px value 1 = "a"`, "not a number"}},
+		{"scalar focal", rep("focal_length_px: [1400, 1401.5]", "focal_length_px: 1400"), []string{"left_camera.focal_length_px", "not a list"}},
+		{"inf translation", rep("translation_m: [", "translation_m: [.inf, "), []string{"right_from_left.translation_m", "with 4 value(s)"}},
+		{"inf baseline", rep("baseline_m: ", "baseline_m: .inf #"), []string{"baseline_m", "not a finite number"}},
+		{"huge width", rep("image_width_px: 1280", "image_width_px: 99999999999999999999"), []string{"image_width_px", "not a whole number"}},
+		{"camera scalar", rep("left_camera:", "left_camera: 5\nxleft_camera:"), []string{"unknown key xleft_camera"}},
+		{"plane inf", rep("offset_m: ", "offset_m: .inf #"), []string{"sea_plane.offset_m", "not a finite number"}},
+		{"rms NaN", rep("rms_px: ", "rms_px: .nan #"), []string{"calibration.rms_px", "not a finite number"}},
+		{"quality word", rep("rms_px: ", "rms_px: high #"), []string{"calibration section", "into a number"}},
+		{"view key", rep("status: used", "status: used\n      colour: red"), []string{"unknown key calibration.views item 1.colour"}},
+		{"rotation 2x3", rot("[[1,0,0],[0,1,0]]"), []string{"right_from_left.rotation", "with 2 value(s)", "needs 3"}},
+		{"rotation 3x2", rot("[[1,0],[0,1],[0,0]]"), []string{"right_from_left.rotation row 1", "with 2 value(s)"}},
+		{"rotation 4x3", rot("[[1,0,0],[0,1,0],[0,0,1],[0,0,0]]"), []string{"with 4 value(s)"}},
+		{"rotation scalar", rot("1"), []string{"right_from_left.rotation", "not a list"}},
+		{"self alias", rep("image_width_px: 1280", "image_width_px: &a [*a]"), []string{"image_width_px"}},
+		{"alias version", "format: &a crestspeed-rig\nversion: *a\n", []string{"version", "not a number"}},
+		{"repeated key", "format: crestspeed-rig\nformat: x\n", []string{"twice"}},
+		{"tab indent", "format: crestspeed-rig\n\tversion: 1\n", []string{"not a valid rig file"}},
+		{"newer version", rep("version: 1", "version: 2\nnew_key: 3"), []string{"version 2"}},
+		{"binary", "\x00\x01\x02\xff", []string{"rig.yaml"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := ParseRig([]byte(c.text), "rig.yaml")
+			oneSentence(t, err, append(c.want, "rig.yaml")...)
+			t.Log(err)
+		})
+	}
+	// Aliases where they are legal give the same rig.
+	aliased := strings.Replace(text, "radial_distortion: [", "radial_distortion: &r [", 1)
+	if _, err := ParseRig([]byte(aliased), "rig.yaml"); err != nil {
+		t.Errorf("an anchor: %v", err)
+	}
+}

@@ -3,125 +3,252 @@ package ingest
 import (
 	"fmt"
 	"io"
-	"math"
-	"math/rand/v2"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strconv"
 	"sync"
 	"testing"
+	"time"
 
 	"crestspeed/internal/netcdf"
 )
 
 // Benchmark record: 512 x 512 cells, CRESTSPEED_BENCH_FRAMES frames (default
-// 64), written once with the package writer (default deflate) into a cache
-// directory under os.TempDir and reused by later runs.
+// 300), in three layouts, made once into a cache folder under os.TempDir
+// and reused by later runs:
+//
+//   - "netcdf4-python": what netCDF4-python (and xarray) write by default
+//     for a (time, y, x) float32 array with zlib: chunks of 100 frames x
+//     171 x 171, shuffle, deflate level 4;
+//   - "classic": the same data as a NetCDF-3 classic file (contiguous
+//     records, big-endian);
+//   - "crestspeed": the project's own layout (CreateElevation: one frame
+//     per chunk, shuffle and deflate 4).
+//
+// The sea is a sum of random cosines plus 1 mm of noise, so that the
+// compressor sees realistic data.
 const benchNx, benchNy = 512, 512
 
 func benchFrames() int {
 	if v, err := strconv.Atoi(os.Getenv("CRESTSPEED_BENCH_FRAMES")); err == nil && v >= 2 {
 		return v
 	}
-	return 64
+	return 300
 }
 
 var (
-	benchOnce sync.Once
-	benchPath string
-	benchErr  error
+	benchOnce  sync.Once
+	benchPaths map[string]string
+	benchErr   error
 )
 
-// benchFile returns the path of the cached benchmark record, making it if
-// it is missing or has the wrong shape.
-func benchFile(b *testing.B) string {
+// benchLayouts are the layouts in the order they are reported.
+var benchLayouts = []string{"netcdf4-python", "classic", "crestspeed"}
+
+const benchScript = `
+import sys, numpy as np, netCDF4
+d, nt, ny, nx = sys.argv[1], int(sys.argv[2]), int(sys.argv[3]), int(sys.argv[4])
+rng = np.random.default_rng(1)
+x = 0.5 * np.arange(nx); y = 0.5 * np.arange(ny)
+comps = []
+for i in range(6):
+    k = 0.3 + 1.2 * rng.random(); th = 0.8 * (rng.random() - 0.5)
+    comps.append((0.1 + 0.25 * rng.random(), k * np.cos(th), k * np.sin(th), np.sqrt(9.81 * k), 2 * np.pi * rng.random()))
+for fmt, name in [('NETCDF4', 'netcdf4-python'), ('NETCDF3_CLASSIC', 'classic')]:
+    path = '%s/%s-%dx%dx%d.nc' % (d, name, ny, nx, nt)
+    with netCDF4.Dataset(path + '.part', 'w', format=fmt) as ds:
+        ds.createDimension('time', nt); ds.createDimension('y', ny); ds.createDimension('x', nx)
+        t = ds.createVariable('time', 'f8', ('time',)); t.units = 'seconds since 2026-06-14T09:00:00Z'; t.axis = 'T'
+        yv = ds.createVariable('y', 'f8', ('y',)); yv.units = 'm'; yv[:] = y
+        xv = ds.createVariable('x', 'f8', ('x',)); xv.units = 'm'; xv[:] = x
+        kw = {'zlib': True} if fmt == 'NETCDF4' else {}
+        e = ds.createVariable('eta', 'f4', ('time', 'y', 'x'), **kw); e.units = 'm'
+        for k0 in range(0, nt, 50):
+            k1 = min(nt, k0 + 50)
+            tt = 0.1 * np.arange(k0, k1)
+            block = 0.001 * rng.standard_normal((k1 - k0, ny, nx))
+            for a, kx, ky, om, ph in comps:
+                block += a * np.cos(kx * x[None, None, :] + ky * y[None, :, None] - om * tt[:, None, None] + ph)
+            e[k0:k1] = block.astype('f4')
+            t[k0:k1] = tt
+    import os; os.rename(path + '.part', path)
+`
+
+// benchFiles returns the paths of the cached benchmark records by layout,
+// making those that are missing.
+func benchFiles(b *testing.B) map[string]string {
 	b.Helper()
 	benchOnce.Do(func() {
 		nt := benchFrames()
 		dir := filepath.Join(os.TempDir(), "crestspeed-bench")
-		benchPath = filepath.Join(dir, fmt.Sprintf("elevation-%dx%dx%d.nc", benchNy, benchNx, nt))
-		if s, err := OpenElevation(benchPath, ElevationOptions{}); err == nil {
-			ok := len(s.Meta().Times) == nt
-			s.Close()
-			if ok {
+		if benchErr = os.MkdirAll(dir, 0o755); benchErr != nil {
+			return
+		}
+		benchPaths = map[string]string{}
+		for _, l := range benchLayouts {
+			benchPaths[l] = filepath.Join(dir, fmt.Sprintf("%s-%dx%dx%d.nc", l, benchNy, benchNx, nt))
+		}
+		_, e1 := os.Stat(benchPaths["netcdf4-python"])
+		_, e2 := os.Stat(benchPaths["classic"])
+		if e1 != nil || e2 != nil {
+			cmd := exec.Command(python, "-c", benchScript, dir, strconv.Itoa(nt), strconv.Itoa(benchNy), strconv.Itoa(benchNx))
+			if out, err := cmd.CombinedOutput(); err != nil {
+				benchErr = fmt.Errorf("making the benchmark records with netCDF4-python: %v\n%s", err, out)
 				return
 			}
 		}
-		if err := os.MkdirAll(dir, 0o755); err != nil {
-			benchErr = err
-			return
+		if _, err := os.Stat(benchPaths["crestspeed"]); err != nil {
+			benchErr = copyOwnLayout(benchPaths["classic"], benchPaths["crestspeed"])
 		}
-		benchErr = makeBenchFile(benchPath, nt)
 	})
 	if benchErr != nil {
 		b.Fatal(benchErr)
 	}
-	return benchPath
+	return benchPaths
 }
 
-// makeBenchFile writes a sea of a few random cosine components plus 1 mm of
-// noise, so that compression sees realistic data.
-func makeBenchFile(path string, nt int) error {
-	g := Grid{X: make([]float64, benchNx), Y: make([]float64, benchNy)}
-	for i := range g.X {
-		g.X[i] = 0.1 * float64(i)
+// copyOwnLayout rewrites a record with the package writer.
+func copyOwnLayout(src, dst string) error {
+	s, err := OpenElevation(src, ElevationOptions{SpikeFactor: -1, MaxAbsElevationM: -1})
+	if err != nil {
+		return err
 	}
-	for i := range g.Y {
-		g.Y[i] = 0.1 * float64(i)
-	}
-	w, err := CreateElevation(path, g, WriteOptions{Title: "crestspeed benchmark record"})
+	defer s.Close()
+	m := s.Meta()
+	w, err := CreateElevation(dst, m.Grid, WriteOptions{TimeUnits: m.TimeUnits, Title: "crestspeed benchmark record"})
 	if err != nil {
 		return err
 	}
 	defer w.Abort()
-	rng := rand.New(rand.NewPCG(1, 2))
-	type comp struct{ a, kx, ky, om, ph float64 }
-	comps := make([]comp, 4)
-	for i := range comps {
-		k := 0.5 + 2*rng.Float64()
-		th := 0.6 * (rng.Float64() - 0.5)
-		comps[i] = comp{a: 0.1 + 0.2*rng.Float64(), kx: k * math.Cos(th), ky: k * math.Sin(th), om: math.Sqrt(9.81 * k), ph: 2 * math.Pi * rng.Float64()}
-	}
-	eta := make([]float32, benchNx*benchNy)
-	for k := range nt {
-		tk := 0.1 * float64(k)
-		for iy, y := range g.Y {
-			for ix, x := range g.X {
-				v := 0.001 * rng.NormFloat64()
-				for _, c := range comps {
-					v += c.a * math.Cos(c.kx*x+c.ky*y-c.om*tk+c.ph)
-				}
-				eta[iy*benchNx+ix] = float32(v)
-			}
+	var f Frame
+	for {
+		err := s.Next(&f)
+		if err == io.EOF {
+			break
 		}
-		if err := w.WriteFrame(tk, eta, nil); err != nil {
+		if err != nil {
+			return err
+		}
+		if err := w.WriteFrame(f.Time, f.Eta, nil); err != nil {
 			return err
 		}
 	}
 	return w.Commit()
 }
 
-func reportStream(b *testing.B, frames int) {
-	sec := b.Elapsed().Seconds()
-	if sec <= 0 || frames == 0 {
-		return
-	}
-	b.ReportMetric(float64(frames)/sec, "frames/s")
-	b.ReportMetric(float64(frames)*benchNx*benchNy*4/1e6/sec, "MB/s")
+// bareSlabs is the reference: the record read through the C library in
+// chunk-aligned slabs (one chunk row along time per call; for contiguous
+// files, as many frames per call as the source reads) into one buffer,
+// with nothing else done.
+type bareSlabs struct {
+	f      *netcdf.File
+	nt, nb int
+	buf    []float32
 }
 
-// BenchmarkStreamIngest reads frames through ElevationSource.Next (hyperslab
-// read, fill/NaN masking, validity mask), rewinding at the end of the record.
-// One op is one frame.
+func openBare(b *testing.B, path string, sourceBlock int) *bareSlabs {
+	f, err := netcdf.Open(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	st, err := f.VarStorage("eta")
+	if err != nil {
+		b.Fatal(err)
+	}
+	nt, _ := f.Dim("time")
+	nb := sourceBlock
+	if st.Chunks != nil {
+		nb = st.Chunks[0]
+	}
+	return &bareSlabs{f: f, nt: nt, nb: nb, buf: make([]float32, nb*benchNy*benchNx)}
+}
+
+func (r *bareSlabs) pass(b *testing.B) {
+	for k := 0; k < r.nt; k += r.nb {
+		n := min(r.nb, r.nt-k)
+		if err := r.f.ReadFloat32Slab("eta", []int{k, 0, 0}, []int{n, benchNy, benchNx}, r.buf[:n*benchNy*benchNx]); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkReadLayouts reads each benchmark layout, in every iteration one
+// whole pass through ElevationSource.Next (default settings: masking, the
+// plausibility tests, read-ahead) and one whole bare pass (see bareSlabs),
+// one after the other so that both see the same load. It reports frames/s
+// and MB/s of each (MB of float32 elevations delivered) and the ratio of
+// the source's throughput to the bare one; the target is at least 0.9.
+//
+//	go test ./ingest -run '^$' -bench ReadLayouts -benchtime 3x
+func BenchmarkReadLayouts(b *testing.B) {
+	paths := benchFiles(b)
+	for _, l := range benchLayouts {
+		b.Run(l, func(b *testing.B) {
+			s, err := OpenElevation(paths[l], ElevationOptions{})
+			if err != nil {
+				b.Fatal(err)
+			}
+			defer s.Close()
+			bare := openBare(b, paths[l], s.BlockFrames())
+			defer bare.f.Close()
+			var f Frame
+			var tSrc, tBare time.Duration
+			frames := 0
+			srcPass := func() {
+				s.Rewind()
+				for {
+					err := s.Next(&f)
+					if err == io.EOF {
+						break
+					}
+					if err != nil {
+						b.Fatal(err)
+					}
+					frames++
+				}
+			}
+			// Short passes are repeated, alternating source and bare, so
+			// that each measurement spans about two seconds of load.
+			t0 := time.Now()
+			bare.pass(b)
+			reps := max(1, int(time.Second/max(time.Since(t0), time.Millisecond)))
+			for b.Loop() {
+				for range reps {
+					t0 := time.Now()
+					srcPass()
+					t1 := time.Now()
+					bare.pass(b)
+					tBare += time.Since(t1)
+					tSrc += t1.Sub(t0)
+				}
+			}
+			if frames == 0 || tSrc <= 0 || tBare <= 0 {
+				return
+			}
+			n := float64(frames)
+			mb := n * benchNx * benchNy * 4 / 1e6
+			b.ReportMetric(n/tSrc.Seconds(), "src-frames/s")
+			b.ReportMetric(mb/tSrc.Seconds(), "src-MB/s")
+			b.ReportMetric(n/tBare.Seconds(), "bare-frames/s")
+			b.ReportMetric(mb/tBare.Seconds(), "bare-MB/s")
+			b.ReportMetric(tBare.Seconds()/tSrc.Seconds(), "ratio")
+			b.ReportMetric(float64(s.BlockFrames()), "frames/call")
+		})
+	}
+}
+
+// BenchmarkStreamIngest reads frames of the project's own layout through
+// ElevationSource.Next, rewinding at the end of the record. One op is one
+// frame.
 func BenchmarkStreamIngest(b *testing.B) {
-	path := benchFile(b)
+	path := benchFiles(b)["crestspeed"]
 	s, err := OpenElevation(path, ElevationOptions{})
 	if err != nil {
 		b.Fatal(err)
 	}
 	defer s.Close()
 	var f Frame
-	frames := 0
 	b.ReportAllocs()
 	for b.Loop() {
 		err := s.Next(&f)
@@ -132,35 +259,5 @@ func BenchmarkStreamIngest(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		frames++
 	}
-	reportStream(b, frames)
-}
-
-// BenchmarkStreamBareNetCDF reads the same frames with nothing but
-// nc_get_vara_float through netcdf.File.ReadFloat32Slab: the floor that
-// BenchmarkStreamIngest is measured against. One op is one frame.
-func BenchmarkStreamBareNetCDF(b *testing.B) {
-	path := benchFile(b)
-	f, err := netcdf.Open(path)
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer f.Close()
-	nt, err := f.Dim("time")
-	if err != nil {
-		b.Fatal(err)
-	}
-	buf := make([]float32, benchNx*benchNy)
-	start, count := []int{0, 0, 0}, []int{1, benchNy, benchNx}
-	frames := 0
-	b.ReportAllocs()
-	for b.Loop() {
-		start[0] = frames % nt
-		if err := f.ReadFloat32Slab("eta", start, count, buf); err != nil {
-			b.Fatal(err)
-		}
-		frames++
-	}
-	reportStream(b, frames)
 }

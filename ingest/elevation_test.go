@@ -145,7 +145,7 @@ func TestRoundTrip(t *testing.T) {
 	if m.DepthM != 7.5 || !m.HasFoam || m.Title != "round trip" || m.TimeUnits != opt.TimeUnits {
 		t.Errorf("meta depth %v foam %v title %q units %q", m.DepthM, m.HasFoam, m.Title, m.TimeUnits)
 	}
-	if m.Attrs["institution"] != "test bench" || m.Attrs["Conventions"] != "CF-1.8" || !strings.HasPrefix(m.Attrs["history"], "earlier step\n") {
+	if m.Attrs["institution"] != "test bench" || m.Attrs["Conventions"] != "CF-1.8, ACDD-1.3" || !strings.HasPrefix(m.Attrs["history"], "earlier step\n") {
 		t.Errorf("attrs %v", m.Attrs)
 	}
 	if math.Abs(s.FrameInterval()-0.125) > 1e-12 || len(s.Gaps()) != 0 || len(s.Skipped()) != 0 {
@@ -201,8 +201,10 @@ func TestCheckedByNcdumpAndPython(t *testing.T) {
 		`time:units = "seconds since 1970-01-01T00:00:00Z" ;`,
 		`eta:units = "m" ;`,
 		`eta:_FillValue = NaNf ;`,
-		`eta:standard_name = "sea_surface_height_above_mean_sea_level" ;`,
-		`:Conventions = "CF-1.8" ;`,
+		`eta:long_name = "sea-surface elevation above the mean water level of the record, positive up" ;`,
+		`:Conventions = "CF-1.8, ACDD-1.3" ;`,
+		`:grid_spacing_m = 0.25 ;`,
+		`:time_coverage_start = "1970-01-01T00:16:40Z" ;`,
 		`:water_depth_m = 20. ;`,
 	} {
 		if !strings.Contains(hdr, want) {
@@ -441,30 +443,24 @@ func TestBadTruncatedFile(t *testing.T) {
 	openErr(t, path, "is not a NetCDF file or is damaged")
 }
 
+// TestBadMissingEta: a variable called "elevation" with no standard_name is
+// not guessed; the message names the setting and lists the candidates, and
+// the setting then reads it.
 func TestBadMissingEta(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "noeta.nc")
 	sp := goodSpec()
 	sp.etaName = "elevation"
 	writeRaw(t, path, sp)
-	openErr(t, path, `no elevation variable "eta"`)
-	// The configured name is honoured and reported.
-	if s, err := OpenElevation(path, ElevationOptions{Names: Names{Eta: "elevation"}}); err != nil {
+	openErr(t, path, `none is named "eta"`, "set variable", "variables of three dimensions: elevation")
+	if s, err := OpenElevation(path, ElevationOptions{Variable: "elevation"}); err != nil {
 		t.Errorf("configured name: %v", err)
 	} else {
 		s.Close()
 	}
-	_, err := OpenElevation(path, ElevationOptions{Names: Names{Eta: "z"}})
-	if err == nil || !strings.Contains(err.Error(), `"z"`) {
+	_, err := OpenElevation(path, ElevationOptions{Variable: "z"})
+	if err == nil || !strings.Contains(err.Error(), `no variable "z" (the setting variable)`) || !strings.Contains(err.Error(), "elevation") {
 		t.Errorf("configured missing name: %v", err)
 	}
-}
-
-func TestBadDimensionOrder(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "order.nc")
-	sp := goodSpec()
-	sp.etaDims = []string{"x", "y", "time"}
-	writeRaw(t, path, sp)
-	openErr(t, path, `variable "eta" has dimensions (x,y,time); expected (time,y,x)`)
 }
 
 func TestBadIrregularX(t *testing.T) {
@@ -475,10 +471,10 @@ func TestBadIrregularX(t *testing.T) {
 	openErr(t, path, `coordinate "x"`, "not regularly spaced")
 }
 
-func TestBadDecreasingY(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "decreasing.nc")
+func TestBadNonMonotonicY(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "zigzag.nc")
 	sp := goodSpec()
-	sp.y = []float64{4, 2, 0}
+	sp.y = []float64{0, 4, 2}
 	writeRaw(t, path, sp)
 	openErr(t, path, `coordinate "y"`, "not strictly increasing")
 }

@@ -1,20 +1,17 @@
 package ingest
 
 import (
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"image"
 	"io"
-	"io/fs"
 	"maps"
 	"math"
 	"os"
 	"path/filepath"
-	"regexp"
 	"slices"
-	"strconv"
 	"strings"
+	"time"
 
 	"gocv.io/x/gocv"
 )
@@ -111,31 +108,48 @@ func checkFPS(fps float64, what string) error {
 
 // PairSpec says where the images of a stereo record are and how to time
 // them. Give the images by Dir, by LeftGlob and RightGlob, or by a
-// TimestampsFile alone.
+// TimestampsFile alone. The yaml names are those of the settings.
 type PairSpec struct {
 	// Dir is a record folder in one of two layouts: Dir/left_*.EXT with
 	// Dir/right_*.EXT, or Dir/left/*.EXT with Dir/right/*.EXT, where EXT
 	// is png, tif, tiff, jpg or jpeg (any case). When Dir holds
 	// timestamps.csv and TimestampsFile is empty, that file is used.
 	// Dir excludes LeftGlob and RightGlob.
-	Dir string
+	Dir string `yaml:"frames"`
 	// LeftGlob and RightGlob are path/filepath.Match patterns for the
 	// left and right images, for example "run1/cam0_*.tif".
-	LeftGlob, RightGlob string
-	// TimestampsFile is an optional CSV file with the header
-	// frame,time_s,left,right (more columns are ignored): the frame number
-	// in acquisition order, the time in seconds, and the image paths,
-	// relative to the CSV file's folder unless absolute. It gives both
-	// the times and the pairing.
-	TimestampsFile string
+	LeftGlob  string `yaml:"left"`
+	RightGlob string `yaml:"right"`
+	// TimestampsFile is an optional CSV file whose header names the
+	// columns frame, time_s and/or utc, left and right, in any order
+	// (more columns are ignored): the frame number in acquisition order,
+	// the time in seconds, the absolute instant (ISO 8601, see
+	// [ParseInstant]), and the image paths, relative to the CSV file's
+	// folder unless absolute. It gives both the times and the pairing.
+	// With utc alone, times are seconds from the whole second of the
+	// first frame kept (or from StartUTC when set).
+	TimestampsFile string `yaml:"timestamps"`
 	// FPS is the frame rate in Hz, the time base when names carry only a
 	// frame number and there is no timestamps file (time = number / FPS).
 	// Given, it makes bare numbers frame numbers, whatever their length.
-	FPS float64
+	// 0 = none.
+	FPS float64 `yaml:"fps"`
+	// StartUTC, when set, is the absolute instant of time 0 (ISO 8601,
+	// see [ParseInstant]); it takes precedence over a utc column and the
+	// images' EXIF dates. Default "": none.
+	StartUTC string `yaml:"start_utc"`
+	// MaxSpanS is the longest plausible record in seconds: a time farther
+	// than this from the median time of the record is skipped and counted
+	// (SkipTimeSpan). 0 means [DefaultMaxSpanS] (two days).
+	MaxSpanS float64 `yaml:"max_record_span_s"`
 	// ExpectedSize, when non-zero, is the image size of the rig (width X,
 	// height Y); images of another size are skipped and counted.
-	ExpectedSize image.Point
+	ExpectedSize image.Point `yaml:"-"`
 }
+
+// DefaultPairSpec returns the defaults of the settings of [PairSpec]; the
+// images are still to be given.
+func DefaultPairSpec() PairSpec { return PairSpec{MaxSpanS: DefaultMaxSpanS} }
 
 // TimestampsName is the timestamps file [OpenPairs] looks for in a record
 // folder ([PairSpec.Dir]).
@@ -145,28 +159,40 @@ const TimestampsName = "timestamps.csv"
 type pairItem struct {
 	time        float64
 	left, right string
+	line        int       // row of the timestamps file; 0 when none
+	utc         time.Time // the row's utc cell, when hasUTC
+	hasUTC      bool
 }
 
 // PairSource streams the image pairs of a stereo record in time order. It
 // is not safe for concurrent use.
 type PairSource struct {
-	items   []pairItem
-	next    int
-	visited int // pairs [0, visited) have been examined by Next
-	size    image.Point
-	skipped SkipCounts
-	closed  bool
+	items     []pairItem
+	next      int
+	visited   int // pairs [0, visited) have been examined by Next
+	size      image.Point
+	log       skipLog
+	rule      string
+	origin    TimeOrigin
+	hasOrigin bool
+	closed    bool
 }
 
 // OpenPairs lists the images of a record, pairs left with right and orders
 // the pairs by time. The rules, in order of precedence:
 //
 //  1. A timestamps file (given, or timestamps.csv in Dir) gives the pairs
-//     and their times. Rows are taken in frame-number order; a row whose
-//     time is not later than the last row kept is skipped (time going
-//     backwards or repeated). When patterns or Dir are also given, they
-//     select the rows: a row is used when either of its files is among the
-//     matches, and matched files that no row lists are counted.
+//     and their times. Rows are taken in frame-number order. When
+//     patterns or Dir are also given, they select the rows: a row is used
+//     when either of its files is among the matches, and matched files
+//     that no row lists are counted. A row that cannot be read (a stray
+//     quote, a missing field, a cell that is not a number) or whose time
+//     is not finite is skipped, counted and named, and so is a time
+//     farther than MaxSpanS from the median time of the rows. Of the rest,
+//     the largest set of rows whose times increase with the frame number
+//     is kept (the earliest such set when several are as large), and the
+//     others are skipped as time going backwards or repeated: one time
+//     out of place costs its own row, never the rows after it.
 //  2. Otherwise the times come from the file names (the base name without
 //     extension). A name whose last number carries its unit is read as a
 //     time: "_t12.345s" (or "_12.345s") in seconds, "_ms000123" (or
@@ -174,17 +200,26 @@ type PairSource struct {
 //     frame number and, when FPS is given, the time is that number
 //     divided by FPS. With no FPS, numbers of at least 9 digits,
 //     zero-padded, are read as milliseconds (the layout left_000001234.png
-//     of crestspeed's renderer); shorter numbers then leave no time base
-//     and OpenPairs fails. FPS is not used when the timestamps file or
+//     of crestspeed's renderer) provided that consecutive numbers step by
+//     at least 5 (a frame rate of at most 200 Hz): numbers stepping by
+//     less look like a frame counter and OpenPairs fails, asking for FPS
+//     or a timestamps file; shorter numbers leave no time base and
+//     OpenPairs fails too. FPS is not used when the timestamps file or
 //     names with units give the times. A left and a right image form a
 //     pair when their names carry the same time or number; every name of
-//     a record must follow the same convention.
+//     a record must follow the same convention. [PairSource.TimeRule]
+//     says which rule was used, in a sentence.
+//
+// The absolute time of time 0 ([PairSource.Origin]) comes from StartUTC,
+// else from the utc column of the timestamps file, else from the EXIF
+// DateTimeOriginal of the first JPEG or TIFF left images (see
+// [ReadCaptureTime]), else is unknown.
 //
 // Images without a partner, without a number, or with a number already
-// seen on their side are counted in Skipped and left out; OpenPairs fails,
-// with one sentence, when no file matches, when there is no time base,
-// when FPS is out of range, when the timestamps file is malformed, or when
-// no pair is left.
+// seen on their side are counted in Skipped, named in SkippedFiles and
+// left out; OpenPairs fails, with one sentence, when no file matches, when
+// there is no time base, when FPS, StartUTC or MaxSpanS is out of range,
+// when the timestamps file cannot be read, or when no pair is left.
 func OpenPairs(spec PairSpec) (*PairSource, error) {
 	if spec.FPS != 0 {
 		if err := checkFPS(spec.FPS, "FPS"); err != nil {
@@ -194,24 +229,93 @@ func OpenPairs(spec PairSpec) (*PairSource, error) {
 	if spec.ExpectedSize != (image.Point{}) && (spec.ExpectedSize.X <= 0 || spec.ExpectedSize.Y <= 0) {
 		return nil, fmt.Errorf("ingest: expected image size %dx%d is invalid; give a positive width and height, or zero for no check", spec.ExpectedSize.X, spec.ExpectedSize.Y)
 	}
+	maxSpan, err := checkMaxSpan(spec.MaxSpanS)
+	if err != nil {
+		return nil, err
+	}
+	start, haveStart, err := originFromSetting(spec.StartUTC)
+	if err != nil {
+		return nil, err
+	}
 	left, right, tsFile, err := spec.list()
 	if err != nil {
 		return nil, err
 	}
-	s := &PairSource{size: spec.ExpectedSize, skipped: SkipCounts{}}
+	s := &PairSource{size: spec.ExpectedSize, log: newSkipLog()}
 	if tsFile != "" {
-		err = s.pairFromTimestamps(tsFile, left, right)
+		err = s.pairFromTimestamps(tsFile, left, right, maxSpan, start, haveStart)
 	} else {
-		err = s.pairFromNames(left, right, spec.FPS)
+		err = s.pairFromNames(left, right, spec.FPS, maxSpan)
 	}
 	if err != nil {
 		return nil, err
 	}
 	if len(s.items) == 0 {
-		return nil, fmt.Errorf("ingest: no usable image pair was found (%s); check that left and right names share their numbers, or the rows of the timestamps file", describeSkips(s.skipped))
+		first := ""
+		if it, ok := s.log.first(); ok {
+			first = "; the first: " + it.String()
+		}
+		return nil, fmt.Errorf("ingest: no usable image pair was found (%s%s); check that left and right names share their numbers, or the rows of the timestamps file", describeSkips(s.log.Counts()), first)
+	}
+	switch {
+	case haveStart:
+		if !s.hasOrigin || s.origin.From != OriginSetting {
+			if s.hasOrigin {
+				start.From = fmt.Sprintf("%s (the %s would put it at %s)", OriginSetting, s.origin.From, FormatInstant(s.origin.UTC))
+			}
+			s.origin, s.hasOrigin = start, true
+		}
+	case !s.hasOrigin:
+		s.origin, s.hasOrigin = s.exifOrigin()
 	}
 	return s, nil
 }
+
+// checkMaxSpan applies the default of MaxSpanS and checks it.
+func checkMaxSpan(v float64) (float64, error) {
+	if v == 0 {
+		return DefaultMaxSpanS, nil
+	}
+	if !(v > 0) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("ingest: max_record_span_s %g s is not a usable record length; give the longest plausible record in seconds, or 0 for the default of %d s", v, DefaultMaxSpanS)
+	}
+	return v, nil
+}
+
+// exifCandidates is the number of first pairs whose left image is searched
+// for an EXIF date.
+const exifCandidates = 8
+
+// exifOrigin reads the capture time of the first left images that carry
+// one and returns the instant of time 0 it implies.
+func (s *PairSource) exifOrigin() (TimeOrigin, bool) {
+	for i := 0; i < len(s.items) && i < exifCandidates; i++ {
+		it := s.items[i]
+		if !isEXIFImage(it.left) {
+			continue
+		}
+		c, ok, err := ReadCaptureTime(it.left)
+		if err != nil || !ok {
+			continue
+		}
+		t0 := c.UTC.Add(-secondsToDuration(it.time))
+		return TimeOrigin{UTC: t0, From: fmt.Sprintf("%s %s (%s, at time %g s; %s)", OriginEXIF, it.left, FormatInstant(c.UTC), it.time, c.Describe())}, true
+	}
+	return TimeOrigin{}, false
+}
+
+// TimeRule says in one sentence how the times of the pairs were found:
+// from which timestamps file and column, or how the file names were read.
+func (s *PairSource) TimeRule() string { return s.rule }
+
+// Origin returns the absolute instant of time 0 and where it came from; ok
+// is false when the record gives none.
+func (s *PairSource) Origin() (o TimeOrigin, ok bool) { return s.origin, s.hasOrigin }
+
+// SkippedFiles names the pairs and files skipped so far with their reasons
+// (the first [MaxNamedSkips]; the rest are counted in Unnamed). Skipped
+// gives the counts of all of them by reason.
+func (s *PairSource) SkippedFiles() SkipList { return s.log.List() }
 
 // describeSkips lists skip counts as "n reason, ...", in a fixed order.
 func describeSkips(c SkipCounts) string {
@@ -346,155 +450,56 @@ func absSorted(paths []string) ([]string, error) {
 	return out, nil
 }
 
-// Name conventions, applied to the base name without its extension.
-var (
-	reSeconds = regexp.MustCompile(`(?:^|[_\-.])t?(\d+(?:\.\d+)?)s(?:$|[_\-.])`)
-	reMillis  = regexp.MustCompile(`(?:^|[_\-.])(?:ms(\d+)|(\d+)ms)(?:$|[_\-.])`)
-	reDigits  = regexp.MustCompile(`\d+`)
-)
-
-// nameKind is the convention a file name follows.
-type nameKind int
-
-const (
-	kindNone    nameKind = iota // no number
-	kindSeconds                 // explicit time in seconds
-	kindMillis                  // explicit time in milliseconds
-	kindNumber                  // bare number
-)
-
-func (k nameKind) String() string {
-	switch k {
-	case kindSeconds:
-		return "a time in seconds (_t12.345s)"
-	case kindMillis:
-		return "a time in milliseconds (_ms000123)"
-	case kindNumber:
-		return "a bare number"
-	}
-	return "no number"
-}
-
-// parsedName is what a file name says about its time.
-type parsedName struct {
-	kind   nameKind
-	value  float64 // seconds, milliseconds or the number, by kind
-	digits int     // length of a bare number
-}
-
-// parseName reads the time or number a file name carries. A time with its
-// unit counts only when it holds the last run of digits of the name, so that
-// a label earlier in the name (say "run_10s_left_0001") is not taken for
-// the time.
-func parseName(path string) parsedName {
-	base := filepath.Base(path)
-	base = strings.TrimSuffix(base, filepath.Ext(base))
-	all := reDigits.FindAllStringIndex(base, -1)
-	if len(all) == 0 {
-		return parsedName{}
-	}
-	lastDigit := all[len(all)-1][1] - 1
-	for _, c := range []struct {
-		re   *regexp.Regexp
-		kind nameKind
-	}{{reSeconds, kindSeconds}, {reMillis, kindMillis}} {
-		ms := c.re.FindAllStringSubmatchIndex(base, -1)
-		if len(ms) == 0 {
-			continue
-		}
-		m := ms[len(ms)-1]
-		for g := 2; g+1 < len(m); g += 2 {
-			if m[g] < 0 || lastDigit < m[g] || lastDigit >= m[g+1] {
-				continue
-			}
-			if v, err := strconv.ParseFloat(base[m[g]:m[g+1]], 64); err == nil {
-				return parsedName{kind: c.kind, value: v}
-			}
-		}
-	}
-	last := all[len(all)-1]
-	d := base[last[0]:last[1]]
-	v, err := strconv.ParseFloat(d, 64)
-	if err != nil {
-		return parsedName{}
-	}
-	return parsedName{kind: kindNumber, value: v, digits: len(d)}
-}
-
-// millisDigits is the least length of a zero-padded bare number read as
-// milliseconds when no frame rate is given.
-const millisDigits = 9
-
 // pairFromNames pairs left and right files by the time or number in their
 // names.
-func (s *PairSource) pairFromNames(left, right []string, fps float64) error {
-	type named struct {
-		path string
-		p    parsedName
-	}
-	var sides [2][]named
-	var kind nameKind
-	var kindFile string
+func (s *PairSource) pairFromNames(left, right []string, fps, maxSpan float64) error {
+	var sides [2][]namedFile
+	var all []namedFile
 	for i, list := range [][]string{left, right} {
 		for _, path := range list {
 			p := parseName(path)
 			if p.kind == kindNone {
-				s.skipped[SkipNoNumber]++
+				s.skipSide(i, path, SkipNoNumber, "")
 				continue
 			}
-			if kind == kindNone {
-				kind, kindFile = p.kind, path
-			} else if p.kind != kind {
-				return fmt.Errorf("ingest: image names mix conventions: %s carries %s but %s carries %s; name all images of a record the same way or give a timestamps file", kindFile, kind, path, p.kind)
-			}
-			sides[i] = append(sides[i], named{path, p})
+			sides[i] = append(sides[i], namedFile{path, p})
+			all = append(all, namedFile{path, p})
 		}
 	}
-	if kind == kindNone {
-		return fmt.Errorf("ingest: no image name carries a number (for example %s); give a timestamps file, or names with a time or frame number", left[0])
+	if len(all) == 0 {
+		return fmt.Errorf("ingest: no image name carries a number (for example %s); give a timestamps file, or names with a time or frame number", oneLineText(left[0]))
 	}
-	// Time of a parsed name.
-	var toTime func(p parsedName) float64
-	switch {
-	case kind == kindSeconds:
-		toTime = func(p parsedName) float64 { return p.value }
-	case kind == kindMillis:
-		toTime = func(p parsedName) float64 { return p.value * 1e-3 }
-	case fps > 0:
-		toTime = func(p parsedName) float64 { return p.value / fps }
-	default:
-		for _, side := range sides {
-			for _, n := range side {
-				if n.p.digits < millisDigits {
-					return fmt.Errorf("ingest: image names such as %s carry a frame number but no time, and there is no timestamps file; give the frame rate (FPS) or a timestamps file", n.path)
-				}
-			}
-		}
-		toTime = func(p parsedName) float64 { return p.value * 1e-3 }
+	rule, err := chooseNameRule(all, fps, "image")
+	if err != nil {
+		return err
 	}
+	s.rule = rule.note
 	// Index each side by its number; the first path in sorted order wins.
 	var byKey [2]map[float64]string
 	for i, side := range sides {
 		byKey[i] = make(map[float64]string, len(side))
 		for _, n := range side {
-			if _, dup := byKey[i][n.p.value]; dup {
-				s.skipped[SkipDuplicate]++
+			if first, dup := byKey[i][n.p.value]; dup {
+				s.skipSide(i, n.path, SkipDuplicate, "same number as "+filepath.Base(first))
 				continue
 			}
 			byKey[i][n.p.value] = n.path
 		}
 	}
-	for key, lp := range byKey[0] {
-		rp, ok := byKey[1][key]
-		if !ok {
-			s.skipped[SkipNoPartner]++
-			continue
-		}
-		s.items = append(s.items, pairItem{time: toTime(parsedName{kind: kind, value: key}), left: lp, right: rp})
-	}
-	for key := range byKey[1] {
-		if _, ok := byKey[0][key]; !ok {
-			s.skipped[SkipNoPartner]++
+	// Pairs and lone images, in sorted path order so that the list of
+	// skipped files does not depend on map order.
+	for i := range sides {
+		for _, n := range sides[i] {
+			if byKey[i][n.p.value] != n.path {
+				continue // a duplicate, already counted
+			}
+			other, ok := byKey[1-i][n.p.value]
+			switch {
+			case !ok:
+				s.skipSide(i, n.path, SkipNoPartner, "")
+			case i == 0:
+				s.items = append(s.items, pairItem{time: rule.toTime(n.p.value), left: n.path, right: other})
+			}
 		}
 	}
 	slices.SortFunc(s.items, func(a, b pairItem) int {
@@ -503,18 +508,82 @@ func (s *PairSource) pairFromNames(left, right []string, fps float64) error {
 		}
 		return strings.Compare(a.left, b.left)
 	})
-	// Distinct numbers give distinct times except through rounding of
-	// huge values; keep the order strict whatever happens.
+	s.screen(maxSpan, false)
+	return nil
+}
+
+// skipSide counts a lone image of side i (0 left, 1 right).
+func (s *PairSource) skipSide(i int, path, reason, detail string) {
+	files := []string{path, ""}
+	if i == 1 {
+		files = []string{"", path}
+	}
+	s.log.add(SkippedItem{Files: files, Reason: reason, Detail: detail})
+}
+
+// screen drops the candidate pairs whose time cannot belong to the record:
+// not finite, farther than maxSpan from the median time, or (when
+// inFileOrder, the items being in frame order) out of time order, keeping
+// the longest increasing run; then sorts the rest by time.
+func (s *PairSource) screen(maxSpan float64, inFileOrder bool) {
+	s.items = screenItems(s.items, maxSpan, inFileOrder, &s.log, func(it pairItem) []string { return []string{it.left, it.right} })
+}
+
+// screenItems is [PairSource.screen] on a list of items; files gives the
+// files of an item for the list of skipped items.
+func screenItems(items []pairItem, maxSpan float64, inFileOrder bool, log *skipLog, files func(pairItem) []string) []pairItem {
+	s := struct{ items []pairItem }{items}
+	skip := func(it pairItem, reason string) {
+		log.add(SkippedItem{Files: files(it), Line: it.line, Reason: reason, Detail: fmt.Sprintf("time %g s", it.time)})
+	}
 	kept := s.items[:0]
 	for _, it := range s.items {
-		if len(kept) > 0 && !(it.time > kept[len(kept)-1].time) {
-			s.skipped[SkipTimeOrder]++
+		if math.IsNaN(it.time) || math.IsInf(it.time, 0) {
+			skip(it, SkipBadTime)
 			continue
 		}
 		kept = append(kept, it)
 	}
 	s.items = kept
-	return nil
+	times := make([]float64, len(s.items))
+	for i, it := range s.items {
+		times[i] = it.time
+	}
+	ok := plausibleSpan(times, maxSpan)
+	kept = s.items[:0]
+	times = times[:0]
+	for i, it := range s.items {
+		if !ok[i] {
+			skip(it, SkipTimeSpan)
+			continue
+		}
+		kept = append(kept, it)
+		times = append(times, it.time)
+	}
+	s.items = kept
+	if inFileOrder {
+		inc := longestIncreasing(times)
+		kept = s.items[:0]
+		for i, it := range s.items {
+			if !inc[i] {
+				skip(it, SkipTimeOrder)
+				continue
+			}
+			kept = append(kept, it)
+		}
+		return kept
+	}
+	// Sorted by time already: distinct numbers give distinct times
+	// except through rounding of huge values; keep the order strict.
+	kept = s.items[:0]
+	for _, it := range s.items {
+		if len(kept) > 0 && !(it.time > kept[len(kept)-1].time) {
+			skip(it, SkipTimeOrder)
+			continue
+		}
+		kept = append(kept, it)
+	}
+	return kept
 }
 
 func cmpFloat(a, b float64) int {
@@ -527,66 +596,110 @@ func cmpFloat(a, b float64) int {
 	return 0
 }
 
-// tsRow is one row of a timestamps file.
-type tsRow struct {
-	frame       int
-	time        float64
-	left, right string
-}
-
 // pairFromTimestamps takes pairs and times from a timestamps file. left and
-// right, when non-nil, select the rows.
-func (s *PairSource) pairFromTimestamps(path string, left, right []string) error {
-	rows, err := readTimestamps(path)
+// right, when non-nil, select the rows. start, when haveStart, is the
+// instant of time 0 set by the caller.
+func (s *PairSource) pairFromTimestamps(path string, left, right []string, maxSpan float64, start TimeOrigin, haveStart bool) error {
+	tab, err := readTimestamps(path, []string{"left", "right"})
 	if err != nil {
 		return err
 	}
+	s.pairFromTable(tab, left, right, maxSpan, start, haveStart)
+	return nil
+}
+
+// pairFromTable takes pairs and times from a timestamps table; see
+// pairFromTimestamps.
+func (s *PairSource) pairFromTable(tab *tsTable, left, right []string, maxSpan float64, start TimeOrigin, haveStart bool) {
+	path := tab.path
 	selecting := left != nil
 	inL, inR := setOf(left), setOf(right)
 	listed := map[string]bool{}
-	slices.SortStableFunc(rows, func(a, b tsRow) int { return a.frame - b.frame })
-	haveLast := false
-	var last float64
+	// A row is selected when either of its files is among the matches;
+	// one that names no file at all is always examined (and counted).
+	selected := func(l, r string) bool { return !selecting || inL[l] || inR[r] || (l == "" && r == "") }
+	for _, it := range tab.skips {
+		l, r := it.Files[1], it.Files[2]
+		listed[l], listed[r] = true, true
+		if selected(l, r) {
+			s.log.add(it)
+		}
+	}
+	rows := tab.rows
+	slices.SortStableFunc(rows, func(a, b tsRow) int { return cmpInt(a.frame, b.frame) })
 	seen := map[int]bool{}
 	for _, r := range rows {
-		listed[r.left], listed[r.right] = true, true
-		if selecting && !inL[r.left] && !inR[r.right] {
+		l, rr := r.files[0], r.files[1]
+		listed[l], listed[rr] = true, true
+		if !selected(l, rr) {
 			continue // outside the selection
 		}
+		item := func(reason, detail string) SkippedItem {
+			return SkippedItem{Files: []string{l, rr}, Line: r.line, Reason: reason, Detail: detail}
+		}
 		if seen[r.frame] {
-			s.skipped[SkipDuplicate]++
+			s.log.add(item(SkipDuplicate, fmt.Sprintf("frame %d", r.frame)))
 			continue
 		}
 		seen[r.frame] = true
 		var okL, okR bool
 		if selecting {
-			okL, okR = inL[r.left], inR[r.right]
+			okL, okR = inL[l], inR[rr]
 		} else {
-			okL, okR = isFile(r.left), isFile(r.right)
+			okL, okR = isFile(l), isFile(rr)
 		}
 		switch {
 		case !okL && !okR:
-			s.skipped[SkipNotFound]++
+			s.log.add(item(SkipNotFound, ""))
 			continue
 		case !okL || !okR:
-			s.skipped[SkipNoPartner]++
+			s.log.add(item(SkipNoPartner, ""))
 			continue
 		}
-		if haveLast && !(r.time > last) {
-			s.skipped[SkipTimeOrder]++
-			continue
-		}
-		haveLast, last = true, r.time
-		s.items = append(s.items, pairItem{time: r.time, left: r.left, right: r.right})
+		s.items = append(s.items, pairItem{time: r.time, left: l, right: rr, line: r.line, utc: r.utc, hasUTC: r.hasUTC})
 	}
 	for _, list := range [][]string{left, right} {
 		for _, p := range list {
 			if !listed[p] {
-				s.skipped[SkipNotListed]++
+				s.log.add(SkippedItem{Files: []string{p}, Reason: SkipNotListed})
 			}
 		}
 	}
-	return nil
+	s.screen(maxSpan, true)
+	col := colTime
+	switch {
+	case tab.haveTime:
+		kept := make([]tsRow, len(s.items))
+		for i, it := range s.items {
+			kept[i] = tsRow{time: it.time, utc: it.utc, hasUTC: it.hasUTC}
+		}
+		s.origin, s.hasOrigin = tab.origin(kept)
+	case len(s.items) > 0:
+		// Times from the utc column alone: seconds from the instant of
+		// time 0, the start_utc setting or the first pair's whole
+		// second.
+		col = colUTC
+		t0 := s.items[0].utc.Truncate(time.Second)
+		from := fmt.Sprintf("%s %s (time 0 at the whole second of the first pair)", OriginUTCColumn, path)
+		if haveStart {
+			t0, from = start.UTC, start.From
+		}
+		for i := range s.items {
+			s.items[i].time = s.items[i].utc.Sub(t0).Seconds()
+		}
+		s.origin, s.hasOrigin = TimeOrigin{UTC: t0, From: from}, true
+	}
+	s.rule = fmt.Sprintf("times read from the %s column of timestamps file %s", col, path)
+}
+
+func cmpInt(a, b int) int {
+	switch {
+	case a < b:
+		return -1
+	case a > b:
+		return 1
+	}
+	return 0
 }
 
 func setOf(paths []string) map[string]bool {
@@ -605,81 +718,6 @@ func isFile(p string) bool {
 	return err == nil && st.Mode().IsRegular()
 }
 
-// readTimestamps reads and checks a timestamps file. Image paths are made
-// absolute relative to the file's folder; empty cells stay empty.
-func readTimestamps(path string) ([]tsRow, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		if errors.Is(err, fs.ErrNotExist) {
-			return nil, fmt.Errorf("ingest: timestamps file %s does not exist; check the path", path)
-		}
-		return nil, fmt.Errorf("ingest: cannot open timestamps file %s (%v); check its permissions", path, err)
-	}
-	defer f.Close()
-	base, err := filepath.Abs(filepath.Dir(path))
-	if err != nil {
-		return nil, fmt.Errorf("ingest: cannot resolve the folder of timestamps file %s (%v); give an absolute path", path, err)
-	}
-	cr := csv.NewReader(f)
-	cr.Comment = '#'
-	cr.TrimLeadingSpace = true
-	cr.ReuseRecord = true
-	head, err := cr.Read()
-	if err != nil {
-		if err == io.EOF {
-			return nil, fmt.Errorf("ingest: timestamps file %s is empty; it needs the header frame,time_s,left,right and one row per pair", path)
-		}
-		return nil, fmt.Errorf("ingest: timestamps file %s cannot be read as CSV (%v); write it as comma-separated text with the header frame,time_s,left,right", path, err)
-	}
-	col := map[string]int{"frame": -1, "time_s": -1, "left": -1, "right": -1}
-	for i, h := range head {
-		h = strings.ToLower(strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")))
-		if j, ok := col[h]; ok && j < 0 {
-			col[h] = i
-		}
-	}
-	for _, name := range []string{"frame", "time_s", "left", "right"} {
-		if col[name] < 0 {
-			return nil, fmt.Errorf("ingest: timestamps file %s has no %q column in its header (%s); the header must name frame,time_s,left,right", path, name, strings.Join(head, ","))
-		}
-	}
-	resolve := func(p string) string {
-		p = strings.TrimSpace(p)
-		if p == "" {
-			return ""
-		}
-		if !filepath.IsAbs(p) {
-			p = filepath.Join(base, p)
-		}
-		return filepath.Clean(p)
-	}
-	var rows []tsRow
-	for {
-		rec, err := cr.Read()
-		if err == io.EOF {
-			break
-		}
-		line, _ := cr.FieldPos(0)
-		if err != nil {
-			return nil, fmt.Errorf("ingest: timestamps file %s is malformed near line %d (%v); every row needs the same columns as the header", path, line, err)
-		}
-		fr, err := strconv.Atoi(strings.TrimSpace(rec[col["frame"]]))
-		if err != nil {
-			return nil, fmt.Errorf("ingest: timestamps file %s line %d has frame %q, which is not a whole number; fix or remove that row", path, line, rec[col["frame"]])
-		}
-		t, err := strconv.ParseFloat(strings.TrimSpace(rec[col["time_s"]]), 64)
-		if err != nil || math.IsNaN(t) || math.IsInf(t, 0) {
-			return nil, fmt.Errorf("ingest: timestamps file %s line %d has time_s %q, which is not a finite number of seconds; fix or remove that row", path, line, rec[col["time_s"]])
-		}
-		rows = append(rows, tsRow{frame: fr, time: t,
-			left: resolve(rec[col["left"]]), right: resolve(rec[col["right"]])})
-	}
-	if len(rows) == 0 {
-		return nil, fmt.Errorf("ingest: timestamps file %s has a header but no rows; it needs one row per image pair", path)
-	}
-	return rows, nil
-}
-
 // Len returns the number of pairs the source tries, in time order; Next
 // delivers at most that many.
 func (s *PairSource) Len() int { return len(s.items) }
@@ -695,18 +733,11 @@ func (s *PairSource) Times() []float64 {
 }
 
 // Skipped returns the number of frames left out so far, by reason: those
-// found at open (no partner, no number, duplicates, time order, files not
-// listed) and those met by Next (unreadable images, sizes). Reasons with no
-// frames are left out.
-func (s *PairSource) Skipped() SkipCounts {
-	c := SkipCounts{}
-	for k, v := range s.skipped {
-		if v > 0 {
-			c[k] = v
-		}
-	}
-	return c
-}
+// found at open (no partner, no number, duplicates, malformed rows, times
+// that are not finite, out of span or out of order, files not listed) and
+// those met by Next (unreadable images, sizes). Reasons with no frames are
+// left out. [PairSource.SkippedFiles] names them.
+func (s *PairSource) Skipped() SkipCounts { return s.log.Counts() }
 
 // Rewind makes the next call to Next return the first pair again. Pairs
 // skipped by Next are counted once however often the record is read.
@@ -730,10 +761,10 @@ func (s *PairSource) Next(f *StereoFrame) error {
 	}
 	for ; s.next < len(s.items); s.next++ {
 		it := s.items[s.next]
-		reason, l, r := s.decode(it)
+		reason, detail, l, r := s.decode(it)
 		if reason != "" {
 			if s.next >= s.visited {
-				s.skipped[reason]++
+				s.log.add(SkippedItem{Files: []string{it.left, it.right}, Line: it.line, Reason: reason, Detail: detail})
 			}
 			s.visit()
 			continue
@@ -757,33 +788,37 @@ func (s *PairSource) visit() {
 	}
 }
 
-// decode reads both images of a pair; on failure it returns the reason and
-// releases what it read.
-func (s *PairSource) decode(it pairItem) (reason string, l, r gocv.Mat) {
+// decode reads both images of a pair; on failure it returns the reason,
+// which image it concerns, and releases what it read.
+func (s *PairSource) decode(it pairItem) (reason, detail string, l, r gocv.Mat) {
+	size := func(side string, m gocv.Mat) string {
+		return fmt.Sprintf("%s image %dx%d", side, m.Cols(), m.Rows())
+	}
 	l = gocv.IMRead(it.left, gocv.IMReadGrayScale)
 	if l.Empty() {
 		l.Close()
-		return SkipUnreadable, gocv.Mat{}, gocv.Mat{}
+		return SkipUnreadable, "left image", gocv.Mat{}, gocv.Mat{}
 	}
 	if s.size != (image.Point{}) && (l.Cols() != s.size.X || l.Rows() != s.size.Y) {
+		detail = fmt.Sprintf("%s, expected %dx%d", size("left", l), s.size.X, s.size.Y)
 		l.Close()
-		return SkipWrongSize, gocv.Mat{}, gocv.Mat{}
+		return SkipWrongSize, detail, gocv.Mat{}, gocv.Mat{}
 	}
 	r = gocv.IMRead(it.right, gocv.IMReadGrayScale)
 	switch {
 	case r.Empty():
-		reason = SkipUnreadable
+		reason, detail = SkipUnreadable, "right image"
 	case s.size != (image.Point{}) && (r.Cols() != s.size.X || r.Rows() != s.size.Y):
-		reason = SkipWrongSize
+		reason, detail = SkipWrongSize, fmt.Sprintf("%s, expected %dx%d", size("right", r), s.size.X, s.size.Y)
 	case r.Cols() != l.Cols() || r.Rows() != l.Rows():
-		reason = SkipSizeMismatch
+		reason, detail = SkipSizeMismatch, size("left", l)+", "+size("right", r)
 	}
 	if reason != "" {
 		l.Close()
 		r.Close()
-		return reason, gocv.Mat{}, gocv.Mat{}
+		return reason, detail, gocv.Mat{}, gocv.Mat{}
 	}
-	return "", l, r
+	return "", "", l, r
 }
 
 // release closes m if it holds an OpenCV matrix.

@@ -611,7 +611,7 @@ func TestPairsErrors(t *testing.T) {
 		{"mixed names", PairSpec{Dir: filepath.Join(dir, "mix")}, "mix conventions"},
 		{"no pair", PairSpec{Dir: filepath.Join(dir, "lonely"), FPS: 10}, "no usable image pair"},
 		{"bad time", PairSpec{TimestampsFile: bad}, "line 2"},
-		{"bad header", PairSpec{TimestampsFile: nohead}, `no "time_s" column`},
+		{"bad header", PairSpec{TimestampsFile: nohead}, `neither a "time_s" nor a "utc" column`},
 		{"missing csv", PairSpec{TimestampsFile: filepath.Join(dir, "none.csv")}, "does not exist"},
 		{"missing dir", PairSpec{Dir: filepath.Join(dir, "none")}, "does not exist"},
 		{"nothing", PairSpec{}, "no stereo images"},
@@ -678,6 +678,153 @@ func BenchmarkPairsNext(b *testing.B) {
 			}
 		} else if err != nil {
 			b.Fatal(err)
+		}
+	}
+}
+
+// TestPairsNameRuleReported: how the names were read is said in a
+// sentence; nine-digit names that step like a frame counter are refused
+// with a sentence that asks for the frame rate or a timestamps file.
+func TestPairsNameRuleReported(t *testing.T) {
+	checkMats(t)
+	mk := func(names ...string) string {
+		dir := t.TempDir()
+		for i, n := range names {
+			writePNG(t, filepath.Join(dir, "left_"+n+".png"), greyPattern(8, 8, 2*i))
+			writePNG(t, filepath.Join(dir, "right_"+n+".png"), greyPattern(8, 8, 2*i+1))
+		}
+		return dir
+	}
+	// Milliseconds zero-padded to nine digits, 100 ms apart (10 Hz).
+	ms := mk("000000000", "000000100", "000000200", "000000300")
+	src, err := OpenPairs(PairSpec{Dir: ms})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Check: number / 1000 s, the rule of OpenPairs' documentation.
+	wantTimes(t, "ms names", src.Times(), []float64{0, 0.1, 0.2, 0.3})
+	if r := src.TimeRule(); !strings.Contains(r, "taken as milliseconds") || !strings.Contains(r, "100 ms") || !strings.Contains(r, "10 Hz") {
+		t.Errorf("TimeRule %q does not say the names were read as milliseconds 100 ms apart", r)
+	}
+	// A nine-digit frame counter: steps of 1 cannot be told from 1000 Hz
+	// of milliseconds.
+	counter := mk("000000001", "000000002", "000000003", "000000005")
+	_, err = OpenPairs(PairSpec{Dir: counter})
+	oneLine(t, err, "frame counter", "FPS", "timestamps file", "1000 Hz")
+	// With the frame rate given, the same names are frame numbers.
+	src, err = OpenPairs(PairSpec{Dir: counter, FPS: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Check: number / 4 Hz (definition of the frame rate).
+	wantTimes(t, "counter at 4 Hz", src.Times(), []float64{0.25, 0.5, 0.75, 1.25})
+	if r := src.TimeRule(); !strings.Contains(r, "frame number at 4 Hz") {
+		t.Errorf("TimeRule %q does not say frame numbers at 4 Hz", r)
+	}
+	// Names with units, and a timestamps file, say so too.
+	units := t.TempDir()
+	writePNG(t, filepath.Join(units, "left_t1.5s.png"), greyPattern(8, 8, 1))
+	writePNG(t, filepath.Join(units, "right_t1.5s.png"), greyPattern(8, 8, 2))
+	src, err = OpenPairs(PairSpec{Dir: units})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := src.TimeRule(); !strings.Contains(r, "in seconds") {
+		t.Errorf("TimeRule %q does not say seconds", r)
+	}
+}
+
+// TestPairsSkippedFilesNamed: every skipped pair or file is named with its
+// reason, in the order met, up to MaxNamedSkips; the rest are counted.
+func TestPairsSkippedFilesNamed(t *testing.T) {
+	checkMats(t)
+	dir := t.TempDir()
+	writePNG(t, filepath.Join(dir, "left_0001.png"), greyPattern(16, 8, 1))
+	writePNG(t, filepath.Join(dir, "right_0001.png"), greyPattern(16, 8, 2))
+	if err := os.WriteFile(filepath.Join(dir, "left_0002.png"), []byte("not a png"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	writePNG(t, filepath.Join(dir, "right_0002.png"), greyPattern(16, 8, 3))
+	writePNG(t, filepath.Join(dir, "right_0003.png"), greyPattern(16, 8, 4))
+	const lone = MaxNamedSkips + 20
+	for k := 0; k < lone; k++ {
+		writePNG(t, filepath.Join(dir, fmt.Sprintf("left_%04d.png", 100+k)), greyPattern(4, 4, k))
+	}
+	src, err := OpenPairs(PairSpec{Dir: dir, FPS: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	readAll(t, src, nil)
+	// Check: the files planted above: lone+1 without a partner (the
+	// lone left images and right_0003), one unreadable pair.
+	if got, want := src.Skipped(), (SkipCounts{SkipNoPartner: lone + 1, SkipUnreadable: 1}); !maps.Equal(got, want) {
+		t.Errorf("Skipped = %v, want %v", got, want)
+	}
+	list := src.SkippedFiles()
+	if len(list.Items) != MaxNamedSkips || list.Unnamed != lone+2-MaxNamedSkips {
+		t.Errorf("%d named, %d unnamed; want %d and %d", len(list.Items), list.Unnamed, MaxNamedSkips, lone+2-MaxNamedSkips)
+	}
+	first := list.Items[0]
+	if first.Reason != SkipNoPartner || filepath.Base(first.Files[0]) != "left_0100.png" || first.Files[1] != "" {
+		t.Errorf("first skipped item %v, want left_0100.png without a partner", first)
+	}
+	// Rewind and read again: nothing is named twice.
+	src.Rewind()
+	readAll(t, src, nil)
+	if again := src.SkippedFiles(); len(again.Items) != len(list.Items) || again.Unnamed != list.Unnamed {
+		t.Errorf("after Rewind: %d named, %d unnamed", len(again.Items), again.Unnamed)
+	}
+	// A record of fewer skips names them all, unreadable pair included.
+	small := t.TempDir()
+	writePNG(t, filepath.Join(small, "left_0001.png"), greyPattern(8, 8, 1))
+	writePNG(t, filepath.Join(small, "right_0001.png"), greyPattern(8, 8, 2))
+	if err := os.WriteFile(filepath.Join(small, "left_0002.png"), []byte("not a png"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	writePNG(t, filepath.Join(small, "right_0002.png"), greyPattern(8, 8, 3))
+	src, err = OpenPairs(PairSpec{Dir: small, FPS: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	readAll(t, src, nil)
+	l := src.SkippedFiles()
+	if len(l.Items) != 1 || l.Items[0].Reason != SkipUnreadable || filepath.Base(l.Items[0].Files[0]) != "left_0002.png" || l.Items[0].Detail != "left image" {
+		t.Errorf("SkippedFiles = %+v, want the unreadable left_0002.png", l)
+	}
+}
+
+// TestPairsBadFirstPair: a bad first pair is skipped by the source like
+// the same pair later in the record: unreadable, wrong size, or without a
+// partner, it is counted and the record goes on from the next pair.
+func TestPairsBadFirstPair(t *testing.T) {
+	checkMats(t)
+	for _, bad := range []string{"unreadable", "size", "partner"} {
+		for _, pos := range []int{0, 2} {
+			dir := t.TempDir()
+			for k := 0; k < 4; k++ {
+				l, r := filepath.Join(dir, fmt.Sprintf("left_%d.png", k)), filepath.Join(dir, fmt.Sprintf("right_%d.png", k))
+				writePNG(t, r, greyPattern(16, 8, 2*k+1))
+				switch {
+				case k != pos:
+					writePNG(t, l, greyPattern(16, 8, 2*k))
+				case bad == "unreadable":
+					if err := os.WriteFile(l, []byte("GIF89a"), 0o644); err != nil {
+						t.Fatal(err)
+					}
+				case bad == "size":
+					writePNG(t, l, greyPattern(12, 8, 2*k))
+				}
+			}
+			src, err := OpenPairs(PairSpec{Dir: dir, FPS: 1, ExpectedSize: image.Pt(16, 8)})
+			if err != nil {
+				t.Fatalf("%s at %d: %v", bad, pos, err)
+			}
+			if n := readAll(t, src, nil); n != 3 {
+				t.Errorf("%s pair at %d: %d pairs delivered, want 3", bad, pos, n)
+			}
+			if n := len(src.SkippedFiles().Items); n != 1 {
+				t.Errorf("%s pair at %d: %d skipped items, want 1", bad, pos, n)
+			}
 		}
 	}
 }

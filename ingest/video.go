@@ -34,6 +34,9 @@ type VideoOptions struct {
 	// another size is an error at open; a frame of another size later on
 	// is skipped and counted.
 	ExpectedSize image.Point
+	// StartUTC, when set, is the absolute instant of the video's time 0
+	// (ISO 8601, see [ParseInstant]). Default "": none.
+	StartUTC string
 }
 
 // videoBackends are the OpenCV video readers tried, in order: FFmpeg, then
@@ -119,7 +122,10 @@ type VideoPairSource struct {
 	ended    bool
 	haveLast bool
 	lastTime float64
-	skipped  SkipCounts
+	log      skipLog
+	rule     string
+	origin   TimeOrigin
+	hasOrig  bool
 	closed   bool
 }
 
@@ -158,7 +164,11 @@ func openVideoSource(leftPath, rightPath string, sbs bool, opt VideoOptions) (sr
 	if opt.ExpectedSize != (image.Point{}) && (opt.ExpectedSize.X <= 0 || opt.ExpectedSize.Y <= 0) {
 		return nil, fmt.Errorf("ingest: expected image size %dx%d is invalid; give a positive width and height, or zero for no check", opt.ExpectedSize.X, opt.ExpectedSize.Y)
 	}
-	s := &VideoPairSource{skipped: SkipCounts{}}
+	start, haveStart, err := originFromSetting(opt.StartUTC)
+	if err != nil {
+		return nil, err
+	}
+	s := &VideoPairSource{log: newSkipLog(), origin: start, hasOrig: haveStart}
 	defer func() {
 		if err != nil {
 			s.Close()
@@ -200,10 +210,13 @@ func openVideoSource(leftPath, rightPath string, sbs bool, opt VideoOptions) (sr
 	switch {
 	case opt.FPS != 0:
 		s.fps, s.indexTime = opt.FPS, true
+		s.rule = fmt.Sprintf("times of the video frames taken as frame number / %g Hz (the frame rate given)", opt.FPS)
 	case !math.IsNaN(s.left.t):
 		s.fps = s.left.fps
+		s.rule = "times of the video frames read from the stream (the decoder's time of each frame, from the start of the stream)"
 	case s.left.fps > 0:
 		s.fps, s.indexTime = s.left.fps, true
+		s.rule = fmt.Sprintf("times of the video frames taken as frame number / %g Hz (the container's frame rate; the stream gives no frame times)", s.left.fps)
 	default:
 		return nil, fmt.Errorf("ingest: %s video %s gives neither frame times nor a frame rate; give the frame rate (FPS)", which, leftPath)
 	}
@@ -220,14 +233,26 @@ func openVideoSource(leftPath, rightPath string, sbs bool, opt VideoOptions) (sr
 func (s *VideoPairSource) Len() int { return s.n }
 
 // Skipped returns the number of frames left out so far, by reason.
-func (s *VideoPairSource) Skipped() SkipCounts {
-	c := SkipCounts{}
-	for k, v := range s.skipped {
-		if v > 0 {
-			c[k] = v
-		}
+func (s *VideoPairSource) Skipped() SkipCounts { return s.log.Counts() }
+
+// SkippedFiles names the frames skipped so far with their reasons (the
+// first [MaxNamedSkips]; the rest are counted in Unnamed).
+func (s *VideoPairSource) SkippedFiles() SkipList { return s.log.List() }
+
+// TimeRule says in one sentence how the times of the frames are found.
+func (s *VideoPairSource) TimeRule() string { return s.rule }
+
+// Origin returns the absolute instant of time 0 (from VideoOptions.StartUTC)
+// and where it came from; ok is false when none was given.
+func (s *VideoPairSource) Origin() (o TimeOrigin, ok bool) { return s.origin, s.hasOrig }
+
+// skip counts and names a skipped frame.
+func (s *VideoPairSource) skip(reason, detail string) {
+	files := []string{s.left.path, ""}
+	if s.right != nil {
+		files[1] = s.right.path
 	}
-	return c
+	s.log.add(SkippedItem{Files: files, Reason: reason, Detail: detail})
 }
 
 // Close releases the video files and buffers; Next fails after Close. The
@@ -267,7 +292,9 @@ func (s *VideoPairSource) readPair() bool {
 		for longer.read() {
 			n++
 		}
-		s.skipped[SkipVideoLength] += n
+		for k := 0; k < n; k++ {
+			s.skip(SkipVideoLength, fmt.Sprintf("frame %d of %s", s.frame+1+k, longer.path))
+		}
 	}
 	return false
 }
@@ -292,11 +319,11 @@ func (s *VideoPairSource) Next(f *StereoFrame) error {
 			t = float64(s.frame) / s.fps
 		}
 		if reason := s.check(t); reason != "" {
-			s.skipped[reason]++
+			s.skip(reason, fmt.Sprintf("frame %d, time %g s", s.frame, t))
 			continue
 		}
 		if !s.deliver(f) {
-			s.skipped[SkipUnreadable]++
+			s.skip(SkipUnreadable, fmt.Sprintf("frame %d: pixel format %v", s.frame, s.left.buf.Type()))
 			continue
 		}
 		s.haveLast, s.lastTime = true, t

@@ -10,8 +10,12 @@ import (
 	"os/exec"
 	"path/filepath"
 	"runtime"
+	"strings"
 	"syscall"
 	"testing"
+
+	"crestspeed/report/summary"
+	"crestspeed/report/table"
 )
 
 // writeSyntheticTrackDir writes crests.csv (nTracks tracks of about
@@ -30,54 +34,64 @@ func syntheticTrackDir(dir string, nTracks, meanRows int, seed uint64) error {
 		return err
 	}
 	bw := bufio.NewWriterSize(f, 1<<20)
-	bw.WriteString(joinCSV(CrestColumns))
+	bw.WriteString(strings.Join(table.Crests.Names(), ",") + "\n")
 	rng := rand.New(rand.NewPCG(seed, 1))
 	const chunk = 1000
+	counts := summary.CrestsSummary{Detections: nTracks * meanRows, Tracks: nTracks}
 	for done := 0; done < nTracks; done += chunk {
 		rows := syntheticRows(rng, min(chunk, nTracks-done), meanRows)
 		for i := range rows {
 			rows[i].TrackID += done
 		}
+		t := fill(table.Crests, rows, crestFields)
+		counts.Rows += t.Len()
+		for _, v := range t.Cols[table.CrestSpeed] {
+			if !math.IsNaN(v) {
+				counts.RowsWithSpeed++
+			}
+		}
 		var part bytes.Buffer
-		if err := WriteCrestsCSV(&part, rows); err != nil {
+		if err := t.Write(&part); err != nil {
 			return err
 		}
 		body := part.Bytes()
 		bw.Write(body[bytes.IndexByte(body, '\n')+1:]) // without the header
 	}
-	if err := bw.Flush(); err != nil {
+	if err := first(bw.Flush(), f.Close()); err != nil {
 		return err
 	}
-	if err := f.Close(); err != nil {
-		return err
-	}
+	counts.RowsWithoutSpeed = counts.Rows - counts.RowsWithSpeed
 	// a JONSWAP-like spectrum peaking at 0.2 Hz
-	var fr, ps []float64
+	sp := table.New(table.Spectrum, 129)
 	for i := 0; i <= 128; i++ {
 		x := float64(i) / 128
-		fr = append(fr, x)
+		sp.Cols[0][i], sp.Cols[1][i] = x, 0
 		if x > 0 {
-			ps = append(ps, 0.09/math.Pow(x/0.2, 5)*math.Exp(-1.25*math.Pow(x/0.2, -4)))
-		} else {
-			ps = append(ps, 0)
+			sp.Cols[1][i] = 0.09 / math.Pow(x/0.2, 5) * math.Exp(-1.25*math.Pow(x/0.2, -4))
 		}
 	}
-	sf, _ := os.Create(filepath.Join(dir, "spectrum.csv"))
-	WriteSpectrumCSV(sf, fr, ps)
-	sf.Close()
+	sp.Round()
+	sf, err := os.Create(filepath.Join(dir, "spectrum.csv"))
+	if err != nil {
+		return err
+	}
+	if err := first(sp.Write(sf), sf.Close()); err != nil {
+		return err
+	}
 	sum := &Summary{
-		Tool: map[string]string{"name": "crestspeed", "version": "test"}, Caution: Caution,
+		Tool: map[string]string{"name": "crestspeed", "version": "test"}, Caution: summary.Caution,
 		Config: map[string]any{"track": map[string]any{"steepness_bounds": []float64{0.1, 0.2}}},
 		Inputs: []FileInfo{{Path: "/data/synthetic-basin.nc", Bytes: 123456, SHA256: "0123abcd"}},
-		Record: RecordSummary{Title: "synthetic crest rows", Attributes: map[string]string{"site": "test basin (synthetic)"},
+		Record: summary.RecordSummary{Title: "synthetic crest rows", Attributes: map[string]string{"site": "test basin (synthetic)"},
 			TimeUnits: "seconds since 2026-06-14T09:00:00Z", FirstTimeS: 0, LastTimeS: 110},
-		Frames:   FramesSummary{InFile: 1100, Read: 1098, Skipped: 2, SkippedReasons: map[string]int{"all-NaN frame": 2}, IntervalS: 0.1},
-		SeaState: SeaStateSummary{Hm0: 1.2, Tp: 5, MeanDirection: 17.2, DirectionSource: "estimated from the record", Depth: 0, DepthSource: "given in the configuration", PeakPhaseSpeed: 7.8, PeakWavelength: 39},
-		Masked:   0.013,
-		Crests:   CrestsSummary{Detections: nTracks * meanRows, Tracks: nTracks},
-		Method:   map[string]any{"steepness_bounds": []float64{0.1, 0.2}, "crest_speed_window_s": 1.25},
-		Timings:  map[string]float64{"sea state": 1.5},
-		Outputs:  map[string]string{},
+		Frames: summary.FramesSummary{InFile: 1100, Read: 1098, Skipped: 2, SkippedReasons: map[string]int{"all-NaN frame": 2}, IntervalS: 0.1},
+		SeaState: summary.SeaStateSummary{Hm0: 1.2, Tp: 5, TpUncertainty: math.NaN(), MeanDirection: 17.2, DirectionSource: "estimated from the record",
+			Depth: 0, DepthSource: "given in the configuration", PeakPhaseSpeed: 7.8, PeakPhaseSpeedUncertainty: math.NaN(), PeakWavelength: 39},
+		Masked:  0.013,
+		Crests:  counts,
+		Method:  map[string]any{"steepness_bounds": []float64{0.1, 0.2}, "crest_speed_window_s": 1.25},
+		Timings: map[string]float64{"sea state": 1.5},
+		Outputs: map[string]string{},
 	}
 	js, err := sum.JSON()
 	if err != nil {

@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"context"
+	"crestspeed/speed/analysis"
 	"encoding/base64"
 	"encoding/json"
 	"html"
@@ -18,19 +19,38 @@ import (
 	"testing"
 
 	"crestspeed/ingest"
+	"crestspeed/report/stats"
 	"crestspeed/samples"
 	"crestspeed/speed"
 )
 
+// testSea is the small directional JONSWAP record of the tests: 40 s of
+// a 72 m × 40 m grid at 10 frames per second.
+func testSea() samples.Scenario {
+	return samples.Scenario{
+		Site: "test basin (synthetic)", Kind: samples.KindJONSWAP,
+		JONSWAP: samples.JONSWAPSea{HsM: 1.2, TpS: 4, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 3, Components: 96, FMaxRatio: 2.5},
+		Grid:    samples.GridSpec{Nx: 72, Ny: 40, DxM: 1, DyM: 1, FPS: 10, Duration: 40},
+	}
+}
+
+// synthesize writes the record of a scenario (samples.Synthesize).
+func synthesize(t *testing.T, sc samples.Scenario, nc string) {
+	t.Helper()
+	if _, err := samples.Synthesize(context.Background(), sc, nc, 1, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+}
+
 // analyseFile runs the crest analysis on an elevation-map file.
-func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record {
+func analyseFile(t *testing.T, nc string, opt analysis.Options) *analysis.Record {
 	t.Helper()
 	src, err := ingest.OpenElevation(nc, ingest.ElevationOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer src.Close()
-	rec, err := speed.AnalyseRecord(context.Background(), src, opt)
+	rec, err := analysis.Run(context.Background(), src, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -43,26 +63,20 @@ func analyseFile(t *testing.T, nc string, opt speed.RecordOptions) *speed.Record
 // on crests picked by their B_x — on five of the eight tracks whose B_x is
 // highest, at the frame of their largest B_x, and on four tracks below
 // those — with one saturated foam frame; the record is synthesised again
-// with the foam and analysed with whitecaps and B_x (speed.AnalyseRecord),
+// with the foam and analysed with whitecaps and B_x (analysis.Run),
 // and the files of "crestspeed track" are written (WriteTrackOutputs).
 //
 // A linear synthetic sea keeps B_x well below the published threshold
 // (about 0.85, Barthelemy et al. 2018), so the threshold here is set
 // between the eighth and ninth highest track maxima: eight tracks are
 // flagged, and every cell of the confusion table is populated.
-func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
+func breakingTrackDir(t *testing.T) (string, *analysis.Record, *Summary) {
 	t.Helper()
 	dir := t.TempDir()
-	sc := samples.Scenario{
-		Site: "test basin (synthetic)", Kind: samples.KindJONSWAP,
-		JONSWAP: samples.JONSWAPSea{HsM: 1.2, TpS: 4, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 3, Components: 96, FMaxRatio: 2.5},
-		Grid:    samples.GridSpec{Nx: 72, Ny: 40, DxM: 1, DyM: 1, FPS: 10, Duration: 40},
-	}
+	sc := testSea()
 	plain := filepath.Join(dir, "plain.nc")
-	if _, err := samples.Synthesize(context.Background(), sc, plain, 1, 2, nil); err != nil {
-		t.Fatal(err)
-	}
-	opt := speed.RecordOptions{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2, BreakingIndex: true}
+	synthesize(t, sc, plain)
+	opt := analysis.Options{MinCrestFraction: 0.1, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: 2, BreakingIndex: true}
 	first := analyseFile(t, plain, opt)
 	type peak struct {
 		bx  float64
@@ -96,9 +110,7 @@ func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
 		})
 	}
 	nc := filepath.Join(dir, "elevation.nc")
-	if _, err := samples.Synthesize(context.Background(), sc, nc, 1, 2, nil); err != nil {
-		t.Fatal(err)
-	}
+	synthesize(t, sc, nc)
 	opt.Whitecaps = true
 	rec := analyseFile(t, nc, opt)
 	if rec.Whitecaps == nil || rec.Inception == nil {
@@ -115,119 +127,6 @@ func breakingTrackDir(t *testing.T) (string, *speed.Record, *Summary) {
 		t.Fatal(err)
 	}
 	return tracks, rec, sum
-}
-
-// sumCellRE matches the cells of the whitecap and inception tables.
-var sumCellRE = regexp.MustCompile(`data-sum="([^"]+)"(?: data-scale="([^"]*)")?>([^<]*)<`)
-
-// superRE matches the m×10ⁿ notation of the page.
-var superRE = regexp.MustCompile(`×10([⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+)$`)
-
-// parseShown reads a number as the page shows it and the half unit of its
-// last digit (the rounding the display allows).
-func parseShown(s string) (v, half float64, err error) {
-	exp := 0
-	if m := superRE.FindStringSubmatch(s); m != nil {
-		plain := strings.NewReplacer("⁻", "-", "⁰", "0", "¹", "1", "²", "2", "³", "3", "⁴", "4", "⁵", "5", "⁶", "6", "⁷", "7", "⁸", "8", "⁹", "9").Replace(m[1])
-		exp, _ = strconv.Atoi(plain)
-		s = s[:len(s)-len(m[0])]
-	}
-	if i := strings.IndexAny(s, "eE"); i >= 0 {
-		e, err := strconv.Atoi(s[i+1:])
-		if err != nil {
-			return 0, 0, err
-		}
-		exp += e
-		s = s[:i]
-	}
-	v, err = strconv.ParseFloat(s, 64)
-	if err != nil {
-		return 0, 0, err
-	}
-	dec := 0
-	if i := strings.IndexByte(s, '.'); i >= 0 {
-		dec = len(s) - i - 1
-	}
-	scale := math.Pow(10, float64(exp))
-	return v * scale, 0.5 * math.Pow(10, -float64(dec)) * scale, nil
-}
-
-// lookup follows a path like "whitecaps/front_speed_ratio/peak/classes/0/n"
-// through decoded JSON; "inception/flags#" is the length of the flags list.
-func lookup(js map[string]any, path string) (any, bool) {
-	var cur any = js
-	for _, p := range strings.Split(path, "/") {
-		count := strings.HasSuffix(p, "#")
-		p = strings.TrimSuffix(p, "#")
-		switch c := cur.(type) {
-		case map[string]any:
-			v, ok := c[p]
-			if !ok {
-				return nil, false
-			}
-			cur = v
-		case []any:
-			i, err := strconv.Atoi(p)
-			if err != nil || i < 0 || i >= len(c) {
-				return nil, false
-			}
-			cur = c[i]
-		default:
-			return nil, false
-		}
-		if count {
-			l, ok := cur.([]any)
-			if !ok {
-				return nil, false
-			}
-			cur = float64(len(l))
-		}
-	}
-	return cur, true
-}
-
-// checkBreakingCells compares every data-sum cell of the page with the
-// value at its path in summary.json, within the rounding of the display;
-// it returns the number of cells checked.
-func checkBreakingCells(t *testing.T, page string, summaryJSON []byte) int {
-	t.Helper()
-	var js map[string]any
-	if err := json.Unmarshal(summaryJSON, &js); err != nil {
-		t.Fatal(err)
-	}
-	cells := sumCellRE.FindAllStringSubmatch(page, -1)
-	for _, c := range cells {
-		key, scaleText, text := c[1], c[2], strings.TrimSpace(html.UnescapeString(c[3]))
-		want, ok := lookup(js, key)
-		if !ok {
-			t.Errorf("cell %s: summary.json has no such value", key)
-			continue
-		}
-		if want == nil {
-			if text != "–" {
-				t.Errorf("cell %s shows %q, summary.json has null", key, text)
-			}
-			continue
-		}
-		w, ok := want.(float64)
-		if !ok {
-			t.Errorf("cell %s: summary.json value %v is not a number", key, want)
-			continue
-		}
-		scale := 1.0
-		if scaleText != "" {
-			scale, _ = strconv.ParseFloat(scaleText, 64)
-		}
-		v, half, err := parseShown(text)
-		if err != nil {
-			t.Errorf("cell %s shows %q, not a number", key, text)
-			continue
-		}
-		if math.Abs(v-w*scale) > half*(1+1e-9) {
-			t.Errorf("cell %s shows %q, summary.json has %v (×%g)", key, text, w, scale)
-		}
-	}
-	return len(cells)
 }
 
 // The report rebuilt from the files of a tracking run with whitecaps and
@@ -250,7 +149,7 @@ func TestBreakingReport(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if d.Whitecaps == nil || len(d.Whitecaps.Rows) != ws.Rows || len(d.Whitecaps.Coverage) != ws.FramesAnalysed {
+	if d.Whitecaps == nil || d.Whitecaps.Rows.Len() != ws.Rows || d.Whitecaps.Coverage.Len() != ws.FramesAnalysed {
 		t.Fatalf("whitecap files not read back: %+v", d.Whitecaps)
 	}
 	out := filepath.Join(t.TempDir(), "report")
@@ -287,7 +186,7 @@ func TestBreakingReport(t *testing.T) {
 	// Λ(c) ∝ c⁻⁶ in the equilibrium range), computed from the points drawn;
 	// its amplitude is the least-squares fit of numpy.linalg.lstsq.
 	ref := res.Breaking.Reference
-	if len(ref.C) < 2 || len(ref.Fitted) < minReferenceBins {
+	if len(ref.C) < 2 || len(ref.Fitted) < stats.MinReferenceBins {
 		t.Fatalf("no reference line drawn: %+v", ref)
 	}
 	for i := 1; i < len(ref.C); i++ {
@@ -316,10 +215,10 @@ func TestBreakingReport(t *testing.T) {
 	page := string(pageBytes)
 	sec := sectionOf(t, page)
 	// cells: statistics (3 counts, one per skip reason, 9 figures), two
-	// ratio tables of 4 rows × 6, inception (3), confusion (4), shares (2),
-	// lead times (4)
-	wantCells := 3 + len(ws.Skipped) + 9 + 2*4*6 + 3 + 4 + 2 + 4
-	if n := checkBreakingCells(t, sec, raw); n != wantCells {
+	// ratio tables of 4 rows × 10 (the cells of the crest tables),
+	// inception (3), confusion (4), shares (2), lead times (4)
+	wantCells := 3 + len(ws.Skipped) + 9 + 2*4*10 + 3 + 4 + 2 + 4
+	if n := checkSumCells(t, sec, raw, false); n != wantCells {
 		t.Errorf("the section shows %d checked cells, want %d", n, wantCells)
 	}
 	// ... and they equal those of the track stage's summary.json
@@ -327,7 +226,8 @@ func TestBreakingReport(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	checkBreakingCells(t, sec, trackRaw)
+	checkSumCells(t, sec, trackRaw, true)
+	checkIntervals(t, res.Summary)
 	for _, s := range []string{"Phillips", "Barthelemy", "order of magnitude", "not a fit of the exponent", "underestimate"} {
 		if !strings.Contains(sec, s) {
 			t.Errorf("the section does not say %q", s)
@@ -349,8 +249,9 @@ func TestBreakingReport(t *testing.T) {
 		}
 	}
 
-	// The report from the record in memory (the path "crestspeed track"
-	// takes) computes the same section: the files keep every float64.
+	// The report from the record in memory (the path the tracking stage
+	// takes) computes the same section: the tables are rounded to the
+	// precision of their files.
 	mem, err := WriteReport(t.TempDir(), DeploymentFromRecord(rec, trackSum, tracks), opt)
 	if err != nil {
 		t.Fatal(err)
@@ -360,12 +261,18 @@ func TestBreakingReport(t *testing.T) {
 	if !bytes.Equal(a, b) || mem.Breaking.Reference.Amplitude != ref.Amplitude {
 		t.Errorf("whitecap statistics from the files and from memory differ:\n%s\n%s", b, a)
 	}
-	// the class statistics drawn equal those of summary.json
-	// (including the number of whitecaps per class)
+	// the class statistics drawn are those of the report's summary.json,
+	// and their estimates (including the number of whitecaps per class)
+	// those of the tracking stage's
 	b, _ = json.Marshal(res.Breaking.FrontRatio.Stats())
-	c, _ := json.Marshal(trackSum.Whitecaps.Ratio["peak"])
+	c, _ := json.Marshal(res.Summary.Whitecaps.Ratio["peak"])
 	if !bytes.Equal(b, c) {
 		t.Errorf("the figure's statistics differ from summary.json's:\n%s\n%s", b, c)
+	}
+	b, _ = json.Marshal(pointEstimates(res.Breaking.FrontRatio.Stats()))
+	c, _ = json.Marshal(trackSum.Whitecaps.Ratio["peak"])
+	if !bytes.Equal(b, c) {
+		t.Errorf("the report's whitecap estimates differ from the tracking stage's:\n%s\n%s", b, c)
 	}
 
 	// in the browser: no console message or request, every image decoded;
@@ -388,7 +295,7 @@ document.title = "PROBE " + im.length + " " + im.filter(i => i.complete && i.nat
 		if !strings.Contains(dom, "<title>PROBE 10 10</title>") {
 			t.Errorf("Chromium did not decode the 10 images: %s", regexp.MustCompile(`<title>[^<]*</title>`).FindString(dom))
 		}
-		if n := checkBreakingCells(t, dom, raw); n != wantCells {
+		if n := checkSumCells(t, sectionOf(t, dom), raw, false); n != wantCells {
 			t.Errorf("Chromium's DOM shows %d checked cells, want %d", n, wantCells)
 		}
 		art := filepath.Join("..", "test-artifacts")
@@ -411,6 +318,7 @@ document.title = "PROBE " + im.length + " " + im.filter(i => i.complete && i.nat
 
 	t.Run("bad whitecap files", func(t *testing.T) { badWhitecapFiles(t, tracks) })
 	t.Run("parts absent", func(t *testing.T) { breakingPartsAbsent(t, d) })
+	t.Run("few whitecaps", func(t *testing.T) { fewWhitecaps(t, d, ws.Whitecaps) })
 }
 
 // sectionOf cuts the "Whitecaps and breaking" section out of a page.
@@ -652,8 +560,8 @@ func badWhitecapFiles(t *testing.T, good string) {
 		{"lambda negative", "lambda.csv", setField(lam, 1, 2, "-1e-3"), `lambda.csv line 2, column lambda_m-2_s: "-1e-3" is negative`},
 		{"lambda gap", "lambda.csv", setField(lam, 2, 0, "0.3"), "bins must adjoin"},
 		{"lambda not a count", "lambda.csv", setField(lam, 1, 3, "2.5"), "is not a whole number"},
-		{"coverage above one", "coverage.csv", setField(cov, 1, 2, "1.5"), "coverage 1.5 is outside 0–1"},
-		{"coverage foam beyond known", "coverage.csv", setField(cov, 1, 3, "999999"), "foam cells exceed"},
+		{"coverage above one", "coverage.csv", setField(cov, 1, 2, "1.5"), `coverage.csv line 2, column coverage: "1.5" is above 1`},
+		{"coverage foam beyond known", "coverage.csv", setField(cov, 1, 3, "999999"), "foam cells, more than its"},
 		{"coverage missing", "coverage.csv", "-", "has no coverage.csv"},
 	}
 	for _, c := range cases {
@@ -689,5 +597,53 @@ func badWhitecapFiles(t *testing.T, good string) {
 			t.Errorf("%s: the failed load changed the folder (%d entries, were %d)", c.name, len(after), len(before))
 		}
 		t.Logf("%s → %s", c.name, msg)
+	}
+}
+
+// The whitecap tables carry the few-tracks marker of the crest tables:
+// with a minimum above the number of whitecaps every row of both whitecap
+// tables is marked, and the whitecap PDF figure draws points, not curves;
+// with the default (the record has 7 whitecaps, fewer than 10) the rows
+// are marked where their class has fewer than 10 whitecaps.
+func fewWhitecaps(t *testing.T, d *Deployment, whitecaps int) {
+	for _, min := range []int{whitecaps + 1, 1} {
+		res, err := WriteReport(t.TempDir(), d, Options{Bootstrap: BootstrapOptions{Resamples: 100, Seed: 1, Workers: 2}, MinClassTracks: min})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, _ := os.ReadFile(res.HTML)
+		sec := sectionOf(t, string(b))
+		var rows [][]string // the rows of the two ratio tables (not the confusion table's total)
+		for _, m := range fewRowRE.FindAllStringSubmatch(sec, -1) {
+			if m[3] != "total" {
+				rows = append(rows, m)
+			}
+		}
+		few := 0
+		for _, m := range rows {
+			if m[2] != "" {
+				few++
+			}
+		}
+		want := 0
+		for _, ref := range []string{"peak", "local"} {
+			for _, st := range res.Summary.Whitecaps.Ratio[ref].Groups() {
+				if st.Tracks < min {
+					want++
+				}
+			}
+		}
+		if len(rows) != 8 || few != want || (min > whitecaps && few != 8) {
+			t.Errorf("minimum %d: %d of %d whitecap table rows marked as few, want %d of 8", min, few, len(rows), want)
+		}
+		var pdf []byte
+		for _, f := range res.Figures {
+			if strings.HasSuffix(f.Name, "whitecap_ratio_pdf") {
+				pdf = f.SVG
+			}
+		}
+		if n := strings.Count(string(pdf), "too few whitecaps for a curve"); (min > whitecaps) != (n > 0) {
+			t.Errorf("minimum %d: the whitecap PDF figure draws %d groups as points", min, n)
+		}
 	}
 }

@@ -1,67 +1,25 @@
 package report
 
 import (
-	"encoding/json"
 	"fmt"
 	"math"
 	"os"
 	"path/filepath"
-	"sort"
 	"sync"
 	"time"
+
+	"crestspeed/report/cf"
+	"crestspeed/report/figures"
+	"crestspeed/report/page"
+	"crestspeed/report/stats"
+	"crestspeed/report/table"
 )
-
-// ReportOutputs are what WriteReport puts in its folder (besides
-// summary.json): the page, the CF trajectories and the figures folder.
-var ReportOutputs = []string{"report.html", "crest_tracks.nc", "figures"}
-
-// DefaultHighestCrests is the number of tracks figure 4 follows by default.
-const DefaultHighestCrests = 5
-
-// MaxHighestCrests bounds Options.HighestCrests (figure 4 stays legible).
-const MaxHighestCrests = 10
-
-// FewTracks is the number of tracks below which a class's statistics are
-// flagged in the report as indications only (a choice of this tool).
-const FewTracks = 10
-
-// Options configure WriteReport.
-type Options struct {
-	// Bootstrap configures the confidence intervals.
-	Bootstrap BootstrapOptions
-	// HighestCrests is the number of tracks in figure 4; 0 means
-	// DefaultHighestCrests.
-	HighestCrests int
-	// SteepnessBounds are the inner steepness-class boundaries; nil means
-	// those recorded in the summary of the tracking run.
-	SteepnessBounds []float64
-	// Version is the version of the tool writing the report.
-	Version string
-}
-
-// Validate reports the first unusable setting.
-func (o Options) Validate() error {
-	switch {
-	case o.Bootstrap.Resamples < 0 || o.Bootstrap.Resamples > 100000:
-		return fmt.Errorf("bootstrap resamples %d is outside 0–100000 (0 means %d)", o.Bootstrap.Resamples, DefaultResamples)
-	case o.Bootstrap.Resamples > 0 && o.Bootstrap.Resamples < 100:
-		return fmt.Errorf("bootstrap resamples %d is too few for a 90 %% percentile interval; use at least 100 (common practice: 1000)", o.Bootstrap.Resamples)
-	case o.HighestCrests < 0 || o.HighestCrests > MaxHighestCrests:
-		return fmt.Errorf("number of highest crests %d is outside 1–%d", o.HighestCrests, MaxHighestCrests)
-	}
-	for i, v := range o.SteepnessBounds {
-		if !(v > 0 && v < 2) || (i > 0 && v <= o.SteepnessBounds[i-1]) {
-			return fmt.Errorf("steepness class boundaries %v must increase within (0, 2)", o.SteepnessBounds)
-		}
-	}
-	return nil
-}
 
 // Result is what WriteReport computed, for callers that print it.
 type Result struct {
 	Summary     *Summary
-	Peak, Local RatioDistributions
-	Figures     []Figure
+	Peak, Local stats.Distributions
+	Figures     []figures.Figure
 	// Breaking is what the "Whitecaps and breaking" section computed; nil
 	// when the deployment has neither whitecap results nor B_x.
 	Breaking *BreakingResult
@@ -69,168 +27,179 @@ type Result struct {
 	HTML string
 }
 
+// BreakingResult is what the report computed for its "Whitecaps and
+// breaking" section.
+type BreakingResult struct {
+	// FrontRatio are the distributions of the whitecap front-speed ratio
+	// c_br/c_p by steepness class of the parent crest (empty without
+	// whitecaps).
+	FrontRatio stats.Distributions
+	// Reference is the c⁻⁶ comparison line of the Λ(c) figure.
+	Reference stats.PhillipsReference
+	// Notes say, one sentence each, which results or figures are absent
+	// and why.
+	Notes []string
+}
+
 // WriteReport builds the deployment report from d into dir: report.html
-// (self-contained: figures embedded, no scripts, fonts or styles from
-// elsewhere; with a "Whitecaps and breaking" section when d has whitecap
-// results or B_x), figures/*.png and *.svg, crest_tracks.nc (CF-1.8
-// trajectories) and summary.json (the summary of the tracking run with
-// the statistics recomputed from the crest table, their bootstrap
-// confidence intervals, the report's timings and the path of every
-// output). Everything is written to temporary files first and renamed into
-// place at the end, so a failure leaves no part of the report behind.
-// Existing outputs are replaced; refusing to overwrite is the caller's
-// decision.
+// (self-contained, with a "Whitecaps and breaking" section when d has
+// whitecap results or B_x), figures/*.png and *.svg, crest_tracks.nc
+// (CF-1.8 trajectories) and summary.json (the summary of the tracking run
+// with the statistics recomputed from the tables, their bootstrap
+// intervals, the report's timings and the path of every output).
+// Everything is written to temporary files first and renamed into place
+// at the end, so a failure leaves no part of the report behind. Existing
+// outputs are replaced; refusing to overwrite is the caller's decision.
 func WriteReport(dir string, d *Deployment, opt Options) (*Result, error) {
-	if err := opt.Validate(); err != nil {
-		return nil, err
-	}
-	if d == nil || d.Crests == nil || d.Crests.Len() == 0 {
-		return nil, fmt.Errorf("there are no crest rows to report on in %s", d.TracksDir)
-	}
 	started := time.Now()
-	bounds := opt.SteepnessBounds
-	if bounds == nil {
-		b, err := d.Summary.SteepnessBounds()
-		if err != nil {
-			return nil, fmt.Errorf("%s: %v; give the class boundaries explicitly", filepath.Join(d.TracksDir, "summary.json"), err)
-		}
-		bounds = b
-	}
-	if opt.HighestCrests == 0 {
-		opt.HighestCrests = DefaultHighestCrests
-	}
-	if len(d.Spectrum.Freq) < 3 {
-		return nil, fmt.Errorf("the record's spectrum has %d frequencies; figure 5 needs at least 3", len(d.Spectrum.Freq))
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return nil, fmt.Errorf("cannot create report folder %s: %v", dir, err)
-	}
-	res := &Result{}
-	timings := map[string]float64{}
-
-	// statistics
-	t0 := time.Now()
-	var wg sync.WaitGroup
-	wg.Add(2)
-	go func() { defer wg.Done(); res.Peak = DistributionsOf(d.Crests, ColRatioPeak, bounds, opt.Bootstrap) }()
-	go func() { defer wg.Done(); res.Local = DistributionsOf(d.Crests, ColRatioLocal, bounds, opt.Bootstrap) }()
-	wg.Wait()
-	timings["report: statistics and bootstrap"] = time.Since(t0).Seconds()
-
-	// figures
-	t0 = time.Now()
-	t00 := d.Summary.Record.FirstTimeS
-	if math.IsNaN(t00) || (t00 == 0 && d.Summary.Record.LastTimeS == 0) {
-		t00 = minFinite(d.Crests.Cols[ColTime])
-	}
-	fin := &figureInput{tab: d.Crests, peak: res.Peak, local: res.Local, bounds: ClassBounds(bounds),
-		spectrum: d.Spectrum, sea: d.Summary.SeaState, t0: t00, highest: opt.HighestCrests}
-	if d.Whitecaps != nil || d.Summary.Whitecaps != nil || d.Summary.Inception != nil {
-		if d.Whitecaps != nil && d.Summary.Whitecaps == nil {
-			return nil, fmt.Errorf("the deployment from %s has whitecap files but its summary has no whitecaps block; rerun \"crestspeed track\"", d.TracksDir)
-		}
-		fin.breaking = &breakingInput{wc: d.Whitecaps, ws: d.Summary.Whitecaps, inc: d.Summary.Inception}
-	}
-	figs, err := fin.makeFigures()
+	bounds, err := prepare(d, &opt)
 	if err != nil {
 		return nil, err
 	}
-	res.Figures = figs
-	if fin.breaking != nil {
-		res.Breaking = &fin.breaking.out
+	timings := map[string]float64{}
+	t0 := time.Now()
+	res, sum := computeStatistics(d, bounds, opt)
+	timings["report: statistics and bootstrap"] = time.Since(t0).Seconds()
+
+	t0 = time.Now()
+	out, err := figures.Draw(figureInput(d, res, bounds, opt))
+	if err != nil {
+		return nil, err
+	}
+	res.Figures = out.Figures
+	if res.Breaking != nil {
+		res.Breaking.Reference, res.Breaking.Notes = out.Reference, out.Notes
 	}
 	timings["report: figures"] = time.Since(t0).Seconds()
 
-	var st staged
-	defer st.abort()
-
-	// trajectories
+	var fs fileSet
+	defer fs.abort()
 	t0 = time.Now()
-	ncTmp, err := st.reserve(dir, "crest_tracks.nc")
-	if err != nil {
+	if err := writeTrajectories(&fs, dir, d, opt.Version); err != nil {
 		return nil, err
 	}
-	site := d.Summary.Record.Attributes["site"]
-	if err := WriteTrajectories(ncTmp, d.Crests, TrajectoryInfo{
-		TimeUnits: d.Summary.Record.TimeUnits, Title: d.Summary.Record.Title, Site: site,
-		Source: "crestspeed " + opt.Version,
-	}); err != nil {
-		return nil, fmt.Errorf("cannot write %s: %v", filepath.Join(dir, "crest_tracks.nc"), err)
-	}
 	timings["report: trajectories NetCDF"] = time.Since(t0).Seconds()
-
-	// figure files
-	for _, f := range figs {
-		if err := st.write(dir, filepath.Join("figures", f.Name+".png"), f.PNG); err != nil {
-			return nil, err
-		}
-		if err := st.write(dir, filepath.Join("figures", f.Name+".svg"), f.SVG); err != nil {
-			return nil, err
-		}
-	}
-
-	// the summary of the report
-	sum := copySummary(d.Summary)
-	sum.Ratio = map[string]RatioStats{"peak": res.Peak.Stats(), "local": res.Local.Stats()}
-	B := opt.Bootstrap.Resamples
-	if B <= 0 {
-		B = DefaultResamples
-	}
-	sum.Method["steepness_bounds"] = bounds
-	sum.Method["histogram"] = "normalised histogram, bin width by the Freedman-Diaconis rule 2 IQR n^(-1/3) (Freedman & Diaconis 1981)"
-	sum.Method["density"] = "Gaussian kernel density estimate, Silverman (1986) rule-of-thumb bandwidth"
-	sum.Method["confidence_intervals"] = fmt.Sprintf("bootstrap percentile intervals at %.0f %%, resampling whole crest tracks with replacement (Efron & Tibshirani 1993)", 100*CILevel)
-	sum.Method["bootstrap_resamples"] = B
-	sum.Method["bootstrap_seed"] = opt.Bootstrap.Seed
-	if res.Breaking != nil && !math.IsNaN(res.Breaking.Reference.Amplitude) {
-		sum.Method["lambda_reference_line"] = "Lambda = A c^-6 (Phillips 1985) drawn for comparison: only A fitted, by least squares on log Lambda over the bins above the peak of Lambda; the exponent is not fitted"
-		sum.Method["lambda_reference_amplitude_m4_per_s5"] = res.Breaking.Reference.Amplitude
-	}
-	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
-	for _, name := range TrackOutputs {
-		if _, ok := sum.Outputs[name]; !ok {
-			if _, err := os.Stat(filepath.Join(d.TracksDir, name)); err == nil {
-				sum.Outputs[name] = abs(filepath.Join(d.TracksDir, name))
+	for _, f := range res.Figures {
+		for ext, data := range map[string][]byte{".png": f.PNG, ".svg": f.SVG} {
+			if err := fs.writeBytes(dir, filepath.Join("figures", f.Name+ext), data); err != nil {
+				return nil, err
 			}
 		}
 	}
-	sum.Outputs["summary.json"] = abs(filepath.Join(dir, "summary.json"))
-	sum.Outputs["report.html"] = abs(filepath.Join(dir, "report.html"))
-	sum.Outputs["crest_tracks.nc"] = abs(filepath.Join(dir, "crest_tracks.nc"))
-	for _, f := range figs {
-		for _, ext := range []string{".png", ".svg"} {
-			sum.Outputs["figures/"+f.Name+ext] = abs(filepath.Join(dir, "figures", f.Name+ext))
-		}
-	}
-	if opt.Version != "" {
-		sum.Tool["report_version"] = opt.Version
-	}
+	finishSummary(sum, d, res, dir, bounds, opt)
 	for k, v := range timings {
 		sum.Timings[k] = v
 	}
 	sum.Timings["report"] = time.Since(started).Seconds()
-
-	// the page
-	page, err := renderHTML(sum, d, res, bounds, B, opt)
+	html, err := page.Render(page.Input{Summary: sum, Crests: d.Crests, Figures: res.Figures, Notes: notes(res.Breaking),
+		Bounds: bounds, Resamples: opt.Bootstrap.Resamples, Seed: opt.Bootstrap.Seed, Version: opt.Version, MinClassTracks: opt.MinClassTracks})
 	if err != nil {
-		return nil, err
-	}
-	if err := st.write(dir, "report.html", page); err != nil {
 		return nil, err
 	}
 	js, err := sum.JSON()
 	if err != nil {
-		return nil, fmt.Errorf("summary cannot be encoded: %v", err)
-	}
-	if err := st.write(dir, "summary.json", js); err != nil {
 		return nil, err
 	}
-	if err := st.commit(); err != nil {
+	if err := first(fs.writeBytes(dir, "report.html", html), fs.writeBytes(dir, "summary.json", js), fs.commit()); err != nil {
 		return nil, err
 	}
-	res.Summary = sum
-	res.HTML = sum.Outputs["report.html"]
+	res.Summary, res.HTML = sum, sum.Outputs["report.html"]
 	return res, nil
+}
+
+// first returns the first error that is not nil.
+func first(errs ...error) error {
+	for _, e := range errs {
+		if e != nil {
+			return e
+		}
+	}
+	return nil
+}
+
+func notes(b *BreakingResult) []string {
+	if b == nil {
+		return nil
+	}
+	return b.Notes
+}
+
+// prepare checks the deployment and the options, fills the defaults and
+// returns the inner steepness-class boundaries.
+func prepare(d *Deployment, opt *Options) ([]float64, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	*opt = opt.withDefaults()
+	if d == nil || d.Crests == nil || d.Crests.Len() == 0 || d.Summary == nil {
+		where := ""
+		if d != nil && d.TracksDir != "" {
+			where = " in " + d.TracksDir
+		}
+		return nil, fmt.Errorf("there are no crest rows to report on%s", where)
+	}
+	if d.Whitecaps != nil && d.Summary.Whitecaps == nil {
+		return nil, fmt.Errorf("the deployment from %s has whitecap tables but its summary has no whitecaps block; %s", d.TracksDir, table.Advice)
+	}
+	if d.Spectrum == nil || d.Spectrum.Len() < 3 {
+		return nil, fmt.Errorf("the record's spectrum has fewer than 3 frequencies; figure 5 needs at least 3")
+	}
+	if opt.SteepnessBounds != nil {
+		return opt.SteepnessBounds, nil
+	}
+	b, err := d.Summary.SteepnessBounds()
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w; give the class boundaries explicitly", filepath.Join(d.TracksDir, "summary.json"), err)
+	}
+	return b, nil
+}
+
+// computeStatistics computes the distributions of the crest ratios and,
+// with whitecap tables, of the whitecap ratios, with bootstrap intervals;
+// it returns them and a copy of the summary that holds them.
+func computeStatistics(d *Deployment, bounds []float64, opt Options) (*Result, *Summary) {
+	sum := d.Summary.Copy()
+	u := sum.SeaState.PeakSpeedRelativeUncertainty()
+	so := stats.Options{Intervals: true, Bootstrap: opt.Bootstrap, Curves: true}
+	res := &Result{}
+	var crest, wc map[string]stats.Distributions
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() { defer wg.Done(); crest = crestDistributions(d.Crests, bounds, so, u) }()
+	if d.Whitecaps != nil {
+		wc = whitecapDistributions(d.Whitecaps.Rows, bounds, so, u)
+	}
+	wg.Wait()
+	res.Peak, res.Local = crest["peak"], crest["local"]
+	sum.Ratio = statsOnly(crest)
+	if wc != nil {
+		sum.Whitecaps.Ratio = statsOnly(wc)
+	}
+	if d.Whitecaps != nil || sum.Whitecaps != nil || sum.Inception != nil {
+		res.Breaking = &BreakingResult{FrontRatio: wc["peak"]}
+	}
+	return res, sum
+}
+
+// figureInput is what the figures are drawn from.
+func figureInput(d *Deployment, res *Result, bounds []float64, opt Options) figures.Input {
+	t0 := d.Summary.Record.FirstTimeS
+	if math.IsNaN(t0) || (t0 == 0 && d.Summary.Record.LastTimeS == 0) {
+		t0 = minFinite(d.Crests.Cols[table.CrestTime])
+	}
+	in := figures.Input{Crests: d.Crests, Peak: res.Peak, Local: res.Local, Bounds: stats.ClassBounds(bounds),
+		Spectrum: figures.Spectrum{Freq: d.Spectrum.Cols[0], PSD: d.Spectrum.Cols[1]},
+		Sea:      d.Summary.SeaState, T0: t0, Highest: opt.HighestCrests, MinClassTracks: opt.MinClassTracks}
+	if g := d.GaugeSpectrum; g != nil && d.Summary.Gauge != nil {
+		in.Gauge = &figures.Gauge{Freq: g.Cols[0], Maps: g.Cols[1], Gauge: g.Cols[2], Summary: d.Summary.Gauge}
+	}
+	if res.Breaking != nil {
+		in.Breaking = &figures.Breaking{FrontRatio: res.Breaking.FrontRatio, Whitecaps: d.Summary.Whitecaps, Inception: d.Summary.Inception}
+		if d.Whitecaps != nil {
+			in.Breaking.Lambda, in.Breaking.Coverage = d.Whitecaps.Lambda, d.Whitecaps.Coverage
+		}
+	}
+	return in
 }
 
 func minFinite(v []float64) float64 {
@@ -246,121 +215,59 @@ func minFinite(v []float64) float64 {
 	return m
 }
 
-// copySummary copies the summary with its own maps, so that the report's
-// additions do not change the caller's value.
-func copySummary(s *Summary) *Summary {
-	c := *s
-	cp := func(m map[string]string) map[string]string {
-		out := map[string]string{}
-		for k, v := range m {
-			out[k] = v
-		}
-		return out
-	}
-	c.Tool = cp(s.Tool)
-	c.Outputs = cp(s.Outputs)
-	c.Timings = map[string]float64{}
-	for k, v := range s.Timings {
-		c.Timings[k] = v
-	}
-	c.Method = map[string]any{}
-	for k, v := range s.Method {
-		c.Method[k] = v
-	}
-	return &c
-}
-
-// staged holds files written under temporary names in their final
-// folder's parent, renamed into place together by commit.
-type staged struct {
-	tmp, final []string
-}
-
-// reserve returns a temporary path in dir for a file that will become
-// dir/name at commit; the caller writes it.
-func (s *staged) reserve(dir, name string) (string, error) {
-	f, err := os.CreateTemp(dir, "."+filepath.Base(name)+".part-*")
+// writeTrajectories writes crest_tracks.nc into the file set.
+func writeTrajectories(fs *fileSet, dir string, d *Deployment, version string) error {
+	tmp, err := fs.reserve(dir, "crest_tracks.nc")
 	if err != nil {
-		return "", fmt.Errorf("cannot write in %s: %v", dir, err)
+		return err
 	}
-	f.Close()
-	os.Remove(f.Name())
-	s.tmp = append(s.tmp, f.Name())
-	s.final = append(s.final, filepath.Join(dir, name))
-	return f.Name(), nil
-}
-
-// write stores data under a temporary name in dir, to become dir/name.
-func (s *staged) write(dir, name string, data []byte) error {
-	f, err := os.CreateTemp(dir, "."+filepath.Base(name)+".part-*")
-	if err != nil {
-		return fmt.Errorf("cannot write in %s: %v", dir, err)
-	}
-	s.tmp = append(s.tmp, f.Name())
-	s.final = append(s.final, filepath.Join(dir, name))
-	if _, err := f.Write(data); err != nil {
-		f.Close()
-		return fmt.Errorf("cannot write %s: %v", filepath.Join(dir, name), err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("cannot write %s: %v", filepath.Join(dir, name), err)
-	}
-	if err := os.Chmod(f.Name(), 0o644); err != nil {
-		return fmt.Errorf("cannot write %s: %v", filepath.Join(dir, name), err)
+	rs := d.Summary.Record
+	if err := cf.WriteTrajectories(tmp, d.Crests, cf.TrajectoryInfo{
+		TimeUnits: rs.TimeUnits, Title: rs.Title, Site: rs.Attributes["site"], Source: "crestspeed " + version,
+	}); err != nil {
+		return fmt.Errorf("cannot write %s: %w", filepath.Join(dir, "crest_tracks.nc"), err)
 	}
 	return nil
 }
 
-func (s *staged) commit() error {
-	// folders first, so that a failure there leaves nothing renamed
-	for i := range s.tmp {
-		d := filepath.Dir(s.final[i])
-		if fi, err := os.Stat(d); err == nil && !fi.IsDir() {
-			return fmt.Errorf("cannot write %s: %s is a file, not a folder; move it away", s.final[i], d)
-		}
-		if err := os.MkdirAll(d, 0o755); err != nil {
-			return fmt.Errorf("cannot create %s: %v", d, err)
-		}
+// finishSummary adds the report's method, versions and outputs to its
+// summary.
+func finishSummary(sum *Summary, d *Deployment, res *Result, dir string, bounds []float64, opt Options) {
+	m := sum.Method
+	m["steepness_bounds"] = bounds
+	m["histogram"] = "normalised histogram, bin width by the Freedman-Diaconis rule 2 IQR n^(-1/3) (Freedman & Diaconis 1981)"
+	m["density"] = "Gaussian kernel density estimate, Silverman (1986) rule-of-thumb bandwidth"
+	m["mode"] = "maximum of a Gaussian kernel density estimate, Silverman bandwidth, linearly binned on cells of a quarter bandwidth; the same estimator for the sample and every resample"
+	m["confidence_intervals"] = fmt.Sprintf("bootstrap intervals at %.0f %% centred on their estimates, estimate +/- the %.0f %% point of |replicate - estimate|, resampling whole crest tracks (whole whitecaps for whitecap ratios) with replacement (Efron & Tibshirani 1993; symmetric interval, Hall 1988)", 100*stats.Level, 100*stats.Level)
+	m["bootstrap_resamples"] = opt.Bootstrap.Resamples
+	m["bootstrap_seed"] = opt.Bootstrap.Seed
+	m["min_class_tracks"] = opt.MinClassTracks
+	if u := sum.SeaState.PeakSpeedRelativeUncertainty(); u > 0 {
+		m["reference_uncertainty"] = fmt.Sprintf("relative standard uncertainty %.4g of c_p combined in quadrature (coverage factor of the level) with the sampling half-width of every c_cr/c_p and c_br/c_p interval (JCGM 100:2008)", u)
+	} else {
+		m["reference_uncertainty"] = "not known for this run: the intervals of c_cr/c_p and c_br/c_p leave out the uncertainty of c_p"
 	}
-	for i := range s.tmp {
-		if fi, err := os.Stat(s.final[i]); err == nil && fi.IsDir() {
-			return fmt.Errorf("cannot write %s: a folder of that name is in the way; move it away", s.final[i])
-		}
+	if b := res.Breaking; b != nil && !math.IsNaN(b.Reference.Amplitude) {
+		m["lambda_reference_line"] = "Lambda = A c^-6 (Phillips 1985) drawn for comparison: only A fitted, by least squares on log Lambda over the bins above the peak of Lambda; the exponent is not fitted"
+		m["lambda_reference_amplitude_m4_per_s5"] = b.Reference.Amplitude
 	}
-	for i := range s.tmp {
-		if err := os.Rename(s.tmp[i], s.final[i]); err != nil {
-			return fmt.Errorf("cannot write %s: %v", s.final[i], err)
-		}
-		s.tmp[i] = ""
-	}
-	s.tmp = nil
-	return nil
-}
-
-func (s *staged) abort() {
-	for _, t := range s.tmp {
-		if t != "" {
-			os.Remove(t)
+	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
+	for _, name := range append(append([]string{}, TrackOutputs...), whitecapOutputs...) {
+		if _, ok := sum.Outputs[name]; !ok {
+			if _, err := os.Stat(filepath.Join(d.TracksDir, name)); err == nil && name != "summary.json" {
+				sum.Outputs[name] = abs(filepath.Join(d.TracksDir, name))
+			}
 		}
 	}
-}
-
-// sortedOutputs lists output names in order, for the page.
-func sortedOutputs(m map[string]string) [][2]string {
-	keys := sortedKeys(m)
-	sort.Strings(keys)
-	out := make([][2]string, len(keys))
-	for i, k := range keys {
-		out[i] = [2]string{k, m[k]}
+	for _, name := range []string{"summary.json", "report.html", "crest_tracks.nc"} {
+		sum.Outputs[name] = abs(filepath.Join(dir, name))
 	}
-	return out
-}
-
-// prettyJSON indents v for the page.
-func prettyJSON(v any) string {
-	b, err := json.MarshalIndent(v, "", "  ")
-	if err != nil {
-		return fmt.Sprint(v)
+	for _, f := range res.Figures {
+		for _, ext := range []string{".png", ".svg"} {
+			sum.Outputs["figures/"+f.Name+ext] = abs(filepath.Join(dir, "figures", f.Name+ext))
+		}
 	}
-	return string(b)
+	if opt.Version != "" {
+		sum.Tool["report_version"] = opt.Version
+	}
 }

@@ -25,6 +25,7 @@ import (
 	"sync"
 
 	"crestspeed/calib"
+	"crestspeed/internal/atomicfile"
 )
 
 // Chessboard is a printed calibration board: Cols × Rows inner corners,
@@ -397,25 +398,7 @@ func writeGreyPNG(path string, img *image.Gray) error {
 	if err := enc.Encode(&buf, img); err != nil {
 		return fmt.Errorf("cannot encode %s: %v", path, err)
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".part-*")
-	if err != nil {
-		return fmt.Errorf("cannot write in %s: %v", filepath.Dir(path), err)
-	}
-	_, err = tmp.Write(buf.Bytes())
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Chmod(tmp.Name(), 0o644)
-	}
-	if err == nil {
-		err = os.Rename(tmp.Name(), path)
-	}
-	if err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("cannot write %s: %v", path, err)
-	}
-	return nil
+	return atomicfile.WriteFile(path, buf.Bytes())
 }
 
 // Small 3×3 helpers (row-major).

@@ -26,6 +26,7 @@ import (
 
 	"crestspeed/calib"
 	"crestspeed/ingest"
+	"crestspeed/internal/atomicfile"
 	"crestspeed/speed"
 )
 
@@ -484,7 +485,7 @@ func WriteDeployment(ctx context.Context, d Deployment, dir string, workers int,
 	if err := cw.WriteAll(rows); err != nil {
 		return nil, fmt.Errorf("cannot encode the timestamps: %v", err)
 	}
-	if err := writeFileAtomic(filepath.Join(framesDir, DeploymentTimestamps), csvBuf.Bytes()); err != nil {
+	if err := atomicfile.WriteFile(filepath.Join(framesDir, DeploymentTimestamps), csvBuf.Bytes()); err != nil {
 		return nil, err
 	}
 	if err := writeJSONAtomic(TruthPath(ncPath), truth); err != nil {
@@ -507,29 +508,6 @@ func checkEmptyFolder(dir string) error {
 		return fmt.Errorf("deployment folder %s cannot be read: %v", dir, err)
 	case len(entries) > 0:
 		return fmt.Errorf("deployment folder %s is not empty; give a new folder or empty this one", dir)
-	}
-	return nil
-}
-
-// writeFileAtomic writes data beside path and renames it into place.
-func writeFileAtomic(path string, data []byte) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".part-*")
-	if err != nil {
-		return fmt.Errorf("cannot write in %s: %v", filepath.Dir(path), err)
-	}
-	_, err = tmp.Write(data)
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Chmod(tmp.Name(), 0o644)
-	}
-	if err == nil {
-		err = os.Rename(tmp.Name(), path)
-	}
-	if err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("cannot write %s: %v", path, err)
 	}
 	return nil
 }

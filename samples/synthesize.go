@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"crestspeed/ingest"
+	"crestspeed/internal/atomicfile"
 	"crestspeed/speed"
 )
 
@@ -84,6 +85,34 @@ type Scenario struct {
 	Foam    FoamSpec       `json:"foam,omitempty" yaml:"foam"`
 }
 
+// DefaultScenario is the synthetic record "crestspeed synthesize" writes
+// when nothing is configured: a directional JONSWAP sea at an invented site,
+// five minutes at 10 Hz on a 192 m × 128 m grid of 1 m cells. The other
+// kinds' settings are the defaults used when the kind is chosen.
+func DefaultScenario() Scenario {
+	return Scenario{
+		Site:    "Orsund Bank research platform (invented)",
+		Kind:    KindJONSWAP,
+		Regular: RegularWave{HeightM: 1, PeriodS: 6, DirectionDeg: 20},
+		JONSWAP: JONSWAPSea{HsM: 1.5, TpS: 6, Gamma: 3.3, Spreading: 10, DirectionDeg: 20, Seed: 1,
+			Components: 256, FMinRatio: 0.5, FMaxRatio: 3},
+		Packet: FocusingPacket{CentrePeriodS: 5, Bandwidth: 0.25, FocusXM: 60, FocusYM: 30, FocusTimeS: 20,
+			FocusEtaM: 0.6, Components: 64},
+		Grid: GridSpec{Nx: 192, Ny: 128, DxM: 1, DyM: 1, FPS: 10, Duration: 300, Start: "2026-06-14T09:00:00Z"},
+		Foam: FoamSpec{Auto: AutoFoam{MinSteepness: 0.2, SpeedRatio: 0.8}},
+	}
+}
+
+// BenchmarkSea is the record the benchmarks of every stage read: a
+// directional JONSWAP sea (Hs 1.5 m, Tp 6 s, s = 10) on 512×512 cells of
+// 0.5 m at 10 Hz, frames long.
+func BenchmarkSea(frames int) Scenario {
+	return Scenario{Kind: KindJONSWAP,
+		JONSWAP: JONSWAPSea{HsM: 1.5, TpS: 6, Gamma: 3.3, Spreading: 10, DirectionDeg: 25, Seed: 1, Components: 256, FMaxRatio: 3},
+		Grid:    GridSpec{Nx: 512, Ny: 512, DxM: 0.5, DyM: 0.5, FPS: 10, Duration: float64(frames) / 10},
+	}
+}
+
 // Defects are deliberate faults written into a synthetic record.
 type Defects struct {
 	DropFrames []int `json:"drop_frames,omitempty" yaml:"drop_frames"` // frame numbers left out of the file
@@ -109,6 +138,33 @@ type Truth struct {
 	Components       []Component    `json:"components"`
 	Generated        string         `json:"generator"`
 	Whitecaps        *WhitecapTruth `json:"whitecaps,omitempty"`
+}
+
+// Validate reports the first reason the scenario cannot be synthesized.
+func (s Scenario) Validate() error {
+	_, _, err := s.prepare()
+	return err
+}
+
+// prepare checks the scenario and builds its sea and truth.
+func (s Scenario) prepare() (*LinearSea, Truth, error) {
+	if err := s.Grid.Validate(); err != nil {
+		return nil, Truth{}, err
+	}
+	sea, err := s.Sea()
+	if err != nil {
+		return nil, Truth{}, err
+	}
+	truth, err := s.truth(sea)
+	if err != nil {
+		return nil, Truth{}, err
+	}
+	// Components shorter than two grid cells alias onto longer waves.
+	if kmax := sea.MaxWavenumber(); kmax > math.Pi/math.Max(s.Grid.DxM, s.Grid.DyM) {
+		return nil, Truth{}, fmt.Errorf("the sea has waves %.2f m long but the grid spacing (%g m) resolves only waves longer than %.2f m; use a finer grid or a lower highest frequency",
+			2*math.Pi/kmax, math.Max(s.Grid.DxM, s.Grid.DyM), 2*math.Max(s.Grid.DxM, s.Grid.DyM))
+	}
+	return sea, truth, nil
 }
 
 // Sea builds the scenario's LinearSea.
@@ -162,21 +218,9 @@ type Progress func(done, total int)
 // Both files appear complete or not at all. The same scenario gives the same
 // bytes of data whatever the worker count.
 func Synthesize(ctx context.Context, s Scenario, path string, deflate, workers int, progress Progress) (Truth, error) {
-	if err := s.Grid.Validate(); err != nil {
-		return Truth{}, err
-	}
-	sea, err := s.Sea()
+	sea, truth, err := s.prepare()
 	if err != nil {
 		return Truth{}, err
-	}
-	truth, err := s.truth(sea)
-	if err != nil {
-		return Truth{}, err
-	}
-	// Components shorter than two grid cells alias onto longer waves.
-	if kmax := sea.MaxWavenumber(); kmax > math.Pi/math.Max(s.Grid.DxM, s.Grid.DyM) {
-		return Truth{}, fmt.Errorf("the sea has waves %.2f m long but the grid spacing (%g m) resolves only waves longer than %.2f m; use a finer grid or a lower highest frequency",
-			2*math.Pi/kmax, math.Max(s.Grid.DxM, s.Grid.DyM), 2*math.Max(s.Grid.DxM, s.Grid.DyM))
 	}
 	start := s.Grid.Start
 	if start == "" {
@@ -325,18 +369,5 @@ func writeJSONAtomic(path string, v any) error {
 	if err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), filepath.Base(path)+".part-*")
-	if err != nil {
-		return err
-	}
-	if _, err := tmp.Write(append(b, '\n')); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		os.Remove(tmp.Name())
-		return err
-	}
-	return os.Rename(tmp.Name(), path)
+	return atomicfile.WriteFile(path, append(b, '\n'))
 }

@@ -66,6 +66,13 @@ const (
 	// DefaultWaterDensity is the density of sea water, kg/m³ (common
 	// practice).
 	DefaultWaterDensity = 1025.0
+	// DefaultMinPatchArea is the smallest whitecap patch kept by default,
+	// m²: a choice of this tool, measured on the rendered stereo
+	// deployment, where sky glints on steep faces pass the foam detector as
+	// patches of well under 2 m² while the painted whitecaps cover about
+	// 4 m². Actively breaking crests worth a front speed span several grid
+	// cells in any case.
+	DefaultMinPatchArea = 2.0
 	// DefaultMinSpeedPoints is the fewest frames in a front-speed window.
 	DefaultMinSpeedPoints = 5
 )
@@ -75,44 +82,75 @@ const (
 const SkipFoamSaturated = "foam mask saturated"
 
 // BreakingOptions configure the whitecap analysis. Zero values take the
-// defaults stated on each field.
+// defaults stated on each field. The fields with yaml tags are settings of
+// the "track" section of the configuration; the others are resolved from
+// the record.
 type BreakingOptions struct {
 	// MaxFoamFraction: frames whose foam covers more than this fraction of
 	// the known cells are skipped and counted (default 0.5).
-	MaxFoamFraction float64
+	MaxFoamFraction float64 `yaml:"foam_saturation_fraction"`
 	// MinPatchArea is the smallest whitecap patch kept, m² (default four
 	// grid cells).
-	MinPatchArea float64
+	MinPatchArea float64 `yaml:"min_foam_patch_area_m2"`
 	// Step is the spacing of the front sampling lines, m (default the
 	// smaller grid spacing).
-	Step float64
+	Step float64 `yaml:"-"`
 	// PredictRatio: between frames a front is predicted to move at
 	// PredictRatio·c_p along θ0 (default 0.8).
-	PredictRatio float64
+	PredictRatio float64 `yaml:"-"`
 	// MaxGapFrames is how many consecutive frames a whitecap may miss and
 	// continue; used as given.
-	MaxGapFrames int
+	MaxGapFrames int `yaml:"-"`
 	// GateS and GateN are the linking gates along and across θ0, m; 0
 	// means max(4 steps, a tenth of the deep-water wavelength 2π c_p²/g at
 	// c_p) along, and 2 steps across — as for crests.
-	GateS, GateN float64
+	GateS, GateN float64 `yaml:"-"`
 	// ParentAlongFraction and ParentAcross bound the crest a whitecap is
 	// tied to (tracking.ParentGate); 0 means half a crest width along θ0
 	// and 2 steps across.
-	ParentAlongFraction, ParentAcross float64
+	ParentAlongFraction, ParentAcross float64 `yaml:"-"`
 	// SpeedWindowS is the full width of the front-speed fit window, s;
 	// required (use the crest-speed window of the record).
-	SpeedWindowS float64
+	SpeedWindowS float64 `yaml:"-"`
 	// MinSpeedPoints is the fewest frames in a fit window (default 5).
-	MinSpeedPoints int
+	MinSpeedPoints int `yaml:"-"`
 	// BinWidth is the width of the Λ(c) speed bins, m/s (default 0.25);
 	// MaxSpeed the top of the last bin, m/s (default 1.5 c_p).
-	BinWidth, MaxSpeed float64
+	BinWidth float64 `yaml:"lambda_bin_width_mps"`
+	MaxSpeed float64 `yaml:"-"`
 	// BreakingParameter is b of ε = b ρ_w g⁻¹ ∫ c⁵ Λ(c) dc (default
 	// 7×10⁻⁵; see DefaultBreakingParameter for its large uncertainty).
-	BreakingParameter float64
+	BreakingParameter float64 `yaml:"breaking_parameter_b"`
 	// WaterDensity is ρ_w, kg/m³ (default 1025).
-	WaterDensity float64
+	WaterDensity float64 `yaml:"-"`
+}
+
+// DefaultBreakingOptions returns the defaults of the settings (the fields
+// with yaml tags); the others stay zero and are resolved from the record.
+func DefaultBreakingOptions() BreakingOptions {
+	return BreakingOptions{
+		MaxFoamFraction:   DefaultMaxFoamFraction,
+		MinPatchArea:      DefaultMinPatchArea,
+		BinWidth:          DefaultSpeedBinWidth,
+		BreakingParameter: DefaultBreakingParameter,
+	}
+}
+
+// Validate reports the first absurd setting among those a user gives (zero
+// means the default), naming its configuration key.
+func (o BreakingOptions) Validate() error {
+	in := func(v, lo, hi float64) bool { return v >= lo && v <= hi } // false for NaN
+	switch {
+	case !in(o.MaxFoamFraction, 0, 1):
+		return fmt.Errorf("foam_saturation_fraction %g is outside (0, 1]; use e.g. 0.5", o.MaxFoamFraction)
+	case !in(o.MinPatchArea, 0, 1e6):
+		return fmt.Errorf("min_foam_patch_area_m2 %g m² is outside 0–10⁶ m² (0 = four grid cells)", o.MinPatchArea)
+	case !in(o.BinWidth, 0, 10):
+		return fmt.Errorf("lambda_bin_width_mps %g m/s is outside 0–10 m/s", o.BinWidth)
+	case !in(o.BreakingParameter, 0, 1):
+		return fmt.Errorf("breaking_parameter_b %g is outside 0–1", o.BreakingParameter)
+	}
+	return nil
 }
 
 func (o BreakingOptions) withDefaults(g tracking.Geometry, ref References) BreakingOptions {

@@ -32,8 +32,12 @@
 // per-segment mean removal, density scaling). SeaStateEstimator streams
 // elevation maps one frame at a time: it keeps time series at a sparse set of
 // probe points for the frequency spectrum and accumulates a wavenumber
-// cross-spectrum of consecutive frames for the mean direction of travel, so
-// its memory is O(nx·ny) plus a few floats per frame.
+// cross-spectrum of consecutive frames for the mean direction of travel (on
+// blocks of cells when the grid is large), so its memory is O(nx·ny) plus a
+// few floats per frame. The peak frequency is Young's (1995) weighted
+// F_p = ∫ f S⁴ df / ∫ S⁴ df (PeakYoung) with a stated uncertainty; Hm0 is
+// measured in the waves' band, with the white noise floor of the
+// reconstruction found at the top of the spectrum and removed.
 //
 // Units are SI and angles are radians, measured counter-clockwise from +x.
 package speed

@@ -47,7 +47,7 @@ type Inception struct {
 }
 
 // InceptionOf flags crest tracks by B_x and compares them with whitecaps.
-// rows must be ordered by track and time (as AnalyseRecord returns them);
+// rows must be ordered by track and time (as the record analysis returns them);
 // wc may be nil.
 func InceptionOf(rows []CrestRow, wc *WhitecapResult, threshold float64) *Inception {
 	if threshold <= 0 {
@@ -129,22 +129,4 @@ func InceptionOf(rows []CrestRow, wc *WhitecapResult, threshold float64) *Incept
 		in.LeadTimeMin, in.LeadTimeMax = leads[0], leads[len(leads)-1]
 	}
 	return in
-}
-
-// markFoam sets Foam on every crest row whose crest carried a whitecap in
-// that frame.
-func (rec *Record) markFoam() {
-	if rec.Whitecaps == nil {
-		return
-	}
-	type key struct{ track, frame int }
-	carried := map[key]bool{}
-	for _, r := range rec.Whitecaps.Rows {
-		if r.ParentTrackID != 0 {
-			carried[key{r.ParentTrackID, r.Frame}] = true
-		}
-	}
-	for i := range rec.Rows {
-		rec.Rows[i].Foam = carried[key{rec.Rows[i].TrackID, rec.Rows[i].Frame}]
-	}
 }

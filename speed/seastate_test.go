@@ -217,6 +217,17 @@ func TestSeaStateBadInput(t *testing.T) {
 	if _, err := e.Result(); err == nil {
 		t.Error("wrong frame size: want error")
 	}
+	if _, err := NewSeaStateEstimator(16, 16, 1, 1, 0.1, SeaStateOptions{DirectionCells: 2}).Result(); err == nil {
+		t.Error("DirectionCells = 2: want error")
+	}
+	// A constant record has no spectrum to find a peak in.
+	e = NewSeaStateEstimator(16, 16, 1, 1, 0.1, SeaStateOptions{})
+	for i := 0; i < 64; i++ {
+		e.Add(make([]float32, 256), nil)
+	}
+	if _, err := e.Result(); err == nil {
+		t.Error("constant frames: want error")
+	}
 	e = NewSeaStateEstimator(16, 16, 1, 1, 0.1, SeaStateOptions{})
 	for i := 0; i < 5; i++ {
 		e.Add(make([]float32, 256), nil)

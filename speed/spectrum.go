@@ -19,6 +19,62 @@ func hann(n int) []float64 {
 	return w
 }
 
+// welchPlan holds the window, transform and scratch of Welch's method for
+// segments of nper samples, each zero-padded to nfft = pad·nper samples
+// before its transform (padding samples the same periodogram on a pad
+// times finer frequency grid; every pad-th padded bin is a bin of the
+// unpadded periodogram).
+type welchPlan struct {
+	nper, pad, nfft, nf, step int
+	scale                     float64 // 1/(fs Σw²)
+	w, seg                    []float64
+	coef                      []complex128
+	fft                       *fourier.FFT
+}
+
+func newWelchPlan(nper, pad int, fs float64) *welchPlan {
+	p := &welchPlan{nper: nper, pad: pad, nfft: nper * pad, w: hann(nper)}
+	p.nf = p.nfft/2 + 1
+	p.step = nper - nper/2
+	var sw2 float64
+	for _, v := range p.w {
+		sw2 += v * v
+	}
+	p.scale = 1 / (fs * sw2)
+	p.seg = make([]float64, p.nfft)
+	p.coef = make([]complex128, p.nf)
+	p.fft = fourier.NewFFT(p.nfft)
+	return p
+}
+
+// segments returns the number of half-overlapping segments that fit in a
+// series of n samples (trailing samples that do not fill one are unused).
+func (p *welchPlan) segments(n int) int { return (n - p.nper/2) / p.step }
+
+// transform removes the mean of the segment src (nper samples), applies the
+// window, zero-pads and leaves the one-sided transform in p.coef.
+func (p *welchPlan) transform(src []float64) {
+	var mean float64
+	for _, v := range src {
+		mean += v
+	}
+	mean /= float64(p.nper)
+	for i, v := range src {
+		p.seg[i] = (v - mean) * p.w[i]
+	}
+	p.fft.Coefficients(p.coef, p.seg)
+}
+
+// binScale is the factor that turns |X_i|² of padded bin i into a one-sided
+// density: 1/(fs Σw²), doubled except at zero frequency and, for an even
+// transform length, the Nyquist frequency.
+func (p *welchPlan) binScale(i int) float64 {
+	if i == 0 || (p.nfft%2 == 0 && i == p.nf-1) {
+		return p.scale
+	}
+	return 2 * p.scale
+}
+
 // Welch returns the one-sided power spectral density of the series x sampled
 // at fs Hz by Welch's method of averaged modified periodograms (Welch 1967,
 // IEEE Trans. Audio Electroacoust. 15): segments of nperseg samples with 50 %
@@ -48,47 +104,19 @@ func Welch(x []float64, fs float64, nperseg int) (freqs, psd []float64, err erro
 			return nil, nil, fmt.Errorf("speed: Welch input sample %d is %g; fill or drop missing samples before computing a spectrum", i, v)
 		}
 	}
-	w := hann(nperseg)
-	var sw2 float64
-	for _, v := range w {
-		sw2 += v * v
-	}
-	scale := 1 / (fs * sw2)
-	nf := nperseg/2 + 1
-	noverlap := nperseg / 2
-	step := nperseg - noverlap
-	nseg := (len(x) - noverlap) / step
-
-	fft := fourier.NewFFT(nperseg)
-	seg := make([]float64, nperseg)
-	coef := make([]complex128, nf)
-	psd = make([]float64, nf)
+	wp := newWelchPlan(nperseg, 1, fs)
+	nseg := wp.segments(len(x))
+	psd = make([]float64, wp.nf)
 	for s := 0; s < nseg; s++ {
-		src := x[s*step : s*step+nperseg]
-		var mean float64
-		for _, v := range src {
-			mean += v
-		}
-		mean /= float64(nperseg)
-		for i, v := range src {
-			seg[i] = (v - mean) * w[i]
-		}
-		fft.Coefficients(coef, seg)
-		for i, c := range coef {
+		wp.transform(x[s*wp.step : s*wp.step+nperseg])
+		for i, c := range wp.coef {
 			psd[i] += real(c)*real(c) + imag(c)*imag(c)
 		}
 	}
-	last := nf
-	if nperseg%2 == 0 {
-		last = nf - 1 // Nyquist bin is not doubled
-	}
 	for i := range psd {
-		p := psd[i] * scale / float64(nseg)
-		if i > 0 && i < last {
-			p *= 2
-		}
-		psd[i] = p
+		psd[i] *= wp.binScale(i) / float64(nseg)
 	}
+	nf := wp.nf
 	freqs = make([]float64, nf)
 	for i := range freqs {
 		freqs[i] = float64(i) * fs / float64(nperseg)
@@ -190,4 +218,60 @@ func Hm0(freqs, psd []float64) (float64, error) {
 		return 0, errors.New("speed: spectrum has negative zeroth moment; pass a power spectral density")
 	}
 	return 4 * math.Sqrt(m0), nil
+}
+
+// YoungExponent is the power q of the weighted-spectrum peak frequency
+// F_p = ∫ f S^q df / ∫ S^q df that Young (1995) recommends, q = 4.
+const YoungExponent = 4
+
+// PeakYoung returns the peak frequency of the spectrum psd on the grid
+// freqs as the weighted mean F_p = ∫ f S⁴ df / ∫ S⁴ df (Young 1995, "The
+// determination of confidence limits associated with estimates of the
+// spectral peak frequency", Ocean Eng. 22, 669–686), by the rectangle rule of
+// SpectralMoment. Because it weighs every ordinate instead of picking the
+// largest one, it is far less noisy than the raw or interpolated peak of a
+// measured spectrum, and for a peak that is symmetric about its centre it is
+// the centre itself, wherever the centre falls between bins. The weighting is
+// normalised by the largest density, so no power overflows. The
+// zero-frequency bin is not used. An error is returned for a spectrum with
+// no positive density above zero frequency.
+func PeakYoung(freqs, psd []float64) (float64, error) {
+	if err := checkSpectrum(freqs, psd); err != nil {
+		return 0, err
+	}
+	fp, ok := youngPeak(freqs, psd, 1, len(psd))
+	if !ok {
+		return 0, errors.New("speed: spectrum has no energy above zero frequency; check that the elevation record is not constant")
+	}
+	return fp, nil
+}
+
+// youngPeak is PeakYoung over the bins lo ≤ i < hi, with negative densities
+// counted as zero; ok is false when no density there is positive.
+func youngPeak(freqs, psd []float64, lo, hi int) (fp float64, ok bool) {
+	var smax float64
+	for i := lo; i < hi; i++ {
+		smax = math.Max(smax, psd[i])
+	}
+	if !(smax > 0) {
+		return 0, false
+	}
+	var num, den float64
+	for i := lo; i < hi; i++ {
+		if !(psd[i] > 0) {
+			continue
+		}
+		var df float64
+		if i+1 < len(freqs) {
+			df = freqs[i+1] - freqs[i]
+		} else {
+			df = freqs[i] - freqs[i-1]
+		}
+		r := psd[i] / smax
+		r2 := r * r
+		w := r2 * r2 * df
+		num += freqs[i] * w
+		den += w
+	}
+	return num / den, true
 }

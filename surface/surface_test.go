@@ -17,6 +17,7 @@ import (
 	"crestspeed/ingest"
 	"crestspeed/samples"
 	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 	"crestspeed/surface"
 )
 
@@ -222,13 +223,13 @@ func medianRatioPeak(rows []speed.CrestRow) (float64, int) {
 
 // analyseFile runs the crest analysis with the settings of "crestspeed
 // track" but the smallest crest kept, minCrest times Hm0.
-func analyseFile(t *testing.T, path string, minCrest float64) *speed.Record {
+func analyseFile(t *testing.T, path string, minCrest float64) *analysis.Record {
 	src, err := ingest.OpenElevation(path, ingest.ElevationOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer src.Close()
-	rec, err := speed.AnalyseRecord(context.Background(), src, speed.RecordOptions{
+	rec, err := analysis.Run(context.Background(), src, analysis.Options{
 		MinCrestFraction: minCrest, MinCrestLengthM: 2, MaxGapFrames: 2, Workers: runtime.NumCPU(),
 	})
 	if err != nil {

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"path/filepath"
 	"strings"
@@ -11,17 +12,22 @@ import (
 	"crestspeed/calib"
 )
 
-// CalibrateConfig configures "crestspeed calibrate".
+// CalibrateConfig configures "crestspeed calibrate": the chessboard views
+// and the board (the verb's inputs), the calibration settings of the calib
+// package, and whether the quality figures are written.
 type CalibrateConfig struct {
-	Left       string  `yaml:"left"`        // glob of the left-camera chessboard images
-	Right      string  `yaml:"right"`       // glob of the right-camera chessboard images
-	Pattern    string  `yaml:"pattern"`     // inner corners, COLSxROWS
-	SquareM    float64 `yaml:"square_m"`    // side of one square, metres (no default)
-	Detector   string  `yaml:"detector"`    // classic | sb
-	DropFactor float64 `yaml:"drop_factor"` // drop views above this × the median error; 0 keeps all
-	MinViews   int     `yaml:"min_views"`   // fewest good views accepted
-	FixK3      bool    `yaml:"fix_k3"`      // hold k3 at zero
-	Figures    bool    `yaml:"figures"`     // write the worst-view picture and the residual plot
+	Left          string  `yaml:"left"`     // glob of the left-camera chessboard images
+	Right         string  `yaml:"right"`    // glob of the right-camera chessboard images
+	Pattern       string  `yaml:"pattern"`  // inner corners, COLSxROWS
+	SquareM       float64 `yaml:"square_m"` // side of one square, metres (no default)
+	Figures       bool    `yaml:"figures"`  // write the worst-view picture and the residual plot
+	calib.Options `yaml:",inline"`
+}
+
+// defaultCalibrateConfig holds the calib package's defaults, a 9×6 board
+// and the figures on.
+func defaultCalibrateConfig() CalibrateConfig {
+	return CalibrateConfig{Pattern: "9x6", Figures: true, Options: calib.DefaultOptions()}
 }
 
 func init() { extraCommands = append(extraCommands, newCalibrateCmd) }
@@ -52,7 +58,7 @@ and residuals) and OUT-residuals.png (residuals and per-view errors).`,
 			return nil
 		},
 		RunE: func(cmd *cobra.Command, args []string) error {
-			return app.calibrate(cmd)
+			return Calibrate(cmd.Context(), app.con, *app.cfg)
 		},
 	}
 	f := cmd.Flags()
@@ -65,15 +71,15 @@ and residuals) and OUT-residuals.png (residuals and per-view errors).`,
 	f.Int("min-views", 0, "fewest good views accepted")
 	f.Bool("fix-k3", false, "hold the r⁶ distortion coefficient k3 at zero")
 	f.Bool("figures", true, "write the worst-view picture and the residual plot")
-	bindFlag(app, cmd, "left", "calibrate.left")
-	bindFlag(app, cmd, "right", "calibrate.right")
-	bindFlag(app, cmd, "pattern", "calibrate.pattern")
-	bindFlag(app, cmd, "square", "calibrate.square_m")
-	bindFlag(app, cmd, "detector", "calibrate.detector")
-	bindFlag(app, cmd, "drop-factor", "calibrate.drop_factor")
-	bindFlag(app, cmd, "min-views", "calibrate.min_views")
-	bindFlag(app, cmd, "fix-k3", "calibrate.fix_k3")
-	bindFlag(app, cmd, "figures", "calibrate.figures")
+	app.bindFlag(cmd, "left", "calibrate.left")
+	app.bindFlag(cmd, "right", "calibrate.right")
+	app.bindFlag(cmd, "pattern", "calibrate.pattern")
+	app.bindFlag(cmd, "square", "calibrate.square_m")
+	app.bindFlag(cmd, "detector", "calibrate.detector")
+	app.bindFlag(cmd, "drop-factor", "calibrate.drop_factor")
+	app.bindFlag(cmd, "min-views", "calibrate.min_views")
+	app.bindFlag(cmd, "fix-k3", "calibrate.fix_k3")
+	app.bindFlag(cmd, "figures", "calibrate.figures")
 	return cmd
 }
 
@@ -83,9 +89,11 @@ func calibrateOutputs(out string) (worst, residuals string) {
 	return stem + "-worst-view.png", stem + "-residuals.png"
 }
 
-func (app *App) calibrate(cmd *cobra.Command) error {
-	cfg := app.cfg.Calibrate
-	out := app.cfg.Out
+// Calibrate calibrates the stereo rig from the chessboard pairs of
+// cfg.Calibrate and writes the rig file cfg.Out with its quality figures.
+func Calibrate(ctx context.Context, con *console, c Config) error {
+	cfg := c.Calibrate
+	out := c.Out
 	if out == "" {
 		return usageError{fmt.Errorf("give the rig file to write with --out, like --out rig.yaml")}
 	}
@@ -99,14 +107,9 @@ func (app *App) calibrate(cmd *cobra.Command) error {
 	if cfg.SquareM == 0 {
 		return usageError{fmt.Errorf("give the side of one chessboard square in metres with --square (calibrate.square_m)")}
 	}
-	opt := calib.Options{
-		Pattern:    calib.Pattern{Cols: cols, Rows: rows, SquareM: cfg.SquareM},
-		Detector:   cfg.Detector,
-		DropFactor: cfg.DropFactor,
-		MinViews:   cfg.MinViews,
-		FixK3:      cfg.FixK3,
-		Workers:    app.cfg.Workers,
-	}
+	opt := cfg.Options
+	opt.Pattern = calib.Pattern{Cols: cols, Rows: rows, SquareM: cfg.SquareM}
+	opt.Workers = c.Workers
 	if err := opt.Validate(); err != nil {
 		return usageError{err}
 	}
@@ -115,20 +118,18 @@ func (app *App) calibrate(cmd *cobra.Command) error {
 	if cfg.Figures {
 		outputs = append(outputs, worstPath, residualPath)
 	}
-	for _, p := range outputs {
-		if err := refuseOverwrite(p, app.cfg.Force); err != nil {
-			return err
-		}
+	if err := claimOutputs(c.Force, outputs...); err != nil {
+		return err
 	}
 	pairs, err := calib.PairGlobs(cfg.Left, cfg.Right)
 	if err != nil {
 		return usageError{err}
 	}
 	t0 := time.Now()
-	app.logf("calibrate: %d image pairs, %s chessboard of %g m squares", len(pairs), opt.Pattern, opt.Pattern.SquareM)
-	pr := app.newProgress("corners", len(pairs))
+	con.logf("calibrate: %d image pairs, %s chessboard of %g m squares", len(pairs), opt.Pattern, opt.Pattern.SquareM)
+	pr := con.newProgress("corners", len(pairs))
 	opt.Progress = pr.set
-	res, err := calib.Calibrate(cmd.Context(), pairs, opt)
+	res, err := calib.Calibrate(ctx, pairs, opt)
 	pr.done()
 	if err != nil {
 		return err
@@ -137,19 +138,19 @@ func (app *App) calibrate(cmd *cobra.Command) error {
 	for _, v := range q.Views {
 		switch v.Status {
 		case calib.ViewSkipped:
-			app.logf("calibrate: skipped pair %s (%s, %s): %s", v.Name, v.Left, v.Right, v.Reason)
+			con.logf("calibrate: skipped pair %s (%s, %s): %s", v.Name, v.Left, v.Right, v.Reason)
 		case calib.ViewDropped:
-			app.logf("calibrate: dropped pair %s: %s", v.Name, v.Reason)
+			con.logf("calibrate: dropped pair %s: %s", v.Name, v.Reason)
 		}
 	}
 	for _, v := range q.Views {
 		if v.Status == calib.ViewUsed {
-			app.logf("calibrate: pair %-6s RMS left %.3f px, right %.3f px, epipolar %.3f px", v.Name, v.RMSLeftPx, v.RMSRightPx, v.EpiMeanPx)
+			con.logf("calibrate: pair %-6s RMS left %.3f px, right %.3f px, epipolar %.3f px", v.Name, v.RMSLeftPx, v.RMSRightPx, v.EpiMeanPx)
 		}
 	}
-	app.logf("calibrate: %d of %d pairs used in %d round(s); RMS reprojection error %.3f px (left %.3f, right %.3f; cameras alone %.3f, %.3f)",
+	con.logf("calibrate: %d of %d pairs used in %d round(s); RMS reprojection error %.3f px (left %.3f, right %.3f; cameras alone %.3f, %.3f)",
 		q.ViewsUsed, len(q.Views), res.Rounds, q.RMSPx, q.LeftRMSPx, q.RightRMSPx, res.LeftAloneRMSPx, res.RightAloneRMSPx)
-	app.logf("calibrate: rectified epipolar error mean %.3f px, 95th percentile %.3f px; baseline %.4f m; focal length %.1f / %.1f px",
+	con.logf("calibrate: rectified epipolar error mean %.3f px, 95th percentile %.3f px; baseline %.4f m; focal length %.1f / %.1f px",
 		q.EpiMeanPx, q.EpiP95Px, rig.Baseline(), rig.Left.Fx, rig.Right.Fx)
 	if err := rig.Save(out); err != nil {
 		return err
@@ -161,9 +162,9 @@ func (app *App) calibrate(cmd *cobra.Command) error {
 		if err := res.WriteResidualPlot(residualPath); err != nil {
 			return err
 		}
-		app.logf("calibrate: wrote %s, %s and %s in %s", out, worstPath, residualPath, elapsed(t0))
+		con.logf("calibrate: wrote %s, %s and %s in %s", out, worstPath, residualPath, elapsed(t0))
 	} else {
-		app.logf("calibrate: wrote %s in %s", out, elapsed(t0))
+		con.logf("calibrate: wrote %s in %s", out, elapsed(t0))
 	}
 	return nil
 }

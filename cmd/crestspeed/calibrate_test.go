@@ -8,8 +8,6 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/spf13/viper"
-
 	"crestspeed/calib"
 )
 
@@ -169,19 +167,4 @@ func TestCalibrateCommandBadInput(t *testing.T) {
 	// An unquoted glob expanded by the shell.
 	_, _, err = run(t, "calibrate", "--left", few+"/left01.jpg", few+"/left02.jpg", "--right", few+"/right*", "--square", "0.025", "--out", out)
 	checkSentence(t, err, "quote the --left and --right patterns")
-}
-
-// The template's calibrate defaults are calib's documented defaults.
-func TestCalibrateDefaults(t *testing.T) {
-	v := viper.New()
-	setDefaults(v)
-	cfg, err := decodeConfig(v)
-	if err != nil {
-		t.Fatal(err)
-	}
-	c := cfg.Calibrate
-	if c.MinViews != calib.DefaultMinViews || c.DropFactor != calib.DefaultDropFactor || c.Pattern != "9x6" ||
-		c.Detector != calib.DetectorClassic || !c.Figures || c.SquareM != 0 || c.Left != "" {
-		t.Errorf("calibrate defaults %+v", c)
-	}
 }

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"image"
 	"math"
@@ -31,69 +32,76 @@ the chain on it, and print what was measured next to the truth:
 Everything is synthetic; nothing here describes a real site.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			dir := app.cfg.Demo.Dir
-			if app.cfg.Out != "" {
-				dir = app.cfg.Out
-			}
-			if err := os.MkdirAll(dir, 0o755); err != nil {
-				return fmt.Errorf("cannot create demo folder %s: %v", dir, err)
-			}
-			if err := app.demoStereo(cmd, filepath.Join(dir, "stereo")); err != nil {
-				return err
-			}
-			maps := filepath.Join(dir, "elevation.nc")
-			if app.cfg.Force {
-				os.Remove(maps)
-			}
-			sc := app.cfg.Synthesize
-			if !sc.Foam.Enabled && sc.Kind == samples.KindJONSWAP {
-				foam, err := demoFoam(sc.Scenario)
-				if err != nil {
-					return err
-				}
-				sc.Foam = foam
-			}
-			truth, err := app.synthesize(cmd, sc, maps)
-			if err != nil {
-				return err
-			}
-			return app.demoChain(cmd, dir, maps, truth)
+			return Demo(cmd.Context(), app.con, *app.cfg)
 		},
 	}
 	return cmd
 }
 
+// Demo makes the synthetic deployment in cfg.Out (default cfg.Demo.Dir),
+// runs the chain on it and prints what was measured beside the truth. It
+// uses the configuration it is given; only the inputs and outputs of each
+// stage are set here.
+func Demo(ctx context.Context, con *console, cfg Config) error {
+	dir := cfg.Demo.Dir
+	if cfg.Out != "" {
+		dir = cfg.Out
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("cannot create demo folder %s: %w", dir, err)
+	}
+	if err := demoStereo(ctx, con, cfg, filepath.Join(dir, "stereo")); err != nil {
+		return err
+	}
+	maps := filepath.Join(dir, "elevation.nc")
+	if cfg.Force {
+		os.Remove(maps)
+	}
+	c := cfg
+	c.Out = maps
+	if !c.Synthesize.Foam.Enabled && c.Synthesize.Kind == samples.KindJONSWAP {
+		foam, err := demoFoam(c.Synthesize.Scenario)
+		if err != nil {
+			return err
+		}
+		c.Synthesize.Foam = foam
+	}
+	truth, err := Synthesize(ctx, con, c)
+	if err != nil {
+		return err
+	}
+	return demoChain(ctx, con, cfg, dir, maps, truth)
+}
+
 // demoStereo renders a short stereo deployment of the demo rig (chessboard
 // views and sea frames, with the true rig and the true elevation), then
 // calibrates, reconstructs and tracks it, comparing with the truth.
-func (app *App) demoStereo(cmd *cobra.Command, dir string) error {
-	if app.cfg.Force {
+func demoStereo(ctx context.Context, con *console, cfg Config, dir string) error {
+	if cfg.Force {
 		os.RemoveAll(dir)
 	}
 	if err := os.MkdirAll(filepath.Dir(dir), 0o755); err != nil {
-		return fmt.Errorf("cannot create %s: %v", filepath.Dir(dir), err)
+		return fmt.Errorf("cannot create %s: %w", filepath.Dir(dir), err)
 	}
 	d := demoStereoDeployment()
-	app.logf("demo: rendering %d stereo pairs of %d×%d and %d chessboard views of the demo rig in %s",
+	con.logf("demo: rendering %d stereo pairs of %d×%d and %d chessboard views of the demo rig in %s",
 		d.Frames, d.ImageSize.X, d.ImageSize.Y, d.CalibrationViews, dir)
-	pr := app.newProgress("render", d.Frames+d.CalibrationViews)
-	truth, err := samples.WriteDeployment(cmd.Context(), d, dir, app.cfg.Workers, pr.set)
+	pr := con.newProgress("render", d.Frames+d.CalibrationViews)
+	truth, err := samples.WriteDeployment(ctx, d, dir, cfg.Workers, pr.set)
 	pr.done()
 	if err != nil {
 		return err
 	}
-	saved := *app.cfg
-	defer func() { *app.cfg = saved }()
-
 	// 1. calibrate from the chessboard views
 	calDir := filepath.Join(dir, samples.DeploymentCalibrationDir)
-	app.cfg.Calibrate.Left = filepath.Join(calDir, "left_*.png")
-	app.cfg.Calibrate.Right = filepath.Join(calDir, "right_*.png")
-	app.cfg.Calibrate.Pattern = d.Board.Pattern().String()
-	app.cfg.Calibrate.SquareM = d.Board.SquareM
 	rigPath := filepath.Join(dir, "rig.yaml")
-	app.cfg.Out = rigPath
-	if err := app.calibrate(cmd); err != nil {
+	c := cfg
+	c.Calibrate.Left = filepath.Join(calDir, "left_*.png")
+	c.Calibrate.Right = filepath.Join(calDir, "right_*.png")
+	c.Calibrate.Pattern = d.Board.Pattern().String()
+	c.Calibrate.SquareM = d.Board.SquareM
+	c.Out = rigPath
+	if err := Calibrate(ctx, con, c); err != nil {
 		return err
 	}
 	got, err := calib.LoadRig(rigPath)
@@ -101,37 +109,35 @@ func (app *App) demoStereo(cmd *cobra.Command, dir string) error {
 		return err
 	}
 	// 2. reconstruct the frames
-	*app.cfg = saved
 	maps := filepath.Join(dir, "elevation.nc")
-	app.cfg.Reconstruct.Rig = rigPath
-	app.cfg.Reconstruct.Frames = filepath.Join(dir, samples.DeploymentFramesDir)
-	app.cfg.Reconstruct.StartUTC = d.StartUTC
-	app.cfg.Out = maps
-	if err := app.reconstruct(cmd); err != nil {
+	c = cfg
+	c.Reconstruct.Rig = rigPath
+	c.Reconstruct.Frames = filepath.Join(dir, samples.DeploymentFramesDir)
+	c.Reconstruct.StartUTC = d.StartUTC
+	c.Out = maps
+	if _, err := Reconstruct(ctx, con, c); err != nil {
 		return err
 	}
-	// 3. track crests on the reconstructed maps. Sky glints on steep faces
-	// pass the foam detector as small bright patches; the painted
-	// whitecaps cover about 4 m², so patches under 2 m² are left out.
-	*app.cfg = saved
-	app.cfg.Track.MinFoamPatchArea = 2
-	sum, err := app.track(cmd, maps, filepath.Join(dir, "tracks"))
+	// 3. track crests on the reconstructed maps
+	c = cfg
+	c.Track.Input, c.Out = maps, filepath.Join(dir, "tracks")
+	sum, err := Track(ctx, con, c)
 	if err != nil {
 		return err
 	}
-	app.logf("")
-	app.logf("demo (stereo chain): measured against truth, %s", truth.Site)
-	app.logf("  %-26s %10s %10s", "", "truth", "measured")
-	app.logf("  %-26s %10.4f %10.4f", "baseline (m)", d.Rig.Baseline(), got.Baseline())
-	app.logf("  %-26s %10.1f %10.1f", "left focal length (px)", samples.ScaleRig(d.Rig, d.ImageSize).Left.Fx, got.Left.Fx)
-	app.logf("  %-26s %10.3f %10.3f", "Hm0 (m)", truth.Hm0M, sum.SeaState.Hm0)
-	app.logf("  %-26s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, sum.SeaState.Tp)
-	app.logf("  %-26s %10.1f %10.1f", "mean direction (°)", math.Remainder(truth.MeanDirectionDeg, 360), sum.SeaState.MeanDirection)
+	con.logf("")
+	con.logf("demo (stereo chain): measured against truth, %s", truth.Site)
+	con.logf("  %-26s %10s %10s", "", "truth", "measured")
+	con.logf("  %-26s %10.4f %10.4f", "baseline (m)", d.Rig.Baseline(), got.Baseline())
+	con.logf("  %-26s %10.1f %10.1f", "left focal length (px)", samples.ScaleRig(d.Rig, d.ImageSize).Left.Fx, got.Left.Fx)
+	con.logf("  %-26s %10.3f %10.3f", "Hm0 (m)", truth.Hm0M, sum.SeaState.Hm0)
+	con.logf("  %-26s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, sum.SeaState.Tp)
+	con.logf("  %-26s %10.1f %10.1f", "mean direction (°)", math.Remainder(truth.MeanDirectionDeg, 360), sum.SeaState.MeanDirection)
 	if sum.Whitecaps != nil {
-		app.logf("  %-26s %10d %10d", "whitecaps", len(d.Foam.Patches), sum.Whitecaps.Whitecaps)
-		app.logf("  %-26s %10.3f %10.3f", "whitecap front speed (m/s)", d.Foam.Patches[0].SpeedMPS, sum.Whitecaps.MedianTrackSpeedRatio*sum.SeaState.PeakPhaseSpeed)
+		con.logf("  %-26s %10d %10d", "whitecaps", len(d.Foam.Patches), sum.Whitecaps.Whitecaps)
+		con.logf("  %-26s %10.3f %10.3f", "whitecap front speed (m/s)", d.Foam.Patches[0].SpeedMPS, sum.Whitecaps.MedianTrackSpeedRatio*sum.SeaState.PeakPhaseSpeed)
 	}
-	app.logf("  (the truth Hm0 and Tp are those of the generated spectrum; a %.0f s record scatters around them by several per cent)", float64(d.Frames)/d.FPS)
+	con.logf("  (the truth Hm0 and Tp are those of the generated spectrum; a %.0f s record scatters around them by several per cent)", float64(d.Frames)/d.FPS)
 	return nil
 }
 
@@ -166,7 +172,7 @@ func demoStereoDeployment() samples.Deployment {
 
 // demoFoam paints a set of whitecaps on the demo sea: fronts moving along
 // the mean direction at 0.7–0.9 of the peak phase speed (the range reported
-// for breaking crests, PHYSICS.md §5), spread over the record and the grid,
+// for breaking crests: Rapp & Melville 1990; Stansell & MacFarlane 2002), spread over the record and the grid,
 // so that the whitecap stage has a known truth to find.
 func demoFoam(sc samples.Scenario) (samples.FoamSpec, error) {
 	j := sc.JONSWAP

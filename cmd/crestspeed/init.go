@@ -1,8 +1,8 @@
 package main
 
 import (
+	"crestspeed/internal/atomicfile"
 	"fmt"
-	"os"
 
 	"github.com/spf13/cobra"
 )
@@ -20,27 +20,18 @@ its default, to FILE (default crestspeed.yaml; "-" for standard output).`,
 				path = args[0]
 			}
 			if path == "-" {
-				_, err := fmt.Fprint(app.Stdout, configTemplate)
+				_, err := fmt.Fprint(app.con.stdout, configTemplate)
 				return err
 			}
-			if err := refuseOverwrite(path, app.cfg.Force); err != nil {
+			if err := claimOutputs(app.cfg.Force, path); err != nil {
 				return err
 			}
-			if err := writeFileAtomic(path, []byte(configTemplate)); err != nil {
+			if err := atomicfile.WriteFile(path, []byte(configTemplate)); err != nil {
 				return err
 			}
-			app.logf("wrote %s", path)
+			app.con.logf("wrote %s", path)
 			return nil
 		},
 	}
 	return cmd
-}
-
-// refuseOverwrite is the rule for finished outputs: they are replaced only
-// with --force.
-func refuseOverwrite(path string, force bool) error {
-	if _, err := os.Stat(path); err == nil && !force {
-		return usageError{fmt.Errorf("%s already exists; use --force to replace it", path)}
-	}
-	return nil
 }

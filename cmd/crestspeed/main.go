@@ -9,6 +9,7 @@ package main
 
 import (
 	"context"
+	"crestspeed/speed/analysis"
 	"errors"
 	"fmt"
 	"io"
@@ -26,20 +27,34 @@ import (
 // version is set at build time with -ldflags "-X main.version=...".
 var version = "0.1.0-dev"
 
-// App is the state shared by all verbs.
+// App is the command line: it turns flags, environment and config file into
+// a Config, then hands that to a verb function. Verb functions (Track,
+// Reconstruct, ...) take their whole configuration as a value and share no
+// mutable state.
 type App struct {
-	V      *viper.Viper
-	Stdout io.Writer
-	Stderr io.Writer
-	cfg    *Config
+	V        *viper.Viper
+	con      *console
+	cfg      *Config
+	bindings map[*cobra.Command][]binding
+}
+
+// newApp returns a command line writing results to stdout and log lines
+// to stderr.
+func newApp(stdout, stderr io.Writer) *App {
+	return &App{V: viper.New(), con: &console{stdout: stdout, stderr: stderr}}
 }
 
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	app := &App{V: viper.New(), Stdout: os.Stdout, Stderr: os.Stderr}
+	app := newApp(os.Stdout, os.Stderr)
 	root := newRootCmd(app)
 	if err := root.ExecuteContext(ctx); err != nil {
+		if errors.Is(err, context.Canceled) {
+			err = errors.New("interrupted; finished outputs are kept and no partial file is left")
+			fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
+			os.Exit(exitInterrupted)
+		}
 		fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
 		os.Exit(exitCode(err))
 	}
@@ -48,12 +63,36 @@ func main() {
 // usageError marks an error in how the tool was called (exit status 2).
 type usageError struct{ error }
 
+func (u usageError) Unwrap() error { return u.error }
+
+// Exit statuses, the same for every verb (the README has the table).
+const (
+	exitOK          = 0   // done
+	exitFailed      = 1   // an input could not be analysed or an output not written
+	exitUsage       = 2   // the command line or configuration is wrong; nothing was done
+	exitIncomplete  = 3   // status: the run is not complete (parts queued, running or failed)
+	exitInterrupted = 130 // stopped by SIGINT or SIGTERM; finished outputs kept, no partial ones
+)
+
+// incompleteError marks a run that is not finished (exit status 3).
+type incompleteError struct{ error }
+
+func (e incompleteError) Unwrap() error { return e.error }
+
 func exitCode(err error) int {
 	var u usageError
-	if errors.As(err, &u) {
-		return 2
+	var inc incompleteError
+	switch {
+	case err == nil:
+		return exitOK
+	case errors.As(err, &u), errors.Is(err, analysis.ErrSetting):
+		return exitUsage
+	case errors.As(err, &inc):
+		return exitIncomplete
+	case errors.Is(err, context.Canceled):
+		return exitInterrupted
 	}
-	return 1
+	return exitFailed
 }
 
 // sentence makes sure an error message reads as one sentence.
@@ -95,9 +134,6 @@ Results are research estimates, not a safety or navigation system.`,
 	pf.Int("workers", 0, "worker goroutines (0 = number of CPU cores)")
 	pf.Bool("quiet", false, "print only errors")
 	pf.Bool("force", false, "overwrite finished outputs")
-	for _, k := range []string{"out", "workers", "quiet", "force"} {
-		_ = app.V.BindPFlag(k, pf.Lookup(k))
-	}
 	root.AddCommand(
 		newVersionCmd(app),
 		newInitCmd(app),
@@ -114,53 +150,13 @@ Results are research estimates, not a safety or navigation system.`,
 // from an init function, keeping this file free of per-verb edits.
 var extraCommands []func(*App) *cobra.Command
 
-// load reads the configuration once flags are parsed.
-func (app *App) load(cmd *cobra.Command) error {
-	v := app.V
-	setDefaults(v)
-	v.SetEnvPrefix("CRESTSPEED")
-	v.SetEnvKeyReplacer(strings.NewReplacer(".", "_"))
-	v.AutomaticEnv()
-	if f, _ := cmd.Flags().GetString("config"); f != "" {
-		v.SetConfigFile(f)
-		v.SetConfigType("yaml")
-		if err := v.ReadInConfig(); err != nil {
-			var nf viper.ConfigFileNotFoundError
-			if errors.As(err, &nf) || errors.Is(err, os.ErrNotExist) {
-				return usageError{fmt.Errorf("config file %s does not exist; write one with \"crestspeed init\"", f)}
-			}
-			return usageError{fmt.Errorf("config file %s cannot be read: %v", f, err)}
-		}
-	}
-	cfg, err := decodeConfig(v)
-	if err != nil {
-		return usageError{err}
-	}
-	if cfg.Workers < 0 || cfg.Workers > 1024 {
-		return usageError{fmt.Errorf("--workers %d is outside 0–1024", cfg.Workers)}
-	}
-	if cfg.Workers == 0 {
-		cfg.Workers = runtime.NumCPU()
-	}
-	app.cfg = cfg
-	return nil
-}
-
-// logf prints a progress or result line on stderr unless --quiet.
-func (app *App) logf(format string, args ...any) {
-	if app.cfg != nil && app.cfg.Quiet {
-		return
-	}
-	fmt.Fprintf(app.Stderr, format+"\n", args...)
-}
-
 func newVersionCmd(app *App) *cobra.Command {
 	return &cobra.Command{
 		Use:   "version",
 		Short: "Print the version of crestspeed",
 		Args:  cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			fmt.Fprintf(app.Stdout, "crestspeed %s (%s, %s/%s)\n", version, runtime.Version(), runtime.GOOS, runtime.GOARCH)
+			fmt.Fprintf(app.con.stdout, "crestspeed %s (%s, %s/%s)\n", version, runtime.Version(), runtime.GOOS, runtime.GOARCH)
 			return nil
 		},
 	}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"path/filepath"
@@ -121,7 +122,8 @@ be used are skipped and listed with their reasons.`,
 			return nil
 		},
 		RunE: func(cmd *cobra.Command, args []string) error {
-			return app.reconstruct(cmd)
+			_, err := Reconstruct(cmd.Context(), app.con, *app.cfg)
+			return err
 		},
 	}
 	f := cmd.Flags()
@@ -150,7 +152,7 @@ be used are skipped and listed with their reasons.`,
 		"min-points": "reconstruct.min_points", "plane-frames": "reconstruct.plane.frames",
 		"refit-plane": "reconstruct.plane.refit", "max-range": "reconstruct.max_range_m",
 	} {
-		bindFlag(app, cmd, flag, key)
+		app.bindFlag(cmd, flag, key)
 	}
 	return cmd
 }
@@ -171,6 +173,30 @@ type ReconstructFoam struct {
 	MinAreaPx     int     `yaml:"min_area_px"`
 	StereoCheck   bool    `yaml:"stereo_check"`
 	CellFraction  float64 `yaml:"cell_fraction"`
+}
+
+// defaultReconstructConfig holds the surface package's defaults.
+func defaultReconstructConfig() ReconstructConfig {
+	o := surface.DefaultOptions()
+	m, p, g, f := o.Matcher, o.Plane, o.Grid, o.Foam
+	return ReconstructConfig{
+		RectifyAlpha: o.RectifyAlpha, ElevationMarginM: o.ElevationMarginM, PlanePrewarp: o.Prewarp,
+		MaxRangeM: o.MaxRangeM, MinPoints: o.MinPoints, MaxAbsElevationM: o.MaxAbsElevationM,
+		MinFrameCoverage: o.MinFrameCoverage, Deflate: 4,
+		SGBM: ReconstructSGBM{
+			MinDisparity: m.MinDisparity, NumDisparities: m.NumDisparities, BlockSize: m.BlockSize,
+			P1: m.P1, P2: m.P2, Disp12MaxDiff: m.Disp12MaxDiff, PreFilterCap: m.PreFilterCap,
+			UniquenessRatio: m.UniquenessRatio, SpeckleWindowPx: m.SpeckleWindowSize, SpeckleRangePx: m.SpeckleRange,
+			Mode: m.Mode, LRCheck: m.LRCheck, LRMaxDiffPx: m.LRMaxDiffPx,
+		},
+		Grid: ReconstructGrid{X0M: g.X0, X1M: g.X1, Y0M: g.Y0, Y1M: g.Y1, DxM: g.D, Coverage: g.Coverage, GSDFactor: g.GSDFactor},
+		Plane: ReconstructPlane{Frames: p.Frames, SpanS: p.SpanS, RansacIterations: p.Iterations,
+			RansacThresholdM: p.ThresholdM, PixelStride: p.Stride, Seed: p.Seed, Refit: p.Refit},
+		// The verb detects foam unless told not to; the library leaves it
+		// off so that its callers opt in.
+		Foam: ReconstructFoam{Enabled: true, HighRatio: f.HighRatio, LowRatio: f.LowRatio,
+			MinContrastDN: f.MinContrastDN, MinAreaPx: f.MinAreaPx, StereoCheck: f.StereoCheck, CellFraction: f.CellFraction},
+	}
 }
 
 // surfaceOptions turns the configuration into surface.Options.
@@ -206,36 +232,42 @@ func (c ReconstructConfig) surfaceOptions(workers int) surface.Options {
 	return o
 }
 
-func (app *App) reconstruct(cmd *cobra.Command) error {
-	cfg := app.cfg.Reconstruct
-	out := app.cfg.Out
+// Reconstruct turns the stereo pairs of cfg.Reconstruct into the
+// elevation-map file cfg.Out (with its point counts, and the rig with its
+// sea plane when the plane was fitted).
+func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, error) {
+	cfg := c.Reconstruct
+	out := c.Out
 	switch {
 	case out == "":
-		return usageError{fmt.Errorf("give the elevation-map file to write with --out, like --out maps.nc")}
+		return nil, usageError{fmt.Errorf("give the elevation-map file to write with --out, like --out maps.nc")}
 	case strings.ToLower(filepath.Ext(out)) != ".nc":
-		return usageError{fmt.Errorf("elevation-map file %s should end in .nc", out)}
+		return nil, usageError{fmt.Errorf("elevation-map file %s should end in .nc", out)}
 	case cfg.Rig == "":
-		return usageError{fmt.Errorf("give the rig file with --rig (reconstruct.rig); make one with \"crestspeed calibrate\"")}
+		return nil, usageError{fmt.Errorf("give the rig file with --rig (reconstruct.rig); make one with \"crestspeed calibrate\"")}
 	case cfg.Frames == "" && cfg.Left == "" && cfg.Right == "" && cfg.Timestamps == "":
-		return usageError{fmt.Errorf("give the images with --left and --right patterns or a record folder with --frames")}
+		return nil, usageError{fmt.Errorf("give the images with --left and --right patterns or a record folder with --frames")}
 	case cfg.Frames != "" && (cfg.Left != "" || cfg.Right != ""):
-		return usageError{fmt.Errorf("give either --frames or --left and --right, not both")}
+		return nil, usageError{fmt.Errorf("give either --frames or --left and --right, not both")}
 	}
 	units := ingest.DefaultTimeUnits
 	if cfg.StartUTC != "" {
 		st, err := time.Parse(time.RFC3339, cfg.StartUTC)
 		if err != nil {
-			return usageError{fmt.Errorf("--start (reconstruct.start_utc) %q is not an RFC 3339 instant like 2026-06-14T09:00:00Z", cfg.StartUTC)}
+			return nil, usageError{fmt.Errorf("--start (reconstruct.start_utc) %q is not an RFC 3339 instant like 2026-06-14T09:00:00Z", cfg.StartUTC)}
 		}
 		units = "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z")
 	}
-	opt := cfg.surfaceOptions(app.cfg.Workers)
+	if err := c.Site.check(); err != nil {
+		return nil, usageError{err}
+	}
+	opt := cfg.surfaceOptions(c.Workers)
 	if err := opt.Validate(); err != nil {
-		return usageError{fmt.Errorf("reconstruct settings: %v", err)}
+		return nil, usageError{fmt.Errorf("reconstruct settings: %w", err)}
 	}
 	rig, err := calib.LoadRig(cfg.Rig)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	pointsPath, rigPath := reconstructOutputs(out)
 	outputs := []string{out, pointsPath}
@@ -243,82 +275,70 @@ func (app *App) reconstruct(cmd *cobra.Command) error {
 	if fitPlane {
 		outputs = append(outputs, rigPath)
 	}
-	for _, p := range outputs {
-		if err := refuseOverwrite(p, app.cfg.Force); err != nil {
-			return err
-		}
+	if err := claimOutputs(c.Force, outputs...); err != nil {
+		return nil, err
 	}
 	spec := ingest.PairSpec{Dir: cfg.Frames, LeftGlob: cfg.Left, RightGlob: cfg.Right, TimestampsFile: cfg.Timestamps, FPS: cfg.FPS}
 	first, err := ingest.OpenPairs(spec)
 	if err != nil {
-		return usageError{err}
+		return nil, usageError{err}
 	}
 	total := first.Len()
 	first.Close()
 	open := func() (ingest.StereoSource, error) { return ingest.OpenPairs(spec) }
 
 	t0 := time.Now()
-	app.logf("reconstruct: %d image pairs, rig %s (%d×%d px, baseline %.3f m), %d workers", total, cfg.Rig, rig.Size.X, rig.Size.Y, rig.Baseline(), app.cfg.Workers)
-	var pr *progress
-	var prName string
-	opt.Progress = func(pass string, done, n int) {
-		if pass != prName {
-			if pr != nil {
-				pr.done()
-			}
-			pr, prName = app.newProgress(pass, n), pass
-		}
-		pr.set(done, n)
-	}
+	con.logf("reconstruct: %d image pairs, rig %s (%d×%d px, baseline %.3f m), %d workers", total, cfg.Rig, rig.Size.X, rig.Size.Y, rig.Baseline(), c.Workers)
+	update, stop := con.passes()
+	opt.Progress = update
 	sink := &surface.FileSink{Path: out, PointsPath: pointsPath, Options: ingest.WriteOptions{
 		Deflate: cfg.Deflate, TimeUnits: units, DepthM: cfg.DepthM,
-		Attrs: map[string]string{"rig_file": cfg.Rig},
+		Attrs:    map[string]string{"rig_file": cfg.Rig, "site": c.Site.Name},
+		Platform: c.Site.Platform, Georef: c.Site.georef(),
 	}}
-	res, err := surface.Run(cmd.Context(), rig, open, opt, sink)
-	if pr != nil {
-		pr.done()
-	}
+	res, err := surface.Run(ctx, rig, open, opt, sink)
+	stop()
 	if err != nil {
 		sink.Abort()
 		var se *surface.SizeError
 		if errors.As(err, &se) {
-			return fmt.Errorf("the frames are %d×%d px (first pair %s) but rig file %s describes %d×%d px cameras; give the rig file of the cameras that took these frames",
+			return nil, fmt.Errorf("the frames are %d×%d px (first pair %s) but rig file %s describes %d×%d px cameras; give the rig file of the cameras that took these frames",
 				se.Got.X, se.Got.Y, se.Path, cfg.Rig, se.Want.X, se.Want.Y)
 		}
-		return err
+		return nil, err
 	}
 	s := res.Setup
 	if err := sink.Commit(); err != nil {
-		return err
+		return nil, err
 	}
 	p := s.Rig.SeaPlane
 	if s.PlaneFit != nil {
-		app.logf("reconstruct: mean sea plane fitted to %d points of %d pairs: camera %.3f m above it, %d inliers within %g m, RMS %.3f m",
+		con.logf("reconstruct: mean sea plane fitted to %d points of %d pairs: camera %.3f m above it, %d inliers within %g m, RMS %.3f m",
 			s.PlaneFit.Points, s.PlanePairs, p.OffsetM, s.PlaneFit.Inliers, opt.Plane.ThresholdM, s.PlaneFit.RMSM)
 		if s.PlaneFit.SpanS < planeSpanCaution {
-			app.logf("reconstruct: caution: the plane was fitted to pairs spanning only %.1f s, too short for the waves to average out, so the plane and the mean level of the maps may be off by a fraction of Hs; fit over a longer record (plane.span_s) or give the plane in the rig file", s.PlaneFit.SpanS)
+			con.logf("reconstruct: caution: the plane was fitted to pairs spanning only %.1f s, too short for the waves to average out, so the plane and the mean level of the maps may be off by a fraction of Hs; fit over a longer record (plane.span_s) or give the plane in the rig file", s.PlaneFit.SpanS)
 		}
 		if err := s.Rig.Save(rigPath); err != nil {
-			return err
+			return nil, err
 		}
 	} else {
-		app.logf("reconstruct: mean sea plane from the rig file: camera %.3f m above it", p.OffsetM)
+		con.logf("reconstruct: mean sea plane from the rig file: camera %.3f m above it", p.OffsetM)
 	}
 	g := s.Grid
-	app.logf("reconstruct: grid x %.2f–%.2f m, y %.2f–%.2f m, %d × %d cells of %g m (%s)",
+	con.logf("reconstruct: grid x %.2f–%.2f m, y %.2f–%.2f m, %d × %d cells of %g m (%s)",
 		g.X[0], g.X[len(g.X)-1], g.Y[0], g.Y[len(g.Y)-1], g.Nx(), g.Ny(), g.Dx(), s.GridNote)
-	app.logf("reconstruct: disparities %d to %d px%s; %d workers × %d OpenCV threads",
+	con.logf("reconstruct: disparities %d to %d px%s; %d workers × %d OpenCV threads",
 		s.SGBM.MinDisparity, s.SGBM.MinDisparity+s.SGBM.NumDisparities-1, map[bool]string{true: " (residual about the sea plane's)", false: ""}[s.Prewarped],
 		s.Workers, s.OpenCVThreads)
 	for _, k := range sortedSkipReasons(res.FoamSkipped) {
-		app.logf("reconstruct: no foam detection on %d pairs (elevation kept): %s", res.FoamSkipped[k], k)
+		con.logf("reconstruct: no foam detection on %d pairs (elevation kept): %s", res.FoamSkipped[k], k)
 	}
 	for _, k := range sortedSkipReasons(res.Skipped) {
-		app.logf("reconstruct: skipped %d pairs: %s", res.Skipped[k], k)
+		con.logf("reconstruct: skipped %d pairs: %s", res.Skipped[k], k)
 	}
 	tm := res.Times
 	if n := time.Duration(max(tm.Pairs, 1)); tm.Pairs > 0 {
-		app.logf("reconstruct: per pair (summed over workers): remap %s, matching %s, reprojection %s, gridding %s",
+		con.logf("reconstruct: per pair (summed over workers): remap %s, matching %s, reprojection %s, gridding %s",
 			(tm.Remap / n).Round(time.Millisecond), (tm.Match / n).Round(time.Millisecond),
 			(tm.Reproject / n).Round(time.Millisecond), (tm.Grid / n).Round(time.Millisecond))
 	}
@@ -326,9 +346,9 @@ func (app *App) reconstruct(cmd *cobra.Command) error {
 	if s.PlaneFit != nil {
 		written = out + ", " + pointsPath + " and " + rigPath
 	}
-	app.logf("reconstruct: %d maps, %.0f %% of cells with elevations on average (lowest %.0f %%); wrote %s in %s",
+	con.logf("reconstruct: %d maps, %.0f %% of cells with elevations on average (lowest %.0f %%); wrote %s in %s",
 		res.Frames, 100*res.CoverageMean, 100*res.CoverageMin, written, elapsed(t0))
-	return nil
+	return res, nil
 }
 
 // sortedSkipReasons lists skip reasons in a fixed order.

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -12,20 +13,19 @@ import (
 )
 
 // ReportConfig configures the deployment report ("crestspeed report" and
-// the report stage of "crestspeed track").
+// the report stage of "crestspeed track"): the verb's input and the report
+// package's options.
 type ReportConfig struct {
-	Tracks             string `yaml:"tracks"`
-	BootstrapResamples int    `yaml:"bootstrap_resamples"`
-	BootstrapSeed      uint64 `yaml:"bootstrap_seed"`
-	HighestCrests      int    `yaml:"highest_crests"`
+	Tracks         string `yaml:"tracks"`
+	report.Options `yaml:",inline"`
 }
 
+func defaultReportConfig() ReportConfig { return ReportConfig{Options: report.DefaultOptions()} }
+
 func (rc ReportConfig) options() report.Options {
-	return report.Options{
-		Bootstrap:     report.BootstrapOptions{Resamples: rc.BootstrapResamples, Seed: rc.BootstrapSeed},
-		HighestCrests: rc.HighestCrests,
-		Version:       version,
-	}
+	o := rc.Options
+	o.Version = version
+	return o
 }
 
 func newReportCmd(app *App) *cobra.Command {
@@ -46,27 +46,7 @@ kept unless --force is given. "crestspeed track" writes the report itself
 unless --no-report is given.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			rc := app.cfg.Report
-			if rc.Tracks == "" {
-				return usageError{fmt.Errorf("give the folder \"crestspeed track\" wrote with --tracks DIR")}
-			}
-			out := app.cfg.Out
-			if out == "" {
-				out = rc.Tracks
-			}
-			if err := rc.options().Validate(); err != nil {
-				return usageError{err}
-			}
-			if err := refuseReportOverwrite(out, !samePath(out, rc.Tracks), app.cfg.Force); err != nil {
-				return err
-			}
-			started := time.Now()
-			d, err := report.LoadDeployment(rc.Tracks)
-			if err != nil {
-				return err
-			}
-			app.logf("report: %d crest rows from %s", d.Crests.Len(), rc.Tracks)
-			return app.writeReport(d, out, started)
+			return Report(cmd.Context(), app.con, *app.cfg)
 		},
 	}
 	f := cmd.Flags()
@@ -74,41 +54,56 @@ unless --no-report is given.`,
 	f.Int("resamples", 0, "bootstrap resamples for the 90 % confidence intervals")
 	f.Uint64("seed", 0, "seed of the bootstrap resampling")
 	f.Int("highest-crests", 0, "number of highest crests whose histories figure 4 shows")
-	bindFlag(app, cmd, "tracks", "report.tracks")
-	bindFlag(app, cmd, "resamples", "report.bootstrap_resamples")
-	bindFlag(app, cmd, "seed", "report.bootstrap_seed")
-	bindFlag(app, cmd, "highest-crests", "report.highest_crests")
+	app.bindFlag(cmd, "tracks", "report.tracks")
+	app.bindFlag(cmd, "resamples", "report.bootstrap_resamples")
+	app.bindFlag(cmd, "seed", "report.bootstrap_seed")
+	app.bindFlag(cmd, "highest-crests", "report.highest_crests")
 	return cmd
+}
+
+// Report rebuilds the report of the track folder cfg.Report.Tracks into
+// cfg.Out (default: that folder).
+func Report(ctx context.Context, con *console, cfg Config) error {
+	rc := cfg.Report
+	if rc.Tracks == "" {
+		return usageError{fmt.Errorf("give the folder \"crestspeed track\" wrote with --tracks DIR")}
+	}
+	out := cfg.Out
+	if out == "" {
+		out = rc.Tracks
+	}
+	if err := rc.options().Validate(); err != nil {
+		return usageError{fmt.Errorf("report settings: %w", err)}
+	}
+	outputs := inDir(out, report.ReportOutputs...)
+	if !samePath(out, rc.Tracks) {
+		// in the track folder summary.json is updated in place
+		outputs = append(outputs, filepath.Join(out, "summary.json"))
+	}
+	if err := claimOutputs(cfg.Force, outputs...); err != nil {
+		return err
+	}
+	started := time.Now()
+	d, err := report.LoadDeployment(rc.Tracks)
+	if err != nil {
+		return err
+	}
+	con.logf("report: %d crest rows from %s", d.Crests.Len(), rc.Tracks)
+	return writeReport(con, cfg, d, out, started)
 }
 
 func init() { extraCommands = append(extraCommands, newReportCmd) }
 
-// refuseReportOverwrite refuses to replace a finished report unless
-// force; summary.json counts only when the report goes to another folder
-// than the track files (in the track folder it is updated in place).
-func refuseReportOverwrite(dir string, withSummary, force bool) error {
-	names := append([]string{}, report.ReportOutputs...)
-	if withSummary {
-		names = append(names, "summary.json")
-	}
-	for _, name := range names {
-		if err := refuseOverwrite(filepath.Join(dir, name), force); err != nil {
-			return err
-		}
-	}
-	return nil
-}
-
 // writeReport writes the report of d into dir and prints where it is.
-func (app *App) writeReport(d *report.Deployment, dir string, started time.Time) error {
-	opt := app.cfg.Report.options()
-	opt.Bootstrap.Workers = app.cfg.Workers
+func writeReport(con *console, cfg Config, d *report.Deployment, dir string, started time.Time) error {
+	opt := cfg.Report.options()
+	opt.Bootstrap.Workers = cfg.Workers
 	res, err := report.WriteReport(dir, d, opt)
 	if err != nil {
 		return err
 	}
-	app.logf("report: %d figures, %s written in %s", len(res.Figures), filepath.Join(dir, "crest_tracks.nc"), elapsed(started))
-	fmt.Fprintln(app.Stdout, res.HTML)
+	con.logf("report: %d figures, %s written in %s", len(res.Figures), filepath.Join(dir, "crest_tracks.nc"), elapsed(started))
+	fmt.Fprintln(con.stdout, res.HTML)
 	return nil
 }
 

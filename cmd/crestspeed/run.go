@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"os"
@@ -31,57 +32,58 @@ Every setting comes from the file (see "crestspeed init"); a finished output
 is kept unless --force is given.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			return app.runChain(cmd)
+			return RunDeployment(cmd.Context(), app.con, *app.cfg)
 		},
 	}
 }
 
-// runChain wires calibrate → reconstruct → track for one deployment.
-func (app *App) runChain(cmd *cobra.Command) error {
-	dir := app.cfg.Out
+// RunDeployment chains calibrate (when the rig file is missing),
+// reconstruct and track for one deployment into the folder cfg.Out. Each
+// stage gets its own copy of the configuration with its inputs and output
+// set, and that copy is what the stage records.
+func RunDeployment(ctx context.Context, con *console, cfg Config) error {
+	dir := cfg.Out
 	if dir == "" {
 		return usageError{fmt.Errorf("give the deployment's output folder with --out DIR")}
 	}
 	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("cannot create %s: %v", dir, err)
+		return fmt.Errorf("cannot create %s: %w", dir, err)
 	}
 	t0 := time.Now()
-	saved := *app.cfg
-	defer func() { *app.cfg = saved }()
-
-	rig := saved.Reconstruct.Rig
+	rig := cfg.Reconstruct.Rig
 	if rig == "" {
 		rig = filepath.Join(dir, "rig.yaml")
 	}
 	if _, err := os.Stat(rig); errors.Is(err, os.ErrNotExist) {
-		if saved.Calibrate.Left == "" || saved.Calibrate.Right == "" {
+		if cfg.Calibrate.Left == "" || cfg.Calibrate.Right == "" {
 			return usageError{fmt.Errorf("rig file %s does not exist and the configuration gives no calibration images (calibrate.left, calibrate.right)", rig)}
 		}
-		app.logf("run: 1/3 calibrate → %s", rig)
-		*app.cfg = saved
-		app.cfg.Out = rig
-		if err := app.calibrate(cmd); err != nil {
+		con.logf("run: 1/3 calibrate → %s", rig)
+		c := cfg
+		c.Out = rig
+		if err := Calibrate(ctx, con, c); err != nil {
 			return err
 		}
 	} else {
-		app.logf("run: 1/3 using the rig file %s", rig)
+		con.logf("run: 1/3 using the rig file %s", rig)
 	}
 
 	maps := filepath.Join(dir, "elevation.nc")
-	app.logf("run: 2/3 reconstruct → %s", maps)
-	*app.cfg = saved
-	app.cfg.Out = maps
-	app.cfg.Reconstruct.Rig = rig
-	if err := app.reconstruct(cmd); err != nil {
+	con.logf("run: 2/3 reconstruct → %s", maps)
+	c := cfg
+	c.Out = maps
+	c.Reconstruct.Rig = rig
+	if _, err := Reconstruct(ctx, con, c); err != nil {
 		return err
 	}
 
 	tracks := filepath.Join(dir, "tracks")
-	app.logf("run: 3/3 track → %s", tracks)
-	*app.cfg = saved
-	if _, err := app.track(cmd, maps, tracks); err != nil {
+	con.logf("run: 3/3 track → %s", tracks)
+	c = cfg
+	c.Out, c.Track.Input = tracks, maps
+	if _, err := Track(ctx, con, c); err != nil {
 		return err
 	}
-	app.logf("run: done in %s; report %s", elapsed(t0), filepath.Join(tracks, "report.html"))
+	con.logf("run: done in %s; report %s", elapsed(t0), filepath.Join(tracks, "report.html"))
 	return nil
 }

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"path/filepath"
 	"time"
@@ -21,12 +22,7 @@ time base of the "synthesize" section of the configuration. The same settings
 and seed give the same file.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			cfg := app.cfg
-			out := cfg.Out
-			if out == "" {
-				return usageError{fmt.Errorf("give the output file with --out FILE.nc")}
-			}
-			_, err := app.synthesize(cmd, cfg.Synthesize, out)
+			_, err := Synthesize(cmd.Context(), app.con, *app.cfg)
 			return err
 		},
 	}
@@ -41,40 +37,47 @@ and seed give the same file.`,
 	f.Uint64("seed", 0, "random seed of the JONSWAP sea")
 	f.Float64("duration", 0, "record length (s)")
 	f.Float64("fps", 0, "frame rate (Hz)")
-	bindFlag(app, cmd, "kind", "synthesize.kind")
-	bindFlag(app, cmd, "hs", "synthesize.jonswap.hs_m")
-	bindFlag(app, cmd, "tp", "synthesize.jonswap.tp_s")
-	bindFlag(app, cmd, "height", "synthesize.regular.height_m")
-	bindFlag(app, cmd, "period", "synthesize.regular.period_s")
-	for _, k := range []string{"regular", "jonswap", "packet"} {
-		bindFlag(app, cmd, "direction", "synthesize."+k+".direction_deg")
-		bindFlag(app, cmd, "depth", "synthesize."+k+".depth_m")
-	}
-	bindFlag(app, cmd, "seed", "synthesize.jonswap.seed")
-	bindFlag(app, cmd, "duration", "synthesize.grid.duration_s")
-	bindFlag(app, cmd, "fps", "synthesize.grid.frame_rate_hz")
+	app.bindFlag(cmd, "kind", "synthesize.kind")
+	app.bindFlag(cmd, "hs", "synthesize.jonswap.hs_m")
+	app.bindFlag(cmd, "tp", "synthesize.jonswap.tp_s")
+	app.bindFlag(cmd, "height", "synthesize.regular.height_m")
+	app.bindFlag(cmd, "period", "synthesize.regular.period_s")
+	app.bindFlag(cmd, "direction", "synthesize.regular.direction_deg", "synthesize.jonswap.direction_deg", "synthesize.packet.direction_deg")
+	app.bindFlag(cmd, "depth", "synthesize.regular.depth_m", "synthesize.jonswap.depth_m", "synthesize.packet.depth_m")
+	app.bindFlag(cmd, "seed", "synthesize.jonswap.seed")
+	app.bindFlag(cmd, "duration", "synthesize.grid.duration_s")
+	app.bindFlag(cmd, "fps", "synthesize.grid.frame_rate_hz")
 	return cmd
 }
 
-func (app *App) synthesize(cmd *cobra.Command, sc SynthesizeConfig, out string) (samples.Truth, error) {
-	if err := refuseOverwrite(out, app.cfg.Force); err != nil {
-		return samples.Truth{}, err
+// Synthesize writes the synthetic record of cfg.Synthesize to the file
+// cfg.Out, with its truth beside it.
+func Synthesize(ctx context.Context, con *console, cfg Config) (samples.Truth, error) {
+	sc, out := cfg.Synthesize, cfg.Out
+	if out == "" {
+		return samples.Truth{}, usageError{fmt.Errorf("give the output file with --out FILE.nc")}
 	}
 	if filepath.Ext(out) != ".nc" {
 		return samples.Truth{}, usageError{fmt.Errorf("output %s should end in .nc", out)}
 	}
 	if sc.Deflate < 0 || sc.Deflate > 9 {
-		return samples.Truth{}, usageError{fmt.Errorf("deflate level %d is outside 0–9", sc.Deflate)}
+		return samples.Truth{}, usageError{fmt.Errorf("deflate level %d is outside 0–9 (synthesize.deflate)", sc.Deflate)}
+	}
+	if err := sc.Scenario.Validate(); err != nil {
+		return samples.Truth{}, usageError{fmt.Errorf("synthesize settings: %w", err)}
+	}
+	if err := claimOutputs(cfg.Force, out, samples.TruthPath(out)); err != nil {
+		return samples.Truth{}, err
 	}
 	t0 := time.Now()
-	pr := app.newProgress("synthesize", sc.Grid.Frames())
-	truth, err := samples.Synthesize(cmd.Context(), sc.Scenario, out, sc.Deflate, app.cfg.Workers, pr.set)
+	pr := con.newProgress("synthesize", sc.Grid.Frames())
+	truth, err := samples.Synthesize(ctx, sc.Scenario, out, sc.Deflate, cfg.Workers, pr.set)
 	pr.done()
 	if err != nil {
 		return truth, err
 	}
-	app.logf("synthesize: wrote %s (%d frames of %d×%d, %s sea, Hm0 %.2f m, Tp %.2f s, direction %.1f°) in %s",
+	con.logf("synthesize: wrote %s (%d frames of %d×%d, %s sea, Hm0 %.2f m, Tp %.2f s, direction %.1f°) in %s",
 		out, truth.Frames, sc.Grid.Nx, sc.Grid.Ny, sc.Kind, truth.Hm0M, truth.PeakPeriodS, truth.MeanDirectionDeg, elapsed(t0))
-	app.logf("synthesize: truth in %s", samples.TruthPath(out))
+	con.logf("synthesize: truth in %s", samples.TruthPath(out))
 	return truth, nil
 }

@@ -1,17 +1,16 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"math"
-	"os"
-	"path/filepath"
 	"time"
 
 	"github.com/spf13/cobra"
 
 	"crestspeed/ingest"
 	"crestspeed/report"
-	"crestspeed/speed"
+	"crestspeed/speed/analysis"
 )
 
 func newTrackCmd(app *App) *cobra.Command {
@@ -35,19 +34,18 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 "crestspeed report") unless --no-report is given.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			cfg := app.cfg
-			if cfg.Track.Input == "" {
-				return usageError{fmt.Errorf("give the elevation-map file with --input FILE.nc")}
+			cfg := *app.cfg
+			if flagGiven(cmd, "no-report") {
+				cfg.Track.Report = false
 			}
-			if cfg.Out == "" {
-				return usageError{fmt.Errorf("give the output folder with --out DIR")}
-			}
-			_, err := app.track(cmd, cfg.Track.Input, cfg.Out)
+			_, err := Track(cmd.Context(), app.con, cfg)
 			return err
 		},
 	}
 	f := cmd.Flags()
-	f.String("input", "", "elevation-map NetCDF file")
+	f.String("input", "", "elevation maps: a NetCDF file, a quoted glob of files in time order, or an index of parts (.json, .txt)")
+	f.String("variable", "", "name of the elevation variable (default: found by CF standard_name, else eta)")
+	f.Float64("heading", 0, "bearing of the grid's +x axis, degrees clockwise from true north (site.heading_deg); default: the file's")
 	f.Float64("depth", 0, "water depth (m); 0 = deep water; default: the file's water_depth_m")
 	f.Float64("direction", 0, "mean direction of wave travel (degrees counter-clockwise from +x); default: estimated")
 	f.Float64("current-speed", 0, "uniform current speed (m/s)")
@@ -56,119 +54,123 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f.Int("max-gap", 0, "frames a track may miss and continue")
 	f.Float64("window", 0, "crest-speed fit window (s); 0 = Tp/4")
 	f.Bool("no-report", false, "skip the report after tracking")
-	bindFlag(app, cmd, "input", "track.input")
-	bindFlag(app, cmd, "depth", "track.depth_m")
-	bindFlag(app, cmd, "direction", "track.direction_deg")
-	bindFlag(app, cmd, "current-speed", "track.current_speed_mps")
-	bindFlag(app, cmd, "current-direction", "track.current_direction_deg")
-	bindFlag(app, cmd, "vorticity", "track.vorticity_per_s")
-	bindFlag(app, cmd, "max-gap", "track.max_gap_frames")
-	bindFlag(app, cmd, "window", "track.speed_window_s")
-	prev := cmd.PreRunE
-	cmd.PreRunE = func(c *cobra.Command, args []string) error {
-		if err := prev(c, args); err != nil {
-			return err
-		}
-		if v, _ := c.Flags().GetBool("no-report"); v {
-			app.cfg.Track.Report = false
-		}
-		return nil
-	}
+	f.String("gauge", "", "in-situ elevation series to compare the maps with (CSV time_s|utc,eta_m, or CF NetCDF)")
+	f.Float64("gauge-x", 0, "x of the gauge on the grid (m)")
+	f.Float64("gauge-y", 0, "y of the gauge on the grid (m)")
+	app.bindFlag(cmd, "input", "track.input")
+	app.bindFlag(cmd, "variable", "track.variable")
+	app.bindFlag(cmd, "heading", "site.heading_deg")
+	app.bindFlag(cmd, "gauge", "track.gauge.file")
+	app.bindFlag(cmd, "gauge-x", "track.gauge.x_m")
+	app.bindFlag(cmd, "gauge-y", "track.gauge.y_m")
+	app.bindFlag(cmd, "depth", "track.depth_m")
+	app.bindFlag(cmd, "direction", "track.direction_deg")
+	app.bindFlag(cmd, "current-speed", "track.current_speed_mps")
+	app.bindFlag(cmd, "current-direction", "track.current_direction_deg")
+	app.bindFlag(cmd, "vorticity", "track.vorticity_per_s")
+	app.bindFlag(cmd, "max-gap", "track.max_gap_frames")
+	app.bindFlag(cmd, "window", "track.speed_window_s")
 	return cmd
 }
 
 func init() { extraCommands = append(extraCommands, newTrackCmd) }
 
-// track runs the crest analysis of one elevation-map file into dir.
-func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, error) {
-	tc := app.cfg.Track
-	for _, name := range report.TrackOutputs {
-		if err := refuseOverwrite(filepath.Join(dir, name), app.cfg.Force); err != nil {
-			return nil, err
-		}
+// checkTrack refuses a track configuration that cannot run, before any
+// work is done.
+func checkTrack(cfg Config) error {
+	tc := cfg.Track
+	switch {
+	case tc.Input == "":
+		return usageError{fmt.Errorf("give the elevation-map file with --input FILE.nc (track.input)")}
+	case cfg.Out == "":
+		return usageError{fmt.Errorf("give the output folder with --out DIR")}
+	}
+	if err := cfg.Site.check(); err != nil {
+		return usageError{err}
 	}
 	if err := checkSteepnessBounds(tc.SteepnessBounds); err != nil {
-		return nil, usageError{err}
+		return usageError{err}
 	}
-	if !(tc.BxThreshold > 0 && tc.BxThreshold < 5) {
-		return nil, usageError{fmt.Errorf("breaking-index threshold %g is outside (0, 5)", tc.BxThreshold)}
+	if err := tc.Options.Validate(); err != nil {
+		return usageError{fmt.Errorf("track settings: %w", err)}
 	}
 	if tc.Report {
-		if err := app.cfg.Report.options().Validate(); err != nil {
-			return nil, usageError{err}
-		}
-		if err := refuseReportOverwrite(dir, false, app.cfg.Force); err != nil {
-			return nil, err
+		if err := cfg.Report.options().Validate(); err != nil {
+			return usageError{fmt.Errorf("report settings: %w", err)}
 		}
 	}
+	return nil
+}
+
+// Track runs the crest analysis of the elevation-map file cfg.Track.Input
+// into the folder cfg.Out, then the report unless cfg.Track.Report is off.
+func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, error) {
+	if err := checkTrack(cfg); err != nil {
+		return nil, err
+	}
+	tc, dir := cfg.Track, cfg.Out
+	outputs := inDir(dir, report.AllTrackOutputs()...)
+	if tc.Report {
+		outputs = append(outputs, inDir(dir, report.ReportOutputs...)...)
+	}
+	if err := claimOutputs(cfg.Force, outputs...); err != nil {
+		return nil, err
+	}
 	started := time.Now()
-	src, err := ingest.OpenElevation(input, ingest.ElevationOptions{})
+	src, err := ingest.OpenElevations(tc.Input, tc.ElevationOptions)
 	if err != nil {
 		return nil, err
 	}
 	defer src.Close()
-	in, err := report.DescribeFile(input)
+	var inputs []report.FileInfo
+	for _, p := range src.Paths() {
+		in, err := report.DescribeFile(p)
+		if err != nil {
+			return nil, err
+		}
+		inputs = append(inputs, in)
+	}
+	opt := tc.Options
+	opt.Workers = cfg.Workers
+	gauge, err := openGauge(tc.Gauge, src.Meta())
 	if err != nil {
 		return nil, err
 	}
-	cd := tc.CurrentDirectionDeg * math.Pi / 180
-	opt := speed.RecordOptions{
-		DepthM:           tc.DepthM,
-		DirectionDeg:     tc.DirectionDeg,
-		Current:          speed.Current{U: tc.CurrentSpeedMPS * math.Cos(cd), V: tc.CurrentSpeedMPS * math.Sin(cd)},
-		Vorticity:        tc.VorticityPerS,
-		MinCrestFraction: tc.MinCrestFraction,
-		MinCrestLengthM:  tc.MinCrestLengthM,
-		MaxGapFrames:     tc.MaxGapFrames,
-		SpeedWindowS:     tc.SpeedWindowS,
-		Workers:          app.cfg.Workers,
-		BreakingIndex:    tc.BreakingIndex,
-		VelocityWindowS:  tc.VelocityWindowS,
-		BxThreshold:      tc.BxThreshold,
-		Whitecaps:        tc.Whitecaps,
-		Breaking: speed.BreakingOptions{
-			MaxFoamFraction:   tc.FoamSaturation,
-			MinPatchArea:      tc.MinFoamPatchArea,
-			BinWidth:          tc.LambdaBinWidth,
-			BreakingParameter: tc.BreakingParameter,
-		},
+	if gauge != nil {
+		opt.Probe = &analysis.ProbePoint{X: *tc.Gauge.XM, Y: *tc.Gauge.YM}
 	}
-	if err := opt.Validate(); err != nil {
-		return nil, usageError{err}
-	}
-	n := len(src.Meta().Times)
-	bars := map[string]*progress{}
-	opt.Progress = func(pass string, done, total int) {
-		pr, ok := bars[pass]
-		if !ok {
-			pr = app.newProgress(pass, total)
-			bars[pass] = pr
-		}
-		pr.set(done, total)
-	}
-	app.logf("track: %s, %d frames of %d×%d", input, n, src.Meta().Grid.Nx(), src.Meta().Grid.Ny())
-	rec, err := speed.AnalyseRecord(cmd.Context(), src, opt)
-	for _, pr := range bars {
-		pr.done()
-	}
+	update, stop := con.passes()
+	opt.Progress = update
+	con.logf("track: %s, %d frames of %d×%d", tc.Input, len(src.Meta().Times), src.Meta().Grid.Nx(), src.Meta().Grid.Ny())
+	rec, err := analysis.Run(ctx, src, opt)
+	stop()
 	if err != nil {
 		return nil, err
 	}
 	for _, w := range rec.Warnings {
-		app.logf("track: warning: %s", w)
+		con.logf("track: warning: %s", w)
+	}
+	var gaugeRun *report.GaugeRun
+	if gauge != nil {
+		if gaugeRun, err = gauge.compare(rec, tc.Gauge); err != nil {
+			return nil, err
+		}
+		printGauge(con, gaugeRun)
 	}
 	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
-		Version: version, Config: app.resolvedConfig(), Inputs: []report.FileInfo{in},
+		Site:    siteSummary(cfg.Site, src.Meta()),
+		Gauge:   gaugeRun,
+		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started,
 	})
 	if err != nil {
 		return nil, err
 	}
-	app.printTrackSummary(sum)
-	app.printBreaking(sum)
-	app.logf("track: wrote %s in %s", dir, elapsed(started))
+	printTrackSummary(con, sum)
+	printBreaking(con, sum)
+	con.logf("track: wrote %s in %s", dir, elapsed(started))
 	if tc.Report {
-		if err := app.writeReport(report.DeploymentFromRecord(rec, sum, dir), dir, time.Now()); err != nil {
+		if err := writeReport(con, cfg, report.DeploymentFromRecord(rec, sum, dir), dir, time.Now()); err != nil {
 			return nil, err
 		}
 	}
@@ -178,29 +180,30 @@ func (app *App) track(cmd *cobra.Command, input, dir string) (*report.Summary, e
 func checkSteepnessBounds(b []float64) error {
 	for i, v := range b {
 		if !(v > 0 && v < 2) {
-			return fmt.Errorf("steepness class boundary %g is outside (0, 2)", v)
+			return fmt.Errorf("steepness class boundary %g is outside (0, 2) (track.steepness_bounds)", v)
 		}
 		if i > 0 && v <= b[i-1] {
-			return fmt.Errorf("steepness class boundaries %v are not increasing", b)
+			return fmt.Errorf("steepness class boundaries %v are not increasing (track.steepness_bounds)", b)
 		}
 	}
 	return nil
 }
 
-// resolvedConfig is the configuration as used, for provenance.
-func (app *App) resolvedConfig() map[string]any {
-	return app.V.AllSettings()
-}
-
-func (app *App) printTrackSummary(s *report.Summary) {
+func printTrackSummary(con *console, s *report.Summary) {
 	ss := s.SeaState
-	app.logf("sea state: Hm0 %.2f m, Tp %.2f s, mean direction %.1f° (%s), depth %s, peak phase speed %.2f m/s",
+	con.logf("sea state: Hm0 %.2f m, Tp %.2f s, mean direction %.1f° counter-clockwise from the grid's +x (%s), depth %s, peak phase speed %.2f m/s",
 		ss.Hm0, ss.Tp, ss.MeanDirection, ss.DirectionSource, depthText(ss.Depth), ss.PeakPhaseSpeed)
-	app.logf("frames: %d read, %d skipped %v; masked fraction %.3f", s.Frames.Read, s.Frames.Skipped, s.Frames.SkippedReasons, s.Masked)
-	app.logf("crests: %d detections in %d tracks; %d rows with a speed", s.Crests.Detections, s.Crests.Tracks, s.Crests.RowsWithSpeed)
+	if !math.IsNaN(ss.DirectionToTrue) {
+		con.logf("sea state: waves travel toward %.1f° true, coming from %.1f° true", ss.DirectionToTrue, ss.DirectionFromTrue)
+	}
+	con.logf("frames: %d read, %d skipped %v; masked fraction %.3f", s.Frames.Read, s.Frames.Skipped, s.Frames.SkippedReasons, s.Masked)
+	if len(s.Frames.MaskedCells) > 0 {
+		con.logf("cells masked on reading: %v", s.Frames.MaskedCells)
+	}
+	con.logf("crests: %d detections in %d tracks; %d rows with a speed", s.Crests.Detections, s.Crests.Tracks, s.Crests.RowsWithSpeed)
 	for _, ref := range []string{"peak", "local"} {
-		app.logf("c_cr/c_%s by steepness class:", ref)
-		app.logf("  %-14s %7s %7s %7s %7s %7s %7s", "S_c", "n", "mean", "median", "mode", "p05", "p95")
+		con.logf("c_cr/c_%s by steepness class:", ref)
+		con.logf("  %-14s %7s %7s %7s %7s %7s %7s", "S_c", "n", "mean", "median", "mode", "p05", "p95")
 		rs := s.Ratio[ref]
 		for _, c := range append(rs.Classes, rs.All) {
 			label := fmt.Sprintf("%.2f–%.2f", c.ScMin, c.ScMax)
@@ -210,22 +213,22 @@ func (app *App) printTrackSummary(s *report.Summary) {
 			if c.ScMin == 0 && math.IsInf(c.ScMax, 1) {
 				label = "all"
 			}
-			app.logf("  %-14s %7d %7.3f %7.3f %7.3f %7.3f %7.3f", label, c.N, c.Mean, c.Median, c.Mode, c.P05, c.P95)
+			con.logf("  %-14s %7d %7.3f %7.3f %7.3f %7.3f %7.3f", label, c.N, c.Mean, c.Median, c.Mode, c.P05, c.P95)
 		}
 	}
 }
 
-func (app *App) printBreaking(s *report.Summary) {
+func printBreaking(con *console, s *report.Summary) {
 	if w := s.Whitecaps; w != nil {
-		app.logf("whitecaps: %d tracked over %d frames (%d rows); mean coverage %.4f; passage rate R %.3g 1/s; dissipation %.3g W/m² (b = %.2g, an order-of-magnitude estimate)",
+		con.logf("whitecaps: %d tracked over %d frames (%d rows); mean coverage %.4f; passage rate R %.3g 1/s; dissipation %.3g W/m² (b = %.2g, an order-of-magnitude estimate)",
 			w.Whitecaps, w.FramesAnalysed, w.Rows, w.MeanCoverage, w.PassageRate, w.Dissipation, w.BreakingParameter)
 		a := w.Ratio["peak"].All
-		app.logf("whitecaps: front speed c_br/c_p: n %d, median %.3f, p05 %.3f, p95 %.3f; median whole-track c_br/c_p %.3f", a.N, a.Median, a.P05, a.P95, w.MedianTrackSpeedRatio)
+		con.logf("whitecaps: front speed c_br/c_p: n %d, median %.3f, p05 %.3f, p95 %.3f; median whole-track c_br/c_p %.3f", a.N, a.Median, a.P05, a.P95, w.MedianTrackSpeedRatio)
 	}
 	if in := s.Inception; in != nil {
-		app.logf("breaking inception: %d of %d crest tracks reached B_x ≥ %.3g", len(in.Flags), in.TracksWithBx, in.Threshold)
+		con.logf("breaking inception: %d of %d crest tracks reached B_x ≥ %.3g", len(in.Flags), in.TracksWithBx, in.Threshold)
 		if in.HaveFoam {
-			app.logf("breaking inception: flagged & foamed %d, flagged only %d, foamed only %d, neither %d",
+			con.logf("breaking inception: flagged & foamed %d, flagged only %d, foamed only %d, neither %d",
 				in.FlaggedFoamed, in.FlaggedNotFoamed, in.NotFlaggedFoamed, in.NotFlaggedNotFoamed)
 		}
 	}
@@ -237,5 +240,3 @@ func depthText(d float64) string {
 	}
 	return fmt.Sprintf("%.1f m", d)
 }
-
-var _ = os.Stat

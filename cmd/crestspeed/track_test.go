@@ -2,7 +2,9 @@ package main
 
 import (
 	"bytes"
+	"crestspeed/internal/pyref"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -87,5 +89,103 @@ func TestTrackBadInput(t *testing.T) {
 				t.Errorf("%v left crests.csv behind", args)
 			}
 		}
+	}
+}
+
+// A record spread over several files — here split by netCDF4-python into
+// three files of unequal length, the layout of hourly files or of the parts
+// of a partitioned reconstruction — tracks exactly as the single file does,
+// whether given as a glob or as an index of parts.
+func TestTrackMultiFileRecord(t *testing.T) {
+	dir := t.TempDir()
+	in := synthSmall(t, dir)
+	parts := filepath.Join(dir, "parts")
+	os.MkdirAll(parts, 0o755)
+	var res struct{ Files []string }
+	pyref.JSON(t, `
+import json, sys, netCDF4
+a = json.load(open(sys.argv[1]))
+src = netCDF4.Dataset(a["in"])
+n = len(src.dimensions["time"])
+cuts = [0, 97, 250, n]
+files = []
+for i in range(3):
+    p = "%s/maps_%02d.nc" % (a["dir"], i)
+    dst = netCDF4.Dataset(p, "w", format="NETCDF4")
+    dst.setncatts({k: src.getncattr(k) for k in src.ncattrs()})
+    for d, v in src.dimensions.items():
+        dst.createDimension(d, None if d == "time" else len(v))
+    for name, v in src.variables.items():
+        fill = v.getncattr("_FillValue") if "_FillValue" in v.ncattrs() else None
+        w = dst.createVariable(name, v.datatype, v.dimensions, fill_value=fill)
+        w.setncatts({k: v.getncattr(k) for k in v.ncattrs() if k != "_FillValue"})
+        if "time" in v.dimensions:
+            w[:] = v[cuts[i]:cuts[i+1]]
+        else:
+            w[:] = v[:]
+    dst.close()
+    files.append(p)
+print(json.dumps({"Files": files}))
+`, map[string]string{"in": in, "dir": parts}, &res)
+	index := filepath.Join(dir, "parts.txt")
+	os.WriteFile(index, []byte(strings.Join(res.Files, "\n")+"\n"), 0o644)
+	read := func(input, name string) []byte {
+		od := filepath.Join(dir, name)
+		if _, _, err := run(t, "track", "--input", input, "--out", od, "--quiet", "--no-report", "--workers", "2"); err != nil {
+			t.Fatal(err)
+		}
+		b, err := os.ReadFile(filepath.Join(od, "crests.csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return b
+	}
+	single := read(in, "single")
+	if glob := read(filepath.Join(parts, "maps_*.nc"), "glob"); !bytes.Equal(single, glob) {
+		t.Errorf("the glob of three files gives other crests than the single file (%d vs %d bytes)", len(glob), len(single))
+	}
+	if idx := read(index, "index"); !bytes.Equal(single, idx) {
+		t.Errorf("the index of three files gives other crests than the single file")
+	}
+}
+
+// With the grid's heading given, summary.json gives the mean direction as
+// true bearings too: toward = heading − θ0 and from = toward + 180°
+// (θ0 counter-clockwise from +x, bearings clockwise from north), and the
+// site block says where the heading came from.
+func TestTrackTrueBearings(t *testing.T) {
+	dir := t.TempDir()
+	in := synthSmall(t, dir)
+	out := filepath.Join(dir, "tracks")
+	if _, _, err := run(t, "track", "--input", in, "--out", out, "--heading", "200", "--quiet", "--no-report"); err != nil {
+		t.Fatal(err)
+	}
+	var sum struct {
+		SeaState struct {
+			Mean float64 `json:"mean_direction_deg"`
+			To   float64 `json:"direction_to_deg_true"`
+			From float64 `json:"direction_from_deg_true"`
+		} `json:"sea_state"`
+		Site struct {
+			Heading float64 `json:"grid_heading_deg"`
+			Source  string  `json:"georeference_source"`
+			Name    string  `json:"name"`
+		} `json:"site"`
+	}
+	b, _ := os.ReadFile(filepath.Join(out, "summary.json"))
+	if err := json.Unmarshal(b, &sum); err != nil {
+		t.Fatal(err)
+	}
+	ss := sum.SeaState
+	want := math.Mod(200-ss.Mean+720, 360)
+	if math.Abs(ss.To-want) > 1e-9 || math.Abs(ss.From-math.Mod(want+180, 360)) > 1e-9 {
+		t.Errorf("θ0 %.3f° with heading 200°: toward %.3f°, from %.3f°; want %.3f°, %.3f°", ss.Mean, ss.To, ss.From, want, math.Mod(want+180, 360))
+	}
+	// the synthetic sea travels toward 20° in the grid frame (samples default)
+	if math.Abs(ss.To-180) > 5 {
+		t.Errorf("toward %.1f° true, want about 180° for a sea along 20° on a grid heading 200°", ss.To)
+	}
+	if sum.Site.Heading != 200 || !strings.Contains(sum.Site.Source, "configuration") || sum.Site.Name == "" {
+		t.Errorf("site block %+v", sum.Site)
 	}
 }

@@ -338,7 +338,8 @@ func (h *handle) startCount(name string, v varInfo, start, count []int) (st, ct 
 // File is a NetCDF dataset open for reading. Create it with [Open] and release
 // it with [File.Close].
 type File struct {
-	h handle
+	h       handle
+	classic *ClassicHeader // nil unless classic format
 }
 
 // Open opens an existing NetCDF file (any format libnetcdf reads: classic,
@@ -357,6 +358,13 @@ func Open(path string) (*File, error) {
 	case fi.IsDir():
 		return nil, fmt.Errorf("netcdf: %s is a directory, not a NetCDF file; give the path of a .nc file", path)
 	}
+	// A classic-format header is checked in Go first: libnetcdf trusts its
+	// counts and can crash or loop on a damaged one, and it reads a file
+	// cut short after the header as if the rest were zeros.
+	classic, err := CheckClassic(path)
+	if err != nil {
+		return nil, err
+	}
 	cpath := C.CString(path)
 	defer C.free(unsafe.Pointer(cpath))
 	lock()
@@ -369,8 +377,12 @@ func Open(path string) (*File, error) {
 		return nil, fmt.Errorf("netcdf: %s is not a NetCDF file or is damaged (%s); check that it is NetCDF and was copied completely: %w",
 			path, strerror(int(st)), ErrNotNetCDF)
 	}
-	return &File{h: handle{path: path, name: path, ncid: id, open: true}}, nil
+	return &File{h: handle{path: path, name: path, ncid: id, open: true}, classic: classic}, nil
 }
+
+// Classic returns the checked header of a classic-format file, or nil for a
+// NetCDF-4 file.
+func (f *File) Classic() *ClassicHeader { return f.classic }
 
 // Path returns the path the file was opened with.
 func (f *File) Path() string { return f.h.path }
@@ -949,3 +961,126 @@ func randomSuffix() string {
 func tempPath(path string) string {
 	return filepath.Join(filepath.Dir(path), filepath.Base(path)+".part-"+randomSuffix())
 }
+
+// Storage describes how a variable is laid out on disk.
+type Storage struct {
+	// Chunks holds the chunk shape, one entry per dimension, when the
+	// variable is chunked (NetCDF-4); nil when it is stored contiguously
+	// (every classic-format variable, and NetCDF-4 contiguous or compact
+	// ones).
+	Chunks []int
+	// Deflate is the zlib level (0 when not compressed); Shuffle reports
+	// the shuffle filter.
+	Deflate int
+	Shuffle bool
+}
+
+// VarStorage returns the storage layout of a variable (nc_inq_var_chunking,
+// nc_inq_var_deflate). Classic-format files report contiguous storage.
+func (f *File) VarStorage(varName string) (Storage, error) {
+	lock()
+	defer unlock()
+	if varName == "" {
+		return Storage{}, fmt.Errorf("netcdf: %s: a variable name is needed", f.h.name)
+	}
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return Storage{}, err
+	}
+	var s Storage
+	if f.classic != nil || v.ndims == 0 {
+		return s, nil
+	}
+	var storage C.int
+	sizes := make([]C.size_t, v.ndims)
+	if st := C.nc_inq_var_chunking(f.h.ncid, v.id, &storage, &sizes[0]); st != C.NC_NOERR {
+		return Storage{}, f.h.err(st, varName, "inquire chunking")
+	}
+	if storage == C.NC_CHUNKED {
+		s.Chunks = make([]int, v.ndims)
+		for i, c := range sizes {
+			s.Chunks[i] = int(c)
+		}
+	}
+	var shuffle, deflate, level C.int
+	if st := C.nc_inq_var_deflate(f.h.ncid, v.id, &shuffle, &deflate, &level); st != C.NC_NOERR {
+		return Storage{}, f.h.err(st, varName, "inquire compression")
+	}
+	if deflate != 0 {
+		s.Deflate = int(level)
+	}
+	s.Shuffle = shuffle != 0
+	return s, nil
+}
+
+// SetChunkCache sets the size in bytes of the chunk cache of one variable
+// (nc_set_var_chunk_cache), with room for nslots chunks and the library's
+// default preemption. It has no effect on classic-format files.
+func (f *File) SetChunkCache(varName string, bytes, nslots int) error {
+	lock()
+	defer unlock()
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return err
+	}
+	if f.classic != nil || varName == "" {
+		return nil
+	}
+	if bytes < 0 || nslots < 0 {
+		return fmt.Errorf("netcdf: %s: variable %q: chunk cache of %d bytes and %d slots is invalid", f.h.name, varName, bytes, nslots)
+	}
+	if st := C.nc_set_var_chunk_cache(f.h.ncid, v.id, C.size_t(bytes), C.size_t(nslots), 0.75); st != C.NC_NOERR {
+		return f.h.err(st, varName, "set chunk cache")
+	}
+	return nil
+}
+
+// ReadFloat64Slab reads a hyperslab of a variable into dst converted to
+// float64 by the library (nc_get_vara_double); see [File.ReadFloat32Slab].
+// Every value of the 8-, 16- and 32-bit integer types is exact in float64.
+func (f *File) ReadFloat64Slab(varName string, start, count []int, dst []float64) error {
+	lock()
+	defer unlock()
+	v, err := f.h.varLocked(varName)
+	if err != nil {
+		return err
+	}
+	if varName == "" {
+		return fmt.Errorf("netcdf: %s: a variable name is needed", f.h.name)
+	}
+	if !v.typ.numeric() {
+		return fmt.Errorf("netcdf: %s: variable %q has type %s; expected a numeric variable", f.h.name, varName, v.typ)
+	}
+	sp, cp, n, err := f.h.startCount(varName, v, start, count)
+	if err != nil {
+		return err
+	}
+	if len(dst) < n {
+		return fmt.Errorf("netcdf: %s: variable %q: buffer holds %d values but the hyperslab has %d; pass a larger buffer", f.h.name, varName, len(dst), n)
+	}
+	if n == 0 {
+		return nil
+	}
+	if st := C.nc_get_vara_double(f.h.ncid, v.id, sp, cp, (*C.double)(unsafe.Pointer(&dst[0]))); st != C.NC_NOERR {
+		return f.h.err(st, varName, fmt.Sprintf("read start %v count %v", start, count))
+	}
+	return nil
+}
+
+// AttInfo returns the type and number of values of an attribute of a
+// variable ("" for a global attribute); ok is false when it is absent.
+func (f *File) AttInfo(varName, attName string) (typ Type, n int, ok bool, err error) {
+	lock()
+	defer unlock()
+	_, cname, typ, n, ok, err := f.h.attLocked(varName, attName)
+	if cname != nil {
+		C.free(unsafe.Pointer(cname))
+	}
+	return typ, n, ok, err
+}
+
+// Numeric reports whether t is a numeric atomic type.
+func (t Type) Numeric() bool { return t.numeric() }
+
+// Integer reports whether t is one of the integer types.
+func (t Type) Integer() bool { return t.numeric() && t != Float32 && t != Float64 }

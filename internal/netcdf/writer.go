@@ -10,6 +10,8 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"path/filepath"
+	"syscall"
 	"unsafe"
 )
 
@@ -249,8 +251,23 @@ func (w *Writer) EndDef() error {
 	if !w.h.open {
 		return w.h.closedErr("")
 	}
-	if st := C.nc_enddef(w.h.ncid); st != C.NC_NOERR {
-		return w.h.err(st, "", "end define mode")
+	if st, errno := C.nc_enddef(w.h.ncid); st != C.NC_NOERR {
+		return w.writeErr(st, errno, "", "end define mode")
+	}
+	return nil
+}
+
+// ReDef re-enters define mode after EndDef, so that attributes known only
+// once the data are written (a time coverage, say) can be added; end it
+// with EndDef again.
+func (w *Writer) ReDef() error {
+	lock()
+	defer unlock()
+	if !w.h.open {
+		return w.h.closedErr("")
+	}
+	if st, errno := C.nc_redef(w.h.ncid); st != C.NC_NOERR {
+		return w.writeErr(st, errno, "", "re-enter define mode")
 	}
 	return nil
 }
@@ -282,15 +299,15 @@ func (w *Writer) PutFloat64(varName string, data []float64) error {
 	if n == 0 {
 		return nil
 	}
-	if st := C.nc_put_var_double(w.h.ncid, v.id, (*C.double)(unsafe.Pointer(&data[0]))); st != C.NC_NOERR {
-		return w.h.err(st, varName, "write")
+	if st, errno := C.nc_put_var_double(w.h.ncid, v.id, (*C.double)(unsafe.Pointer(&data[0]))); st != C.NC_NOERR {
+		return w.writeErr(st, errno, varName, "write")
 	}
 	return nil
 }
 
 // putSlab checks the hyperslab and hands the C call the start, count and
 // element count. mu must be held.
-func (w *Writer) putSlab(varName string, start, count []int, have int, call func(v varInfo, sp, cp *C.size_t) C.int) error {
+func (w *Writer) putSlab(varName string, start, count []int, have int, call func(v varInfo, sp, cp *C.size_t) (C.int, error)) error {
 	if varName == "" {
 		return fmt.Errorf("netcdf: %s: a variable name is needed", w.final)
 	}
@@ -308,8 +325,8 @@ func (w *Writer) putSlab(varName string, start, count []int, have int, call func
 	if n == 0 {
 		return nil
 	}
-	if st := call(v, sp, cp); st != C.NC_NOERR {
-		return w.h.err(st, varName, fmt.Sprintf("write start %v count %v", start, count))
+	if st, errno := call(v, sp, cp); st != C.NC_NOERR {
+		return w.writeErr(st, errno, varName, fmt.Sprintf("write start %v count %v", start, count))
 	}
 	return nil
 }
@@ -319,8 +336,9 @@ func (w *Writer) putSlab(varName string, start, count []int, have int, call func
 func (w *Writer) PutFloat32Slab(varName string, start, count []int, data []float32) error {
 	lock()
 	defer unlock()
-	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) C.int {
-		return C.nc_put_vara_float(w.h.ncid, v.id, sp, cp, (*C.float)(unsafe.Pointer(&data[0])))
+	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) (C.int, error) {
+		st, errno := C.nc_put_vara_float(w.h.ncid, v.id, sp, cp, (*C.float)(unsafe.Pointer(&data[0])))
+		return st, errno
 	})
 }
 
@@ -328,8 +346,9 @@ func (w *Writer) PutFloat32Slab(varName string, start, count []int, data []float
 func (w *Writer) PutFloat64Slab(varName string, start, count []int, data []float64) error {
 	lock()
 	defer unlock()
-	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) C.int {
-		return C.nc_put_vara_double(w.h.ncid, v.id, sp, cp, (*C.double)(unsafe.Pointer(&data[0])))
+	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) (C.int, error) {
+		st, errno := C.nc_put_vara_double(w.h.ncid, v.id, sp, cp, (*C.double)(unsafe.Pointer(&data[0])))
+		return st, errno
 	})
 }
 
@@ -337,8 +356,9 @@ func (w *Writer) PutFloat64Slab(varName string, start, count []int, data []float
 func (w *Writer) PutUint8Slab(varName string, start, count []int, data []uint8) error {
 	lock()
 	defer unlock()
-	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) C.int {
-		return C.nc_put_vara_uchar(w.h.ncid, v.id, sp, cp, (*C.uchar)(unsafe.Pointer(&data[0])))
+	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) (C.int, error) {
+		st, errno := C.nc_put_vara_uchar(w.h.ncid, v.id, sp, cp, (*C.uchar)(unsafe.Pointer(&data[0])))
+		return st, errno
 	})
 }
 
@@ -346,8 +366,9 @@ func (w *Writer) PutUint8Slab(varName string, start, count []int, data []uint8) 
 func (w *Writer) PutInt32Slab(varName string, start, count []int, data []int32) error {
 	lock()
 	defer unlock()
-	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) C.int {
-		return C.nc_put_vara_int(w.h.ncid, v.id, sp, cp, (*C.int)(unsafe.Pointer(&data[0])))
+	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) (C.int, error) {
+		st, errno := C.nc_put_vara_int(w.h.ncid, v.id, sp, cp, (*C.int)(unsafe.Pointer(&data[0])))
+		return st, errno
 	})
 }
 
@@ -355,14 +376,18 @@ func (w *Writer) PutInt32Slab(varName string, start, count []int, data []int32) 
 func (w *Writer) PutInt64Slab(varName string, start, count []int, data []int64) error {
 	lock()
 	defer unlock()
-	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) C.int {
-		return C.nc_put_vara_longlong(w.h.ncid, v.id, sp, cp, (*C.longlong)(unsafe.Pointer(&data[0])))
+	return w.putSlab(varName, start, count, len(data), func(v varInfo, sp, cp *C.size_t) (C.int, error) {
+		st, errno := C.nc_put_vara_longlong(w.h.ncid, v.id, sp, cp, (*C.longlong)(unsafe.Pointer(&data[0])))
+		return st, errno
 	})
 }
 
-// Commit closes the dataset, flushes it to disk and renames it to its final
-// path. After a failed Commit the temporary file is removed. Commit after
-// Abort, or a second Commit, is an error.
+// Commit closes the dataset, flushes it to disk, gives it the permissions
+// of the tool's other outputs (0644), renames it to its final path and
+// flushes the directory, so that after a crash the final name holds either
+// the complete new file or what was there before. After a failed Commit
+// the temporary file is removed. Commit after Abort, or a second Commit, is
+// an error.
 func (w *Writer) Commit() error {
 	lock()
 	if w.committed || w.aborted {
@@ -372,27 +397,32 @@ func (w *Writer) Commit() error {
 	var closeErr error
 	if w.h.open {
 		w.h.open = false
-		if st := C.nc_close(w.h.ncid); st != C.NC_NOERR {
-			closeErr = w.h.err(st, "", "close")
+		if st, errno := C.nc_close(w.h.ncid); st != C.NC_NOERR {
+			closeErr = w.writeErr(st, errno, "", "close")
 		}
 	}
 	unlock()
-	if closeErr != nil {
+	fail := func(err error) error {
 		w.aborted = true
 		os.Remove(w.h.path)
-		return closeErr
+		return err
+	}
+	if closeErr != nil {
+		return fail(closeErr)
 	}
 	if err := syncFile(w.h.path); err != nil {
-		w.aborted = true
-		os.Remove(w.h.path)
-		return fmt.Errorf("netcdf: %s: flushing to disk: %w", w.final, err)
+		return fail(w.osErr("flushing to disk", err))
+	}
+	if err := os.Chmod(w.h.path, 0o644); err != nil {
+		return fail(fmt.Errorf("netcdf: %s: cannot set the permissions of the finished file: %w", w.final, err))
 	}
 	if err := os.Rename(w.h.path, w.final); err != nil {
-		w.aborted = true
-		os.Remove(w.h.path)
-		return fmt.Errorf("netcdf: %s: cannot move the finished file into place: %w", w.final, err)
+		return fail(fmt.Errorf("netcdf: %s: cannot move the finished file into place: %w", w.final, err))
 	}
 	w.committed = true
+	if err := syncDir(filepath.Dir(w.final)); err != nil {
+		return w.osErr("flushing the directory to disk", err)
+	}
 	return nil
 }
 
@@ -406,6 +436,81 @@ func syncFile(path string) error {
 		return err
 	}
 	return f.Close()
+}
+
+// syncDir flushes a directory, making a rename in it durable.
+func syncDir(dir string) error {
+	d, err := os.Open(dir)
+	if err != nil {
+		return err
+	}
+	err = d.Sync()
+	if cerr := d.Close(); err == nil {
+		err = cerr
+	}
+	if errors.Is(err, syscall.EINVAL) || errors.Is(err, syscall.ENOTSUP) {
+		return nil // file systems that cannot sync a directory
+	}
+	return err
+}
+
+// ErrDiskFull is wrapped by write errors caused by a full file system (or
+// an exhausted disk quota) under the output.
+var ErrDiskFull = errors.New("no space left on the disk")
+
+// lowSpace is the free space below which a failed write is put down to a
+// full disk even when the library did not keep the system's error code.
+const lowSpace = 1 << 20
+
+// writeErr reports a failed library call while writing. libnetcdf reports
+// most system failures under HDF5 as "NetCDF: HDF error"; the errno of the
+// call and the free space of the file system tell a full disk and an I/O
+// error apart, and the message then says so and names the file.
+func (w *Writer) writeErr(st C.int, errno error, varName, op string) error {
+	lib := &Error{Path: w.final, Var: varName, Op: op, Code: int(st)}
+	if st > 0 { // a system errno returned as the status
+		errno = syscall.Errno(st)
+	}
+	systemLevel := st > 0 || st == C.NC_EHDFERR || st == C.NC_EIO || st == C.NC_EFILEMETA
+	if !systemLevel {
+		return lib
+	}
+	if cause := w.diskCause(errno); cause != nil {
+		return fmt.Errorf("%w (library: %s)", cause, strerror(int(st)))
+	}
+	return lib
+}
+
+// osErr reports a failed system call on the output.
+func (w *Writer) osErr(op string, err error) error {
+	var errno syscall.Errno
+	errors.As(err, &errno)
+	if cause := w.diskCause(errno); cause != nil {
+		return cause
+	}
+	return fmt.Errorf("netcdf: %s: %s: %w", w.final, op, err)
+}
+
+// diskCause names the system-level cause of a failed write, or nil when
+// there is none to name.
+func (w *Writer) diskCause(errno error) error {
+	dir := filepath.Dir(w.final)
+	var free uint64
+	var st syscall.Statfs_t
+	haveFree := syscall.Statfs(dir, &st) == nil
+	if haveFree {
+		free = st.Bavail * uint64(st.Bsize)
+	}
+	switch {
+	case errors.Is(errno, syscall.ENOSPC) || errors.Is(errno, syscall.EDQUOT) || (haveFree && free < lowSpace):
+		return fmt.Errorf("netcdf: cannot write %s: the disk holding %s is full (%d KiB free); free space there or write the output to another disk, nothing was kept: %w",
+			w.final, dir, free>>10, ErrDiskFull)
+	case errors.Is(errno, syscall.EFBIG):
+		return fmt.Errorf("netcdf: cannot write %s: the file exceeds the largest size allowed here (file system or ulimit -f); write to another disk or raise the limit, nothing was kept", w.final)
+	case errors.Is(errno, syscall.EIO):
+		return fmt.Errorf("netcdf: cannot write %s: the disk reported an input/output error; check the disk, nothing was kept", w.final)
+	}
+	return nil
 }
 
 // Abort closes the dataset and removes the temporary file. It does nothing

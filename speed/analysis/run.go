@@ -1,0 +1,378 @@
+// Package analysis owns the analysis of one record of elevation maps: the
+// streaming passes over it, and how their results are put together.
+//
+// # Passes
+//
+//  1. Sea state: the frequency spectrum at probe points and the
+//     cross-spectra of successive frames (speed.SeaStateEstimator) give Hm0,
+//     Tp and the mean direction θ0; the per-cell temporal mean (the mean
+//     level removed before crest detection) and the masked fraction are
+//     accumulated on the way. The reference phase speeds follow from Tp,
+//     depth, current and vorticity.
+//  2. Crests: every frame's crests are detected on the workers
+//     (tracking.Detector), handed back in frame order (internal/workpool),
+//     linked into tracks (tracking.Linker) and, when the record has a foam
+//     mask, its whitecaps extracted and linked (speed.WhitecapAnalyser).
+//     Crest speeds, references and ratios are then computed per track
+//     (speed.TrackRows).
+//  3. Breaking index (optional): the record is streamed once more through
+//     the surface-velocity estimator (speed.SurfaceVelocity) and B_x is
+//     evaluated at every crest row its windows cover.
+//
+// Memory does not grow with the record beyond the crest rows themselves and
+// a few numbers per frame; the result is identical for any number of
+// workers.
+package analysis
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"time"
+
+	"crestspeed/ingest"
+	"crestspeed/internal/workpool"
+	"crestspeed/speed"
+	"crestspeed/tracking"
+)
+
+// minFrames is the fewest usable frames a record must have.
+const minFrames = 8
+
+// Run analyses the record src with the settings opt.
+func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	meta := src.Meta()
+	if len(meta.Times) == 0 {
+		return nil, fmt.Errorf("%s has no frames", src.Path())
+	}
+	rec := &Record{Meta: meta, FrameInterval: src.FrameInterval(), Timings: map[string]time.Duration{}, Gaps: src.Gaps()}
+	t0 := time.Now()
+	mean, err := rec.seaStatePass(ctx, src, opt)
+	if err != nil {
+		return nil, err
+	}
+	if err := rec.setReferences(opt); err != nil {
+		return nil, err
+	}
+	rec.Timings["sea state"] = time.Since(t0)
+
+	t0 = time.Now()
+	wa, err := rec.crestPass(ctx, src, mean, opt)
+	if err != nil {
+		return nil, err
+	}
+	rec.Skipped = src.Skipped()
+	if rr, ok := src.(readerReport); ok {
+		rec.MaskedCells = rr.MaskedCells()
+		rec.Warnings = append(rec.Warnings, rr.Warnings()...)
+	}
+	rec.Timings["crest detection and linking"] = time.Since(t0)
+
+	t0 = time.Now()
+	half := rec.SpeedWindowS / 2
+	for _, tr := range rec.Tracks {
+		rec.Rows = speed.TrackRows(tr, rec.Refs, half, rec.Rows)
+	}
+	for _, r := range rec.Rows {
+		if math.IsNaN(r.CrestSpeed) {
+			rec.RowsWithoutSpeed++
+		}
+	}
+	rec.Timings["crest speeds"] = time.Since(t0)
+	if opt.BreakingIndex {
+		t0 = time.Now()
+		if err := rec.breakingIndexPass(ctx, src, mean, opt); err != nil {
+			return nil, err
+		}
+		rec.Timings["breaking index"] = time.Since(t0)
+	}
+	if wa != nil {
+		t0 = time.Now()
+		rec.Whitecaps, err = wa.Finish(rec.Rows)
+		if err != nil {
+			return nil, fmt.Errorf("%s: whitecaps: %w", src.Path(), err)
+		}
+		rec.markFoam()
+		rec.Timings["whitecaps"] = time.Since(t0)
+	}
+	if opt.BreakingIndex {
+		rec.Inception = speed.InceptionOf(rec.Rows, rec.Whitecaps, opt.BxThreshold)
+	}
+	rec.checkRecord()
+	return rec, nil
+}
+
+// frameCounter maps frame times to frame numbers on the record's regular
+// time base (so dropped frames leave gaps in the numbering).
+type frameCounter struct{ t0, dt float64 }
+
+func (fc frameCounter) number(t float64) int { return int(math.Round((t - fc.t0) / fc.dt)) }
+
+func (rec *Record) frames() frameCounter {
+	return frameCounter{t0: rec.Meta.Times[0], dt: rec.FrameInterval}
+}
+
+// seaStatePass streams the record once for the sea state, the per-cell
+// temporal mean (returned) and the masked fraction.
+func (rec *Record) seaStatePass(ctx context.Context, src Source, opt Options) ([]float32, error) {
+	meta := rec.Meta
+	nx, ny := meta.Grid.Nx(), meta.Grid.Ny()
+	total := len(meta.Times)
+	est := speed.NewSeaStateEstimator(nx, ny, meta.Grid.Dx(), meta.Grid.Dy(), rec.FrameInterval, speed.SeaStateOptions{ExpectedFrames: total})
+	sum := make([]float64, nx*ny)
+	cnt := make([]int32, nx*ny)
+	var f ingest.Frame
+	var masked, cells int64
+	prev := -1
+	fc := rec.frames()
+	probe, err := newProbe(opt.Probe, meta, fc)
+	if err != nil {
+		return nil, err
+	}
+	src.Rewind()
+	for {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		err := src.Next(&f)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
+		n := fc.number(f.Time)
+		if prev >= 0 && n-prev > 1 {
+			// A record whose time axis jumps by more than its own length is
+			// two records (or a corrupt time axis), not a dropped frame.
+			if miss := float64(n - prev - 1); miss > float64(total) || miss < 0 {
+				return nil, fmt.Errorf("%s: the time axis jumps by %.6g s after %.6g s, longer than the rest of the record; split the record there or correct its times", src.Path(), f.Time-fc.t0-float64(prev)*fc.dt, fc.t0+float64(prev)*fc.dt)
+			}
+			est.AddGap(n - prev - 1)
+		}
+		prev = n
+		est.Add(f.Eta, f.Valid)
+		for i, v := range f.Eta {
+			if f.Valid[i] {
+				sum[i] += float64(v)
+				cnt[i]++
+			} else {
+				masked++
+			}
+		}
+		cells += int64(len(f.Eta))
+		if probe != nil {
+			probe.sample(n, f.Eta)
+		}
+		rec.FramesRead++
+		if opt.Progress != nil {
+			opt.Progress("sea state", f.Index+1, total)
+		}
+	}
+	if rec.FramesRead < minFrames {
+		return nil, fmt.Errorf("%s has only %d usable frames; the analysis needs at least %d", src.Path(), rec.FramesRead, minFrames)
+	}
+	ss, err := est.Result()
+	if err != nil {
+		return nil, fmt.Errorf("%s: sea state cannot be estimated: %w", src.Path(), err)
+	}
+	rec.SeaState = ss
+	rec.MaskedFraction = float64(masked) / float64(cells)
+	if probe != nil {
+		rec.Probe = probe.series
+	}
+	mean := make([]float32, nx*ny)
+	for i := range mean {
+		if cnt[i] > 0 {
+			mean[i] = float32(sum[i] / float64(cnt[i]))
+		}
+	}
+	return mean, nil
+}
+
+// setReferences settles θ0, depth and the reference phase speeds.
+func (rec *Record) setReferences(opt Options) error {
+	ss := rec.SeaState
+	ref := speed.References{DepthM: rec.Meta.DepthM, Current: opt.current(), Vorticity: opt.VorticityPerS}
+	rec.DepthFromFile = opt.DepthM == nil
+	if opt.DepthM != nil {
+		ref.DepthM = *opt.DepthM
+	}
+	ref.Theta = ss.MeanDirectionRad
+	if opt.DirectionDeg != nil {
+		ref.Theta = *opt.DirectionDeg * math.Pi / 180
+		rec.DirectionGiven = true
+	}
+	cp, err := speed.PhaseSpeedFromPeriod(ss.Tp, ref.DepthM, ref.Current, ref.Theta, ref.Vorticity)
+	if err != nil {
+		return fmt.Errorf("peak phase speed cannot be computed for Tp = %.3g s: %w", ss.Tp, err)
+	}
+	ref.PeakPhaseSpeed = cp
+	if err := rec.SeaState.SetPeakPhaseSpeed(ref.DepthM, ref.Current, ref.Theta, ref.Vorticity); err != nil {
+		return fmt.Errorf("peak phase speed interval cannot be computed: %w", err)
+	}
+	rec.Refs = ref
+	rec.SpeedWindowS = opt.SpeedWindowS
+	if rec.SpeedWindowS == 0 {
+		rec.SpeedWindowS = ss.Tp / 4
+	}
+	return nil
+}
+
+// geometry is the analysis grid with the record's direction of travel.
+func (rec *Record) geometry() tracking.Geometry {
+	g := rec.Meta.Grid
+	return tracking.Geometry{
+		Nx: g.Nx(), Ny: g.Ny(), X0: g.X[0], Y0: g.Y[0],
+		Dx: g.Dx(), Dy: g.Dy(), Theta: rec.Refs.Theta,
+	}
+}
+
+// detected is one frame's crests, with the frame they came from (its foam
+// mask is used, in frame order, by the whitecap analysis).
+type detected struct {
+	f      *ingest.Frame
+	frame  int
+	crests []tracking.Crest
+}
+
+// crestPass streams the record a second time: crest detection on the
+// workers, then, in frame order, linking and whitecap patches. It returns
+// the whitecap analyser (nil without a foam mask) to be finished once the
+// crest speeds are known.
+func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, opt Options) (*speed.WhitecapAnalyser, error) {
+	ss, ref := rec.SeaState, rec.Refs
+	g := rec.geometry()
+	det := tracking.NewDetector(g, tracking.DetectOptions{
+		MinElevation: opt.MinCrestFraction * ss.Hm0,
+		MinLength:    opt.MinCrestLengthM,
+	})
+	lambdaP := ref.PeakPhaseSpeed * ss.Tp
+	linker := tracking.NewLinker(tracking.LinkOptions{
+		MaxGapFrames: opt.MaxGapFrames,
+		// Along θ0 a crest moves about c·Δt between frames; the gate allows
+		// a tenth of a peak wavelength of error, far less than the spacing
+		// of successive crests. Across θ0 the new segment must overlap the
+		// old one (within two sampling steps): in 1/10 s a crest does not
+		// jump sideways, and a looser gate lets tracks hop between the short
+		// crests of a short-crested sea.
+		GateS: math.Max(0.1*lambdaP, 4*det.Step()),
+		GateN: 2 * det.Step(),
+		Speed: ref.Predict,
+	})
+	var wa *speed.WhitecapAnalyser
+	if opt.Whitecaps && rec.Meta.HasFoam {
+		bo := opt.Breaking
+		bo.SpeedWindowS = rec.SpeedWindowS
+		bo.MaxGapFrames = opt.MaxGapFrames
+		var err error
+		if wa, err = speed.NewWhitecapAnalyser(g, ref, bo); err != nil {
+			return nil, err
+		}
+	}
+	fc := rec.frames()
+	workers := max(opt.Workers, 1)
+	free := newFramePool(2 * workers)
+	scratch := make([]*tracking.Scratch, workers)
+	for i := range scratch {
+		scratch[i] = det.NewScratch()
+	}
+	total := len(rec.Meta.Times)
+	src.Rewind()
+	pool := workpool.Pool[*ingest.Frame, detected]{
+		Workers:  workers,
+		InFlight: 2 * workers,
+		Next:     func() (*ingest.Frame, error) { return free.next(ctx, src) },
+		Work: func(w int, f *ingest.Frame) (detected, error) {
+			n := fc.number(f.Time)
+			return detected{f: f, frame: n, crests: det.Detect(f.Eta, mean, n, f.Time, scratch[w])}, nil
+		},
+		Sink: func(f *ingest.Frame, d detected) error {
+			defer free.put(f)
+			rec.Detections += len(d.crests)
+			if wa != nil && f.Foam != nil {
+				if err := wa.Add(d.frame, f.Time, f.Foam, f.Valid, d.crests); err != nil {
+					return fmt.Errorf("%s: whitecaps: %w", src.Path(), err)
+				}
+			}
+			linker.Push(d.frame, f.Time, d.crests)
+			if opt.Progress != nil {
+				opt.Progress("crests", f.Index+1, total)
+			}
+			return nil
+		},
+		Release: func(f *ingest.Frame, _ detected) { free.put(f) },
+	}
+	if err := pool.Run(ctx); err != nil {
+		return nil, err
+	}
+	rec.Tracks, rec.Link = linker.Finish()
+	return wa, nil
+}
+
+// framePool recycles frame buffers between the reader and the workers.
+type framePool struct{ free chan *ingest.Frame }
+
+func newFramePool(n int) *framePool {
+	p := &framePool{free: make(chan *ingest.Frame, n)}
+	for i := 0; i < n; i++ {
+		p.free <- &ingest.Frame{}
+	}
+	return p
+}
+
+// next reads the next frame of src into a free buffer.
+func (p *framePool) next(ctx context.Context, src Source) (*ingest.Frame, error) {
+	var f *ingest.Frame
+	select {
+	case f = <-p.free:
+	case <-ctx.Done():
+		return nil, ctx.Err()
+	}
+	if err := src.Next(f); err != nil {
+		p.put(f)
+		return nil, err
+	}
+	return f, nil
+}
+
+func (p *framePool) put(f *ingest.Frame) { p.free <- f }
+
+// probe samples the maps at one point, frame by frame.
+type probe struct {
+	series []float32
+	nx, ny int
+	fx, fy float64
+}
+
+// newProbe prepares the probe at pt (nil for none); a point outside the
+// grid is refused.
+func newProbe(pt *ProbePoint, meta ingest.ElevationMeta, fc frameCounter) (*probe, error) {
+	if pt == nil {
+		return nil, nil
+	}
+	g := meta.Grid
+	fx, fy := (pt.X-g.X[0])/g.Dx(), (pt.Y-g.Y[0])/g.Dy()
+	if !(fx >= 0 && fy >= 0 && fx <= float64(g.Nx()-1) && fy <= float64(g.Ny()-1)) {
+		return nil, fmt.Errorf("%w: the gauge position (%g, %g) m is outside the grid (x %g–%g m, y %g–%g m)",
+			ErrSetting, pt.X, pt.Y, g.X[0], g.X[g.Nx()-1], g.Y[0], g.Y[g.Ny()-1])
+	}
+	n := fc.number(meta.Times[len(meta.Times)-1]) + 1
+	p := &probe{series: make([]float32, n), nx: g.Nx(), ny: g.Ny(), fx: fx, fy: fy}
+	for i := range p.series {
+		p.series[i] = float32(math.NaN())
+	}
+	return p, nil
+}
+
+// sample records frame number k.
+func (p *probe) sample(k int, eta []float32) {
+	if k >= 0 && k < len(p.series) {
+		p.series[k] = float32(bilinearAt(eta, p.nx, p.ny, p.fx, p.fy))
+	}
+}
