@@ -1,13 +1,16 @@
 package surface
 
 import (
+	"context"
 	"fmt"
 	"maps"
 	"os"
 	"slices"
 	"strings"
 
+	"crestspeed/calib"
 	"crestspeed/ingest"
+	"crestspeed/internal/cvshim"
 	"crestspeed/internal/netcdf"
 )
 
@@ -55,7 +58,16 @@ func (s *Setup) Attributes() map[string]string {
 	}
 	rangeNote := "configured"
 	if s.AutoDisparity {
-		rangeNote = fmt.Sprintf("from the sea plane ±%g m", s.Options.ElevationMarginM)
+		b := s.Options.Band
+		if b.Sigmas > 0 {
+			rangeNote = fmt.Sprintf("automatic: water within ±%.3f m of the sea plane = min(%g σ_η + %g m, %g m), σ_η = %.4f m measured on the sampled pairs",
+				s.BandHalfWidthM, b.Sigmas, b.MarginM, s.Options.ElevationMarginM, s.SeaSigmaM)
+		} else {
+			rangeNote = fmt.Sprintf("automatic: water within ±%g m of the sea plane", s.BandHalfWidthM)
+		}
+	}
+	if len(s.Strips) > 1 {
+		rangeNote += fmt.Sprintf("; in %d strips of rows, each searching the disparities its rows can have (%s)", len(s.Strips), describeStrips(s.Strips))
 	}
 	if s.Prewarped {
 		rangeNote += ", residual about the sea plane's disparity: the right image is sheared by the plane's disparity before matching"
@@ -63,12 +75,29 @@ func (s *Setup) Attributes() map[string]string {
 	a["stereo_matcher"] = fmt.Sprintf("OpenCV StereoSGBM mode %s, disparities %d to %d px (%s), block %d px, P1 %d, P2 %d, uniqueness %d %%, speckle window %d px range %d px, disp12MaxDiff %d px, prefilter cap %d; left-right check %s; rectification alpha %g",
 		modes[m.Mode], m.MinDisparity, m.MinDisparity+m.NumDisparities-1, rangeNote, m.BlockSize, m.P1, m.P2, m.UniquenessRatio,
 		m.SpeckleWindowSize, m.SpeckleRange, m.Disp12MaxDiff, m.PreFilterCap, lr, s.Options.RectifyAlpha)
+	a["sea_sigma_m"] = fmt.Sprintf("%.6g", s.SeaSigmaM)
+	if s.Geometry != nil {
+		a["settled_on"] = fmt.Sprintf("%d pairs sampled evenly over the record of %d pairs", len(s.Geometry.Samples), s.Geometry.RecordPairs)
+		a["record_pairs"] = fmt.Sprintf("pairs %d to %d of the record (indices from 0, last excluded)", s.First, s.Last)
+	}
 	a["gridding"] = fmt.Sprintf("mean elevation of the points in each cell with at least %d points, NaN otherwise; points farther than %g m from the mean plane dropped",
 		s.Options.MinPoints, s.Options.MaxAbsElevationM)
 	if s.Options.MaxRangeM > 0 {
 		a["gridding"] += fmt.Sprintf(" and points beyond %g m of horizontal range dropped", s.Options.MaxRangeM)
 	}
 	return a
+}
+
+// describeStrips lists strips as "rows a–b: d0…d1 px".
+func describeStrips(st []cvshim.Strip) string {
+	var b strings.Builder
+	for i, s := range st {
+		if i > 0 {
+			b.WriteString(", ")
+		}
+		fmt.Fprintf(&b, "rows %d–%d: %d…%d px", s.Row0, s.Row1-1, s.MinDisparity, s.MinDisparity+s.NumDisparities-1)
+	}
+	return b.String()
 }
 
 // Start creates both files.
@@ -200,9 +229,7 @@ func (fs *FileSink) Commit() error {
 	ew, cw := fs.ew, fs.cw
 	fs.ew, fs.cw = nil, nil
 	if cw != nil {
-		if fs.n == 0 {
-			cw.Abort()
-		} else if err := cw.Commit(); err != nil {
+		if err := cw.Commit(); err != nil {
 			ew.Abort()
 			return fmt.Errorf("surface: %v", err)
 		}
@@ -232,4 +259,20 @@ func (fs *FileSink) Abort() {
 func sortedKeys(c ingest.SkipCounts) []string {
 	keys := slices.Sorted(maps.Keys(c))
 	return slices.DeleteFunc(keys, func(k string) bool { return strings.TrimSpace(k) == "" })
+}
+
+// WritePart reconstructs the pairs [first, last) of a record with a settled
+// geometry (see [ReconstructRange]) into fs, and commits fs: its files
+// appear complete, or, after an error, not at all. A part without a usable
+// pair is written with no frames.
+func WritePart(ctx context.Context, rig *calib.Rig, open Opener, geom *Geometry, opt Options, first, last int, fs *FileSink) (*Result, error) {
+	res, err := ReconstructRange(ctx, rig, open, geom, opt, first, last, fs)
+	if err != nil {
+		fs.Abort()
+		return res, err
+	}
+	if err := fs.Commit(); err != nil {
+		return res, err
+	}
+	return res, nil
 }

@@ -457,24 +457,33 @@ func (w *Worker) Foam(det *FoamDetector, dst []uint8) ([]uint8, FoamStats, error
 	if st.FoamPixels == 0 {
 		return dst, st, nil
 	}
-	p, err := w.points()
+	disp, dc, dr, err := w.disparities()
 	if err != nil {
 		return dst, st, err
 	}
-	if len(p) != 3*cols*rows {
-		return dst, st, fmt.Errorf("surface: the 3-D points (%d values) do not match the rectified image (%d×%d px); reconstruct the pair first", len(p), cols, rows)
+	if dc != cols || dr != rows {
+		return dst, st, fmt.Errorf("surface: the disparity map (%d×%d px) does not match the rectified image (%d×%d px); reconstruct the pair first", dc, dr, cols, rows)
 	}
 	d.votes = resize(d.votes, 2*nx*ny)
 	votes := d.votes
 	clear(votes)
 	x0, y0, inv := r.gx0, r.gy0, 1/r.gd
-	zmax := float32(r.opt.MaxAbsElevationM)
+	zmax := float32(r.pointLimit())
 	cam := r.world.T
+	var rp rowProjector
 	for v := 0; v < rows; v++ {
+		rp.setRow(&r.qWorld, v)
 		for u := 0; u < cols; u++ {
 			i := v*cols + u
-			x, y, z := float64(p[3*i]), float64(p[3*i+1]), p[3*i+2]
-			if z != z || !(z <= zmax && z >= -zmax) {
+			var x, y float64
+			var z float32
+			ok := false
+			if e := disp[i]; e == e {
+				var xf, yf float32
+				xf, yf, z, ok = rp.at(u, e)
+				x, y = float64(xf), float64(yf)
+			}
+			if !ok || z != z || !(z <= zmax && z >= -zmax) {
 				// No usable disparity: the ray meets the sea plane z = 0.
 				dir := r.rectRay(float64(u), float64(v))
 				if !(dir[2] < 0) {

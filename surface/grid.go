@@ -187,3 +187,114 @@ func configuredGrid(g GridSpec, d float64) (ingest.Grid, error) {
 	}
 	return out, nil
 }
+
+// GridCandidate is one spacing the automatic grid weighed.
+type GridCandidate struct {
+	SpacingM float64 `yaml:"spacing_m"`
+	// SupportedCells is the number of cells of that spacing, over the
+	// whole view, holding MinPoints points in at least Coverage of the
+	// sampled pairs; SupportedAreaM2 their area.
+	SupportedCells  int     `yaml:"supported_cells"`
+	SupportedAreaM2 float64 `yaml:"supported_area_m2"`
+	// SpacingAsked is the spacing the pixel footprint at the far edge of
+	// the supported cells asks for (GSDFactor times it, rounded up).
+	SpacingAsked float64 `yaml:"spacing_asked_m"`
+	// Eligible: the candidate could be chosen (see the package
+	// documentation).
+	Eligible bool `yaml:"eligible"`
+}
+
+// GridChoice records how the automatic grid was chosen.
+type GridChoice struct {
+	Extent   string  `yaml:"extent"`
+	SpacingM float64 `yaml:"spacing_m"`
+	// ViewXM and ViewYM are the ranges of x and y, metres, of the mean
+	// plane both cameras see (within the range considered).
+	ViewXM [2]float64 `yaml:"view_x_m,flow"`
+	ViewYM [2]float64 `yaml:"view_y_m,flow"`
+	// SupportedXM and SupportedYM are the ranges of the centres of the
+	// grid's supported cells; SupportedCells their number and
+	// SupportedFraction their fraction of the grid.
+	SupportedXM       [2]float64 `yaml:"supported_x_m,flow"`
+	SupportedYM       [2]float64 `yaml:"supported_y_m,flow"`
+	SupportedCells    int        `yaml:"supported_cells"`
+	SupportedFraction float64    `yaml:"supported_fraction"`
+	// Pairs is the number of sampled pairs coverage was counted on.
+	Pairs      int             `yaml:"pairs"`
+	Candidates []GridCandidate `yaml:"candidates"`
+}
+
+// bothViews returns the x and y ranges of the points of the mean plane that
+// both rectified cameras see, within the range the automatic grid
+// considers, sampled every step pixels of the left image.
+func (r *Reconstructor) bothViews(step int) (xr, yr [2]float64) {
+	xr = [2]float64{math.Inf(1), math.Inf(-1)}
+	yr = xr
+	maxR := r.groundRange()
+	W, H := r.rig.Size.X, r.rig.Size.Y
+	for v := 0; v < H; v += step {
+		for u := 0; u < W; u += step {
+			x, y, ok := r.groundPoint(float64(u), float64(v), maxR)
+			if !ok {
+				continue
+			}
+			// The right camera's rectified column of the same point.
+			rx := float64(u) - r.pa*float64(u) - r.pb*float64(v) - r.pc
+			if rx < 0 || rx > float64(W-1) {
+				continue
+			}
+			xr = [2]float64{math.Min(xr[0], x), math.Max(xr[1], x)}
+			yr = [2]float64{math.Min(yr[0], y), math.Max(yr[1], y)}
+		}
+	}
+	return xr, yr
+}
+
+// largestComponent returns the mask of the largest 4-connected set of true
+// cells of a row-major ny×nx mask (the first found of equal sizes), and its
+// bounding box [i0, i1) × [j0, j1).
+func largestComponent(mask []bool, nx, ny int) (keep []bool, i0, i1, j0, j1 int) {
+	label := make([]int32, len(mask))
+	var stack []int
+	best, bestLabel := 0, int32(0)
+	next := int32(0)
+	for s := range mask {
+		if !mask[s] || label[s] != 0 {
+			continue
+		}
+		next++
+		label[s] = next
+		stack = append(stack[:0], s)
+		n := 0
+		for len(stack) > 0 {
+			c := stack[len(stack)-1]
+			stack = stack[:len(stack)-1]
+			n++
+			i, j := c%nx, c/nx
+			for _, nb := range [4][2]int{{i - 1, j}, {i + 1, j}, {i, j - 1}, {i, j + 1}} {
+				if nb[0] < 0 || nb[0] >= nx || nb[1] < 0 || nb[1] >= ny {
+					continue
+				}
+				k := nb[1]*nx + nb[0]
+				if mask[k] && label[k] == 0 {
+					label[k] = next
+					stack = append(stack, k)
+				}
+			}
+		}
+		if n > best {
+			best, bestLabel = n, next
+		}
+	}
+	keep = make([]bool, len(mask))
+	i0, j0, i1, j1 = nx, ny, 0, 0
+	for c, l := range label {
+		if l == bestLabel && best > 0 {
+			keep[c] = true
+			i, j := c%nx, c/nx
+			i0, i1 = min(i0, i), max(i1, i+1)
+			j0, j1 = min(j0, j), max(j1, j+1)
+		}
+	}
+	return keep, i0, i1, j0, j1
+}

@@ -9,9 +9,11 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"testing"
 
 	"crestspeed/calib"
+	"crestspeed/internal/cvshim"
 )
 
 // testRig is a 640×512 two-camera rig 2.5 m apart, slightly toed in and
@@ -282,5 +284,193 @@ func TestOptionsValidate(t *testing.T) {
 		if err := o.Validate(); err == nil {
 			t.Errorf("%s: accepted", name)
 		}
+	}
+}
+
+// TestSeaSigma: σ_η of points whose heights about a known plane are
+// normal with σ = 0.2 m (plus a stereo error growing with the square of
+// the range, as the depth-error law σ_Z ∝ Z² has it, and 10 % gross
+// mismatches spread over ±8 m) is recovered. Reference: the normal
+// distribution. Of the mismatches about 0.75 % fall within the 3σ clip
+// (uniform over ±0.6 m, variance 0.12 m²) and add about 1.3 % to the
+// estimate, the stereo error (mean square about 0.0006 m², in quadrature)
+// about 0.8 %, and the estimate's standard error over N = 90000 points,
+// σ/√(2N), is 0.2 %: bound 5 %.
+func TestSeaSigma(t *testing.T) {
+	truth := calib.PlaneFromPose(12, 30, 0.5)
+	w, err := truth.World()
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(7, 8))
+	const sigma = 0.2
+	var pts [][3]float32
+	for i := 0; i < 100000; i++ {
+		x, y := 10+50*rng.Float64(), -20+40*rng.Float64()
+		R := math.Hypot(x, y)
+		z := sigma*rng.NormFloat64() + 0.05*(R/60)*(R/60)*rng.NormFloat64()
+		if i%10 == 0 {
+			z = -8 + 16*rng.Float64()
+		}
+		X := w.ToCamera([3]float64{x, y, z})
+		pts = append(pts, [3]float32{float32(X[0]), float32(X[1]), float32(X[2])})
+	}
+	got, n := SeaSigma(pts, truth, 10)
+	t.Logf("σ_η %.4f m from %d points (truth %.2f m)", got, n, sigma)
+	// Used: the points less the mismatches outside the clip (about 9.2 %).
+	if math.Abs(got/sigma-1) > 0.05 || n < 89000 || n > 93000 {
+		t.Errorf("σ_η %.4f m from %d points; want %.2f m within 5 %% from about 90800", got, n, sigma)
+	}
+	if s, n := SeaSigma(pts[:50], truth, 10); s != 0 || n != 0 {
+		t.Errorf("50 points gave σ_η %g from %d", s, n)
+	}
+}
+
+// TestStripsCoverTheSeaBand checks the strip plan against the camera
+// model: points of the water ±h about the mean plane, projected into both
+// cameras (calib's Brown–Conrady projection) and rectified, have residual
+// disparities (their disparity minus the plane's, over 1 − a) inside the
+// used range of the strip that keeps their row, right of the columns it
+// leaves unmatched; the plan does less work
+// than one range over the whole image; and one strip with Band.Strips off.
+func TestStripsCoverTheSeaBand(t *testing.T) {
+	rig := testRig()
+	r, err := New(rig, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	const h = 0.9
+	if err := r.setBand(h, nil); err != nil {
+		t.Fatal(err)
+	}
+	st := r.Strips()
+	rc := r.Rectification()
+	w := r.World()
+	worst := math.Inf(1)
+	checked := 0
+	for x := 8.0; x <= 80; x += 0.5 {
+		for y := -40.0; y <= 40; y += 0.5 {
+			for _, z := range []float64{-h, 0, h} {
+				X := w.ToCamera([3]float64{x, y, z})
+				pl, okl := rc.RectifyLeft(rig.ProjectLeft(X))
+				pr, okr := rc.RectifyRight(rig.ProjectRight(X))
+				if !okl || !okr || pl[0] < 0 || pl[1] < 0 || pl[0] > float64(rig.Size.X-1) || pl[1] > float64(rig.Size.Y-1) || pr[0] < 0 || pr[0] > float64(rig.Size.X-1) {
+					continue
+				}
+				e := (pl[0] - pr[0] - r.PlaneDisparity(pl[0], pl[1])) / (1 - r.pa)
+				row := int(math.Round(pl[1]))
+				k := slices.IndexFunc(st, func(s cvshim.Strip) bool { return row >= s.Row0 && row < s.Row1 })
+				if k < 0 {
+					t.Fatalf("row %d (point %v) is in no strip %v", row, [3]float64{x, y, z}, st)
+				}
+				s := st[k]
+				// The matcher leaves the first max(0, min + num) columns of
+				// a strip without a disparity.
+				if first := s.Col0 + max(0, s.MinDisparity+s.NumDisparities); pl[0] < float64(first) {
+					t.Fatalf("point %v at column %.1f lies left of strip %v's first matched column %d", [3]float64{x, y, z}, pl[0], s, first)
+				}
+				lo, hi := float64(s.MinDisparity+1), float64(s.MinDisparity+s.NumDisparities-1)
+				worst = math.Min(worst, math.Min(e-lo, hi-e))
+				checked++
+			}
+		}
+	}
+	t.Logf("%d strips %v; %d points checked, closest to a range end %.2f px; work %.2f of one range", len(st), st, checked, worst, stripWork(st, rig.Size.X, rig.Size.Y))
+	if worst < 0.5 || checked < 1000 {
+		t.Errorf("a sea point lies %.2f px from its strip's range end (want ≥ 0.5 px for the matcher's noise)", worst)
+	}
+	if len(st) < 2 || stripWork(st, rig.Size.X, rig.Size.Y) >= 0.9 {
+		t.Errorf("the plan of %d strips does %.2f of the work of one range", len(st), stripWork(st, rig.Size.X, rig.Size.Y))
+	}
+	opt := DefaultOptions()
+	opt.Band.Strips = false
+	r1, err := New(rig, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r1.Close()
+	if err := r1.setBand(h, nil); err != nil {
+		t.Fatal(err)
+	}
+	one := r1.Strips()
+	minD, numD := unionRange(st)
+	if len(one) != 1 || one[0].Row0 != 0 || one[0].Row1 != rig.Size.Y || one[0].MinDisparity > minD || one[0].MinDisparity+one[0].NumDisparities < minD+numD {
+		t.Errorf("strips off: %v, want one strip over the image covering %d+%d", one, minD, numD)
+	}
+}
+
+// TestMedianTest: the normalised median test (Westerweel & Scarano 2005,
+// Exp. Fluids 39) on a tilted plane of elevations with noise flags the
+// spikes put in it and nothing else; and one cell against the formula
+// worked by hand.
+func TestMedianTest(t *testing.T) {
+	const nx, ny = 40, 30
+	rng := rand.New(rand.NewPCG(9, 10))
+	eta := make([]float32, nx*ny)
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			eta[j*nx+i] = float32(0.05*float64(i) - 0.03*float64(j) + 0.005*rng.NormFloat64())
+		}
+	}
+	spikes := map[int]bool{5*nx + 7: true, 20*nx + 30: true, 21*nx + 30: true, 0: true}
+	for c := range spikes {
+		eta[c] += 0.8
+	}
+	eta[10*nx+10] = float32(math.NaN())
+	flags := make([]bool, len(eta))
+	n := medianTest(eta, nx, ny, 2, 0.02, flags)
+	for c, f := range flags {
+		if f != spikes[c] {
+			t.Errorf("cell (%d, %d): flagged %v, spike %v", c%nx, c/nx, f, spikes[c])
+		}
+	}
+	if n != len(spikes) {
+		t.Errorf("%d cells flagged, %d spikes", n, len(spikes))
+	}
+	// By hand: neighbours 1..8 (median 4.5, deviations 3.5 2.5 1.5 0.5
+	// 0.5 1.5 2.5 3.5, median 2), centre 11: |11 − 4.5| / (2 + 0.25) =
+	// 2.89, above 2.5 but not 3.
+	h := []float32{1, 2, 3, 4, 11, 5, 6, 7, 8}
+	f := make([]bool, 9)
+	for _, c := range []struct {
+		ratio float64
+		want  bool
+	}{{2.5, true}, {3, false}} {
+		medianTest(h, 3, 3, c.ratio, 0.25, f)
+		if f[4] != c.want {
+			t.Errorf("ratio %g: centre flagged %v, want %v", c.ratio, f[4], c.want)
+		}
+	}
+}
+
+// TestLargestComponent against a flood fill by hand on a small mask.
+func TestLargestComponent(t *testing.T) {
+	const nx, ny = 6, 5
+	rows := []string{
+		"11.0..",
+		"1..0.1",
+		"1.00.1",
+		"..0..1",
+		"000.11",
+	}
+	mask := make([]bool, nx*ny)
+	for j, r := range rows {
+		for i, ch := range r {
+			mask[j*nx+i] = ch != '.'
+		}
+	}
+	keep, i0, i1, j0, j1 := largestComponent(mask, nx, ny)
+	// The largest 4-connected set is the eight cells marked 0 (the 1s form
+	// sets of 4 and 5).
+	for j, r := range rows {
+		for i, ch := range r {
+			if keep[j*nx+i] != (ch == '0') {
+				t.Errorf("cell (%d, %d) kept %v", i, j, keep[j*nx+i])
+			}
+		}
+	}
+	if i0 != 0 || i1 != 4 || j0 != 0 || j1 != 5 {
+		t.Errorf("bounding box [%d, %d) × [%d, %d), want [0, 4) × [0, 5)", i0, i1, j0, j1)
 	}
 }

@@ -30,8 +30,11 @@ type Reconstructor struct {
 	world     calib.WorldFrame
 	qCam      [16]float64 // (u, v, disparity px, 1) → left camera frame
 	qWorld    [16]float64 // (u, v, disparity px, 1) → world frame
-	minD      int         // disparity search range, pixels
-	numD      int
+	// The matcher's strips and disparity ranges (residual about the
+	// plane's disparity when prewarped); bandM the half-width of the band
+	// of water heights they cover when the range is automatic.
+	strips    []cvshim.Strip
+	bandM     float64
 	autoRange bool
 	// Prewarp: the right image is sheared by the plane's disparity
 	// d_p = pa·u + pb·v + pc (see shearRightMap).
@@ -69,11 +72,17 @@ func New(rig *calib.Rig, opt Options) (*Reconstructor, error) {
 	}
 	r := &Reconstructor{rig: *rig, maps: maps, opt: opt}
 	r.rig.SeaPlane = nil
+	whole := func(minD, numD int) []cvshim.Strip {
+		return []cvshim.Strip{{Row0: 0, Row1: rig.Size.Y, MinDisparity: minD, NumDisparities: numD}}
+	}
 	if m := opt.Matcher; m.NumDisparities > 0 {
-		r.minD, r.numD = m.MinDisparity, m.NumDisparities
+		r.strips = whole(m.MinDisparity, m.NumDisparities)
 	} else {
+		// Until a plane is known: the sea at least about 4·f/W baselines
+		// away.
 		r.autoRange = true
-		r.minD, r.numD = 0, roundUp16(float64(rig.Size.X)/4)
+		r.strips = whole(0, roundUp16(float64(rig.Size.X)/4))
+		r.bandM = opt.ElevationMarginM
 	}
 	if err := r.checkRange(); err != nil {
 		maps.Close()
@@ -120,10 +129,25 @@ func (r *Reconstructor) SeaPlane() (calib.Plane, bool) { return r.plane, r.haveP
 // World returns the world frame of the sea plane (valid once a plane is set).
 func (r *Reconstructor) World() calib.WorldFrame { return r.world }
 
-// DisparityRange returns the disparity search range in pixels: the
-// smallest disparity and the number searched (of the residual disparity
-// about the plane's when prewarped; see [Reconstructor.Prewarped]).
-func (r *Reconstructor) DisparityRange() (minD, numD int) { return r.minD, r.numD }
+// DisparityRange returns the disparity search range in pixels over all
+// strips: the smallest disparity and the number searched (of the residual
+// disparity about the plane's when prewarped; see
+// [Reconstructor.Prewarped]).
+func (r *Reconstructor) DisparityRange() (minD, numD int) { return unionRange(r.strips) }
+
+// Strips returns the matcher's strips: the rows and disparity range of
+// each (see [cvshim.Strip]).
+func (r *Reconstructor) Strips() []cvshim.Strip { return append([]cvshim.Strip(nil), r.strips...) }
+
+// BandHalfWidth returns the half-width, metres, of the band of water
+// heights about the mean plane that the automatic disparity range covers
+// (0 for a configured range).
+func (r *Reconstructor) BandHalfWidth() float64 {
+	if !r.autoRange {
+		return 0
+	}
+	return r.bandM
+}
 
 // Prewarped reports whether the right image is sheared by the sea plane's
 // disparity before matching.
@@ -141,7 +165,11 @@ func (r *Reconstructor) Options() Options { return r.opt }
 // on, shears the right image's rectification map by the plane's disparity
 // (see [Reconstructor.PlaneDisparity]) so that the matcher searches only
 // the residual disparity of the waves about the plane.
-func (r *Reconstructor) SetSeaPlane(p calib.Plane) error {
+func (r *Reconstructor) SetSeaPlane(p calib.Plane) error { return r.setPlane(p, true) }
+
+// setPlane sets the plane; with band, it also plans the automatic
+// disparity range for it.
+func (r *Reconstructor) setPlane(p calib.Plane, band bool) error {
 	w, err := p.World()
 	if err != nil {
 		return fmt.Errorf("surface: %v", err)
@@ -152,15 +180,10 @@ func (r *Reconstructor) SetSeaPlane(p calib.Plane) error {
 	r.plane, r.world, r.havePlane = p, w, true
 	r.prewarp = r.autoRange && r.opt.Prewarp
 	r.pa, r.pb, r.pc = r.planeDisparity()
-	if r.autoRange {
-		minD, numD, err := r.seaRange()
-		if err != nil {
+	if r.autoRange && band {
+		if err := r.setBand(r.bandM, nil); err != nil {
 			return err
 		}
-		r.minD, r.numD = minD, numD
-	}
-	if err := r.checkRange(); err != nil {
-		return err
 	}
 	if r.prewarp {
 		if err := r.shearRightMap(); err != nil {
@@ -283,10 +306,42 @@ func (r *Reconstructor) shearRightMap() error {
 }
 
 func (r *Reconstructor) checkRange() error {
-	if r.numD >= r.rig.Size.X {
-		return fmt.Errorf("surface: the disparity search range %d–%d px is as wide as the %d px image; set max_range_m or a narrower range", r.minD, r.minD+r.numD, r.rig.Size.X)
+	for _, st := range r.strips {
+		if st.NumDisparities >= r.rig.Size.X {
+			return fmt.Errorf("surface: the disparity search range %d–%d px (rows %d–%d) is as wide as the %d px image; set max_range_m or a narrower range", st.MinDisparity, st.MinDisparity+st.NumDisparities, st.Row0, st.Row1, r.rig.Size.X)
+		}
 	}
 	return nil
+}
+
+// setBand sets the automatic disparity range for water within ±halfM of
+// the mean plane, over the pixels whose ground points ground accepts (all
+// that see the sea when nil).
+func (r *Reconstructor) setBand(halfM float64, ground func(x, y float64) bool) error {
+	st, err := r.planStrips(halfM, ground)
+	if err != nil {
+		return err
+	}
+	r.strips, r.bandM = st, halfM
+	return r.checkRange()
+}
+
+// setStrips sets the matcher's strips as given (from a settled geometry).
+func (r *Reconstructor) setStrips(st []cvshim.Strip, halfM float64) error {
+	if len(st) == 0 {
+		return fmt.Errorf("surface: the settled geometry has no disparity strips; settle the record again")
+	}
+	prev := 0
+	for _, s := range st {
+		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Row1 > r.rig.Size.Y || s.NumDisparities < 16 || s.NumDisparities%16 != 0 ||
+			s.Col0 < 0 || s.Col0+s.NumDisparities+16 > r.rig.Size.X {
+			return fmt.Errorf("surface: the settled geometry's disparity strip rows %d–%d (from %d), range %d+%d px, does not fit the rig's %d×%d px images; settle the record again",
+				s.Row0, s.Row1, s.Top, s.MinDisparity, s.NumDisparities, r.rig.Size.X, r.rig.Size.Y)
+		}
+		prev = s.Row1
+	}
+	r.strips, r.bandM = append([]cvshim.Strip(nil), st...), halfM
+	return r.checkRange()
 }
 
 // roundUp16 rounds a positive width up to a multiple of 16 (at least 16).
@@ -309,58 +364,6 @@ func (r *Reconstructor) rectRay(u, v float64) [3]float64 {
 	return r.world.DirectionToWorld(cam)
 }
 
-// seaRange finds the disparities of the planes ±ElevationMarginM about the
-// mean plane over the rectified image (every 4th pixel), limited to
-// MaxRangeM when set; when prewarped, the residual disparities about the
-// plane's.
-func (r *Reconstructor) seaRange() (minD, numD int, err error) {
-	rc := r.maps.Rectification
-	f, B := rc.FocalPx(), rc.BaselineM()
-	H := r.world.T[2]
-	hi := math.Min(r.opt.ElevationMarginM, 0.9*H)
-	lo := -r.opt.ElevationMarginM
-	dLo, dHi := math.Inf(1), math.Inf(-1)
-	maxR := r.opt.MaxRangeM
-	for v := 0; v < r.rig.Size.Y; v += 4 {
-		for u := 0; u < r.rig.Size.X; u += 4 {
-			d := r.rectRay(float64(u), float64(v))
-			horiz := math.Hypot(d[0], d[1])
-			if !(d[2] < 0) {
-				// Above the horizon: no sea here.
-				continue
-			}
-			tHi := (hi - H) / d[2]
-			if maxR > 0 && tHi*horiz > maxR {
-				continue
-			}
-			tLo := (lo - H) / d[2]
-			if maxR > 0 && tLo*horiz > maxR {
-				tLo = maxR / horiz
-			}
-			eHi, eLo := f*B/tHi, f*B/tLo
-			if r.prewarp {
-				dp := r.PlaneDisparity(float64(u), float64(v))
-				eHi, eLo = (eHi-dp)/(1-r.pa), (eLo-dp)/(1-r.pa)
-			}
-			dHi = math.Max(dHi, eHi)
-			dLo = math.Min(dLo, eLo)
-		}
-	}
-	if math.IsInf(dHi, -1) {
-		return 0, 0, fmt.Errorf("surface: no pixel of the rectified left image sees the sea within %g m; check the sea plane and max_range_m", maxR)
-	}
-	if maxR == 0 && !r.prewarp {
-		// Rays close to the horizon reach disparities near zero.
-		dLo = math.Max(0, dLo)
-	}
-	minD = int(math.Floor(dLo)) - 1
-	if !r.prewarp {
-		minD = max(minD, 0)
-	}
-	numD = roundUp16(math.Ceil(dHi) + 1 - float64(minD))
-	return minD, numD, nil
-}
-
 // SetGrid sets the output grid: regular, increasing axes of at least two
 // cells with the same spacing along x and y.
 func (r *Reconstructor) SetGrid(g ingest.Grid) error {
@@ -381,6 +384,9 @@ func (r *Reconstructor) SetGrid(g ingest.Grid) error {
 }
 
 // StageTimes accumulates the wall time of each stage of a worker.
+// Reproject is the reprojection of the points of the plane fit (the
+// reprojection of the maps is done point by point while gridding, and
+// counted in Grid).
 type StageTimes struct {
 	Remap, Match, Reproject, Grid time.Duration
 	Foam                          time.Duration // foam detection and mapping
@@ -403,7 +409,8 @@ type FrameStats struct {
 	Consistent int // left pixels with a disparity after it
 	Dropped    int // points dropped: beyond MaxAbsElevationM from the plane or beyond MaxRangeM
 	Gridded    int // points binned into grid cells
-	Cells      int // cells with at least MinPoints points
+	Cells      int // cells with an elevation: at least MinPoints points, not an outlier
+	Outliers   int // cells with MinPoints points whose elevation failed the median test
 }
 
 // Map is the elevation map of one pair.
@@ -438,28 +445,21 @@ func (m *Map) Coverage() float64 {
 // owns a matcher and image buffers and is not safe for concurrent use:
 // make one per goroutine, and Close it.
 type Worker struct {
-	r    *Reconstructor
-	sgbm *cvshim.StereoSGBM
-	// Raw disparities (1/16 px) in [minValid, maxValid) are used: the
-	// search range without its two end pixels, where the matcher's cost
-	// minimum sits on the edge of the range (no sub-pixel fit; a match
-	// outside the range or in a region the other camera does not see).
-	minValid, maxValid int16
-	rectL              gocv.Mat
-	rectR              gocv.Mat
-	disp               gocv.Mat // raw matcher output, CV_16SC1, 1/16 px
-	dispF              gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
-	xyz                gocv.Mat
-	sum                []float64
-	foam               *FoamDetector // nil when foam detection is off
+	r     *Reconstructor
+	sm    *cvshim.StripMatcher
+	rectL gocv.Mat
+	rectR gocv.Mat
+	dispF gocv.Mat // disparity in pixels, CV_32FC1, NaN where none
+	sum   []float64
+	flags []bool
+	foam  *FoamDetector // nil when foam detection is off
 	// Times accumulates the wall time of the worker's stages.
 	Times StageTimes
 }
 
-// NewWorker makes a worker for the current disparity range.
+// NewWorker makes a worker for the current disparity strips.
 func (r *Reconstructor) NewWorker() (*Worker, error) {
-	p := r.opt.Matcher.params(r.minD, r.numD)
-	s, err := cvshim.NewStereoSGBM(p)
+	s, err := cvshim.NewStripMatcher(r.opt.Matcher.params(0, 16), r.strips, r.opt.Matcher.LRCheck)
 	if err != nil {
 		return nil, fmt.Errorf("surface: %v", err)
 	}
@@ -471,20 +471,18 @@ func (r *Reconstructor) NewWorker() (*Worker, error) {
 		}
 	}
 	return &Worker{
-		r: r, sgbm: s, foam: det,
-		minValid: int16((r.minD + 1) * cvshim.DisparityScale),
-		maxValid: int16((r.minD + r.numD - 1) * cvshim.DisparityScale),
-		rectL:    gocv.NewMat(), rectR: gocv.NewMat(), disp: gocv.NewMat(), dispF: gocv.NewMat(), xyz: gocv.NewMat(),
+		r: r, sm: s, foam: det,
+		rectL: gocv.NewMat(), rectR: gocv.NewMat(), dispF: gocv.NewMat(),
 	}, nil
 }
 
 // Close releases the worker's matcher and buffers.
 func (w *Worker) Close() error {
-	if w.sgbm != nil {
-		w.sgbm.Close()
-		w.sgbm = nil
+	if w.sm != nil {
+		w.sm.Close()
+		w.sm = nil
 	}
-	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.disp, &w.dispF, &w.xyz} {
+	for _, m := range []*gocv.Mat{&w.rectL, &w.rectR, &w.dispF} {
 		if m.Ptr() != nil {
 			m.Close()
 			*m = gocv.Mat{}
@@ -493,8 +491,12 @@ func (w *Worker) Close() error {
 	return nil
 }
 
-// SGBMParams returns the matcher parameters the worker uses.
-func (w *Worker) SGBMParams() cvshim.SGBMParams { return w.sgbm.Params() }
+// SGBMParams returns the matcher parameters the worker uses, with the
+// disparity range over all its strips.
+func (w *Worker) SGBMParams() cvshim.SGBMParams {
+	minD, numD := unionRange(w.r.strips)
+	return w.r.opt.Matcher.params(minD, numD)
+}
 
 // checkPair checks a source pair against the rig.
 func (w *Worker) checkPair(left, right gocv.Mat) error {
@@ -530,24 +532,16 @@ func (w *Worker) Rectify(left, right gocv.Mat) error {
 // Rectified returns the worker's last rectified pair (owned by the worker).
 func (w *Worker) Rectified() (left, right gocv.Mat) { return w.rectL, w.rectR }
 
-// Match computes the disparity of the last rectified pair, with the
-// left-right check when configured.
+// Match computes the disparity of the last rectified pair, strip by strip,
+// with the left-right check when configured (see
+// [cvshim.StripMatcher.Compute]).
 func (w *Worker) Match() (cvshim.CheckStats, error) {
 	t0 := time.Now()
-	var st cvshim.CheckStats
-	var err error
+	tol := 0.0
 	if m := w.r.opt.Matcher; m.LRCheck {
-		st, err = w.sgbm.ComputeChecked(w.rectL, w.rectR, &w.disp, m.LRMaxDiffPx)
-	} else {
-		err = w.sgbm.Compute(w.rectL, w.rectR, &w.disp)
-		if err == nil {
-			st.ValidBefore = w.countValid()
-			st.ValidAfter = st.ValidBefore
-		}
+		tol = m.LRMaxDiffPx
 	}
-	if err == nil {
-		err = cvshim.DisparityToFloat(w.disp, w.minValid, w.maxValid, &w.dispF)
-	}
+	st, err := w.sm.Compute(w.rectL, w.rectR, &w.dispF, tol)
 	w.Times.Match += time.Since(t0)
 	if err != nil {
 		return st, fmt.Errorf("surface: %v", err)
@@ -555,61 +549,53 @@ func (w *Worker) Match() (cvshim.CheckStats, error) {
 	return st, nil
 }
 
-// Disparity returns the worker's last raw disparity map (CV_16SC1,
-// 1/16 px; values below (MinDisparity+1)·16 or from
-// (MinDisparity+NumDisparities−1)·16 up are not used), owned by the worker.
-func (w *Worker) Disparity() gocv.Mat { return w.disp }
-
 // DisparityPx returns the worker's last disparity map in pixels (CV_32FC1,
-// NaN where there is none or where it is not used), owned by the worker.
-// When prewarped it is the residual disparity about the plane's.
+// NaN where there is none, where it is not used and in rows outside the
+// strips), owned by the worker. When prewarped it is the residual
+// disparity about the plane's.
 func (w *Worker) DisparityPx() gocv.Mat { return w.dispF }
 
-func (w *Worker) countValid() int {
-	d, err := w.disp.DataPtrInt16()
+// disparities returns the last disparity map as a Go slice over the Mat's
+// memory (no copy), with its size.
+func (w *Worker) disparities() (d []float32, cols, rows int, err error) {
+	d, err = w.dispF.DataPtrFloat32()
 	if err != nil {
-		return 0
+		return nil, 0, 0, fmt.Errorf("surface: the disparity map is not readable: %v", err)
 	}
-	n := 0
-	for _, v := range d {
-		if v >= w.minValid && v < w.maxValid {
-			n++
-		}
+	cols, rows = w.dispF.Cols(), w.dispF.Rows()
+	if len(d) != cols*rows {
+		return nil, 0, 0, fmt.Errorf("surface: the disparity map has %d values for %d×%d px", len(d), cols, rows)
 	}
-	return n
+	return d, cols, rows, nil
 }
 
-// reproject turns the last disparity map into 3-D points, in the world
-// frame or in the left camera's frame.
-func (w *Worker) reproject(world bool) error {
-	t0 := time.Now()
-	q := w.r.qCam
-	if world {
-		if !w.r.havePlane {
-			return fmt.Errorf("surface: no sea plane is set, so points cannot be put in the world frame")
-		}
-		q = w.r.qWorld
-	}
-	err := cvshim.ReprojectImageTo3D(w.dispF, q, &w.xyz)
-	w.Times.Reproject += time.Since(t0)
-	if err != nil {
-		return fmt.Errorf("surface: %v", err)
-	}
-	return nil
+// rowProjector reprojects the pixels of one row: q·(u, v, d, 1),
+// dehomogenised, as cv::reprojectImageTo3D does, with the terms that do
+// not change along the row computed once.
+type rowProjector struct {
+	q *[16]float64
+	c [4]float64 // q[i][1]·v + q[i][3]
 }
 
-// points returns the 3-D points of the last pair as a Go slice over the
-// Mat's memory (no copy): x, y, z per pixel, NaN where there is no
-// disparity.
-func (w *Worker) points() ([]float32, error) {
-	p, err := w.xyz.DataPtrFloat32()
-	if err != nil {
-		return nil, fmt.Errorf("surface: 3-D points are not readable: %v", err)
+func (p *rowProjector) setRow(q *[16]float64, v int) {
+	p.q = q
+	for i := 0; i < 4; i++ {
+		p.c[i] = q[4*i+1]*float64(v) + q[4*i+3]
 	}
-	if len(p) != 3*w.xyz.Rows()*w.xyz.Cols() {
-		return nil, fmt.Errorf("surface: 3-D image has %d values for %d pixels", len(p), w.xyz.Rows()*w.xyz.Cols())
+}
+
+// at returns the point of pixel u of the row at disparity d; ok is false
+// when it is at infinity.
+func (p *rowProjector) at(u int, d float32) (x, y, z float32, ok bool) {
+	q := p.q
+	fu, fd := float64(u), float64(d)
+	W := q[12]*fu + q[14]*fd + p.c[3]
+	if W == 0 {
+		return 0, 0, 0, false
 	}
-	return p, nil
+	inv := 1 / W
+	return float32((q[0]*fu + q[2]*fd + p.c[0]) * inv), float32((q[4]*fu + q[6]*fd + p.c[1]) * inv),
+		float32((q[8]*fu + q[10]*fd + p.c[2]) * inv), true
 }
 
 // CameraPoints reconstructs a pair and appends to dst the points, in the
@@ -625,21 +611,24 @@ func (w *Worker) CameraPoints(left, right gocv.Mat, stride int, dst [][3]float32
 	if _, err := w.Match(); err != nil {
 		return dst, err
 	}
-	if err := w.reproject(false); err != nil {
-		return dst, err
-	}
-	p, err := w.points()
+	t0 := time.Now()
+	defer func() { w.Times.Reproject += time.Since(t0) }()
+	disp, cols, rows, err := w.disparities()
 	if err != nil {
 		return dst, err
 	}
-	cols := w.xyz.Cols()
 	maxR2 := w.r.opt.MaxRangeM * w.r.opt.MaxRangeM
-	for y := stride / 2; y < w.xyz.Rows(); y += stride {
-		row := y * cols
-		for x := stride / 2; x < cols; x += stride {
-			i := row + x
-			X, Y, Z := p[3*i], p[3*i+1], p[3*i+2]
-			if !(Z > 0) || math.IsInf(float64(Z), 0) || math.IsNaN(float64(X+Y)) {
+	var rp rowProjector
+	for v := stride / 2; v < rows; v += stride {
+		rp.setRow(&w.r.qCam, v)
+		row := disp[v*cols : (v+1)*cols]
+		for u := stride / 2; u < cols; u += stride {
+			d := row[u]
+			if d != d {
+				continue
+			}
+			X, Y, Z, ok := rp.at(u, d)
+			if !ok || !(Z > 0) || math.IsInf(float64(Z), 0) || math.IsNaN(float64(X+Y)) {
 				continue
 			}
 			if maxR2 > 0 && float64(X*X+Y*Y+Z*Z) > maxR2 {
@@ -651,36 +640,43 @@ func (w *Worker) CameraPoints(left, right gocv.Mat, stride int, dst [][3]float32
 	return dst, nil
 }
 
-// worldPoints runs a pair to world points (the worker's xyz buffer).
+// worldPoints rectifies and matches a pair, for forEachPoint.
 func (w *Worker) worldPoints(left, right gocv.Mat) error {
+	if !w.r.havePlane {
+		return fmt.Errorf("surface: no sea plane is set, so points cannot be put in the world frame")
+	}
 	if err := w.Rectify(left, right); err != nil {
 		return err
 	}
-	if _, err := w.Match(); err != nil {
-		return err
-	}
-	return w.reproject(true)
+	_, err := w.Match()
+	return err
 }
 
-// forEachPoint calls fn with the world point of every valid pixel within
-// the elevation and range limits; it returns the number dropped by them.
+// forEachPoint calls fn, pixel by pixel in row order, with the world point
+// of every pixel of the last disparity map that has one within the
+// elevation and range limits; it returns the number dropped by them.
 func (w *Worker) forEachPoint(fn func(x, y, z float32)) (dropped int, err error) {
-	p, err := w.points()
+	disp, cols, rows, err := w.disparities()
 	if err != nil {
 		return 0, err
 	}
-	zmax := float32(w.r.opt.MaxAbsElevationM)
+	zmax := float32(w.r.pointLimit())
 	maxR2 := float32(w.r.opt.MaxRangeM * w.r.opt.MaxRangeM)
-	for i := 0; i+2 < len(p); i += 3 {
-		x, y, z := p[i], p[i+1], p[i+2]
-		if z != z {
-			continue // no disparity
+	var rp rowProjector
+	for v := 0; v < rows; v++ {
+		rp.setRow(&w.r.qWorld, v)
+		row := disp[v*cols : (v+1)*cols]
+		for u, d := range row {
+			if d != d {
+				continue // no disparity
+			}
+			x, y, z, ok := rp.at(u, d)
+			if !ok || !(z <= zmax && z >= -zmax) || (maxR2 > 0 && !(x*x+y*y <= maxR2)) {
+				dropped++
+				continue
+			}
+			fn(x, y, z)
 		}
-		if !(z <= zmax && z >= -zmax) || (maxR2 > 0 && !(x*x+y*y <= maxR2)) {
-			dropped++
-			continue
-		}
-		fn(x, y, z)
 	}
 	return dropped, nil
 }
@@ -698,9 +694,6 @@ func (w *Worker) Reconstruct(left, right gocv.Mat, m *Map) error {
 	}
 	st, err := w.Match()
 	if err != nil {
-		return err
-	}
-	if err := w.reproject(true); err != nil {
 		return err
 	}
 	t0 := time.Now()
@@ -765,7 +758,100 @@ func (w *Worker) bin(m *Map) error {
 		}
 	}
 	m.Stats.Dropped, m.Stats.Gridded, m.Stats.Cells = dropped, gridded, cells
+	m.Stats.Outliers = 0
+	if r.opt.OutlierRatio > 0 {
+		w.flags = resize(w.flags, n)
+		k := medianTest(m.Eta, nx, ny, r.opt.OutlierRatio, r.opt.OutlierNoiseM, w.flags)
+		for c, f := range w.flags {
+			if f {
+				m.Eta[c], m.Points[c] = nan, 0
+			}
+		}
+		m.Stats.Outliers = k
+		m.Stats.Cells -= k
+	}
 	return nil
+}
+
+// pointLimit is the distance from the mean plane beyond which a point is
+// a mismatch: MaxAbsElevationM, or the half-width of the automatic band
+// when smaller (the matcher finds water only within it, so points beyond
+// it are matches pressed against the end of its range).
+func (r *Reconstructor) pointLimit() float64 {
+	if r.autoRange && r.havePlane && r.bandM > 0 {
+		return math.Min(r.opt.MaxAbsElevationM, r.bandM)
+	}
+	return r.opt.MaxAbsElevationM
+}
+
+// medianTest flags (in flags, row-major ny×nx) the cells of eta whose
+// elevation departs from those of their neighbours by more than ratio
+// times the neighbours' own spread, and returns their number. Cells with
+// fewer than 3 neighbours with an elevation are not tested.
+//
+// Method: the normalised median test (Westerweel & Scarano 2005,
+// "Universal outlier detection for PIV data", Exp. Fluids 39): for a cell
+// of value u₀ with neighbours u_i (its 8-neighbourhood), u_m the median of
+// the u_i and r_m the median of |u_i − u_m|, the cell is an outlier when
+// |u₀ − u_m| / (r_m + ε) > ratio, ε the measurement noise (noiseM).
+func medianTest(eta []float32, nx, ny int, ratio, noiseM float64, flags []bool) int {
+	var nb, dev [8]float32
+	k := 0
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			c := j*nx + i
+			flags[c] = false
+			u0 := eta[c]
+			if u0 != u0 {
+				continue
+			}
+			n := 0
+			for dj := -1; dj <= 1; dj++ {
+				jj := j + dj
+				if jj < 0 || jj >= ny {
+					continue
+				}
+				for di := -1; di <= 1; di++ {
+					ii := i + di
+					if (di == 0 && dj == 0) || ii < 0 || ii >= nx {
+						continue
+					}
+					if v := eta[jj*nx+ii]; v == v {
+						nb[n] = v
+						n++
+					}
+				}
+			}
+			if n < 3 {
+				continue
+			}
+			um := median8(nb[:n])
+			for q := 0; q < n; q++ {
+				dev[q] = float32(math.Abs(float64(nb[q] - um)))
+			}
+			rm := median8(dev[:n])
+			if math.Abs(float64(u0-um)) > ratio*(float64(rm)+noiseM) {
+				flags[c] = true
+				k++
+			}
+		}
+	}
+	return k
+}
+
+// median8 returns the median of up to 8 values, reordering them
+// (insertion sort).
+func median8(a []float32) float32 {
+	for i := 1; i < len(a); i++ {
+		for j := i; j > 0 && a[j] < a[j-1]; j-- {
+			a[j], a[j-1] = a[j-1], a[j]
+		}
+	}
+	n := len(a)
+	if n%2 == 1 {
+		return a[n/2]
+	}
+	return (a[n/2-1] + a[n/2]) / 2
 }
 
 func resize[T any](s []T, n int) []T {

@@ -7,7 +7,7 @@ import (
 	"image"
 	"io"
 	"math"
-	"runtime"
+	"sort"
 	"sync"
 	"time"
 
@@ -18,22 +18,26 @@ import (
 	"crestspeed/internal/cvshim"
 )
 
-// Opener opens the stereo record from its start. [Run] opens it up to three
-// times: for the sea-plane pass, the grid pass and the reconstruction.
+// Opener opens the stereo record from its start. [Settle] opens it once to
+// sample it (and again per pass when the source is an [IndexSeeker]);
+// [ReconstructRange] once.
 type Opener func() (ingest.StereoSource, error)
 
-// Reasons for frames skipped by [Run], beside those of the source.
+// Reasons for pairs skipped by the surface stage, beside those of the
+// source.
 const (
-	// SkipRigSize: a pair whose size differs from the rig's (after the
-	// first pair, which must match).
+	// SkipRigSize: a pair whose size differs from the rig's.
 	SkipRigSize = "image size differs from the rig"
-	// SkipLowCoverage: a pair whose map has fewer supported cells than
-	// MinFrameCoverage of the grid.
+	// SkipLowCoverage: a pair whose map has fewer cells with an elevation
+	// than MinFrameCoverage of the grid's supported cells.
 	SkipLowCoverage = "too few grid cells with elevations"
+	// SkipBySource: a pair the source did not deliver, for the reason
+	// given when it can be told apart (see [Result.SkippedPairs]).
+	SkipBySource = "not delivered by the source"
 )
 
-// Setup is what [Run] settled on before the first map: the [Sink] gets it
-// in Start, to describe the output.
+// Setup is what a reconstruction works with: the [Sink] gets it in Start,
+// to describe the output.
 type Setup struct {
 	// Rig is the rig with the sea plane used.
 	Rig *calib.Rig
@@ -41,13 +45,20 @@ type Setup struct {
 	// from the rig; PlanePairs the number of pairs fitted.
 	PlaneFit   *PlaneFit
 	PlanePairs int
+	// SeaSigmaM is the sea state measured by the settle step.
+	SeaSigmaM float64
 	// Grid and how it was chosen; GridNote says so in a sentence.
-	Grid     ingest.Grid
-	GridAuto bool
-	GridNote string
-	// SGBM are the matcher parameters of the reconstruction pass.
-	SGBM          cvshim.SGBMParams
-	AutoDisparity bool
+	Grid       ingest.Grid
+	GridAuto   bool
+	GridNote   string
+	GridChoice *GridChoice
+	// SGBM are the matcher parameters, with the disparity range over all
+	// strips; Strips the rows and range of each; BandHalfWidthM the band
+	// of water heights the automatic range covers.
+	SGBM           cvshim.SGBMParams
+	Strips         []cvshim.Strip
+	BandHalfWidthM float64
+	AutoDisparity  bool
 	// Prewarped: the right image is sheared by the sea plane's disparity
 	// and SGBM's range is the residual disparity about it.
 	Prewarped bool
@@ -56,22 +67,28 @@ type Setup struct {
 	// Workers and OpenCV threads per OpenCV call.
 	Workers, OpenCVThreads int
 	Options                Options
+	// Geometry is the settled geometry; First and Last the pairs [First,
+	// Last) reconstructed.
+	Geometry    *Geometry
+	First, Last int
 }
 
-// Sink receives the output of [Run]: Start once, before the first map,
-// then every map in time order. Write must not keep m beyond the call.
+// Sink receives the output of a reconstruction: Start once, before the
+// first map, then every map in time order. Write must not keep m beyond
+// the call.
 type Sink interface {
 	Start(s *Setup) error
 	Write(m *Map) error
 }
 
-// Result summarises a run.
+// Result summarises a reconstruction.
 type Result struct {
 	Setup *Setup
-	// Frames is the number of maps written; Skipped the frames left out
-	// by the source or by Run, by reason.
-	Frames  int
-	Skipped ingest.SkipCounts
+	// Frames is the number of maps written; Skipped the pairs left out,
+	// by reason; SkippedPairs names them, in index order.
+	Frames       int
+	Skipped      ingest.SkipCounts
+	SkippedPairs []SkippedPair
 	// FoamSkipped counts the written maps whose left image was not
 	// analysed for foam, by reason ("saturated image", "black image");
 	// their foam mask is all zeros.
@@ -85,94 +102,236 @@ type Result struct {
 	CoverageMean, CoverageMin float64
 }
 
-// Run reconstructs a stereo record into elevation maps: it checks the first
-// pair against the rig, fits the mean sea plane when the rig has none (or
-// a refit is asked for), chooses the grid when none is configured, then
-// reconstructs every pair on opt.Workers goroutines and hands the maps to
-// sink in time order. The output does not depend on the worker count.
+// Run reconstructs a whole stereo record into elevation maps: [Settle],
+// then [ReconstructRange] over every pair, with the record-level skips of
+// the source (pairs without a partner, ...) added to the result. The
+// output does not depend on the worker count.
 func Run(ctx context.Context, rig *calib.Rig, open Opener, opt Options, sink Sink) (*Result, error) {
 	if open == nil || sink == nil {
 		return nil, fmt.Errorf("surface: Run needs a source opener and a sink")
+	}
+	geom, err := Settle(ctx, rig, open, opt)
+	if err != nil {
+		return nil, err
+	}
+	res, err := ReconstructRange(ctx, rig, open, geom, opt, 0, geom.RecordPairs, sink)
+	if res != nil {
+		for k, v := range geom.SourceSkipped {
+			res.Skipped[k] += v
+		}
+		for k, v := range geom.Pass {
+			res.Pass[k] = v
+		}
+	}
+	if err != nil {
+		return res, err
+	}
+	if res.Frames == 0 {
+		return res, fmt.Errorf("surface: no elevation map could be made from the %d pairs (%s); check the images, the rig and min_frame_coverage", geom.RecordPairs, describeSkips(res.Skipped))
+	}
+	return res, nil
+}
+
+// ReconstructRange reconstructs the pairs of index first ≤ i < last of a
+// record with a settled geometry (from [Settle] or [LoadGeometry]) and
+// hands the maps to sink in time order. Each map depends only on its pair
+// and the geometry, so the maps of consecutive ranges are, bit for bit,
+// those of one run over their union, for any worker count. The source must
+// be the record the geometry was settled on (the same number of pairs).
+// Pairs in the range that cannot be used are skipped, counted and named
+// in the result; a range with no usable pair is not an error (its Result
+// has Frames 0).
+func ReconstructRange(ctx context.Context, rig *calib.Rig, open Opener, geom *Geometry, opt Options, first, last int, sink Sink) (*Result, error) {
+	if open == nil || sink == nil || geom == nil {
+		return nil, fmt.Errorf("surface: ReconstructRange needs a source opener, a settled geometry and a sink")
 	}
 	rec, err := New(rig, opt)
 	if err != nil {
 		return nil, err
 	}
 	defer rec.Close()
-	workers := max(opt.Workers, 1)
-	threads := max(1, runtime.NumCPU()/workers)
-	if prev, err := cvshim.NumThreads(); err == nil {
-		defer cvshim.SetNumThreads(max(prev, 1))
-	}
-	if err := cvshim.SetNumThreads(threads); err != nil {
-		return nil, fmt.Errorf("surface: %v", err)
-	}
-	res := &Result{Skipped: ingest.SkipCounts{}, FoamSkipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
-	if err := probe(rec, open); err != nil {
+	if err := rec.applyGeometry(geom); err != nil {
 		return nil, err
 	}
-	setup := &Setup{Rectification: rec.Rectification(), Workers: workers, OpenCVThreads: threads, Options: opt}
-
-	// Sea plane.
-	if !rec.havePlane {
-		t0 := time.Now()
-		fit, err := rec.planePass(ctx, open, workers)
-		if err != nil {
-			return nil, err
-		}
-		if err := rec.SetSeaPlane(fit.Plane); err != nil {
-			return nil, fmt.Errorf("%v (the fitted plane is probably not the sea; check the images)", err)
-		}
-		setup.PlaneFit, setup.PlanePairs = &fit, fit.Pairs
-		res.Pass["plane"] = time.Since(t0)
-	}
-	rigOut := rec.rig
-	p := rec.plane
-	rigOut.SeaPlane = &p
-	setup.Rig = &rigOut
-
-	// Grid.
-	t0 := time.Now()
-	g, auto, note, err := rec.chooseGrid(ctx, open, workers)
+	workers := max(opt.Workers, 1)
+	threads, restore, err := threadsFor(workers)
+	defer restore()
 	if err != nil {
 		return nil, err
 	}
-	if err := rec.SetGrid(g); err != nil {
-		return nil, err
-	}
-	if auto {
-		res.Pass["grid"] = time.Since(t0)
-	}
-	setup.Grid, setup.GridAuto, setup.GridNote = rec.grid, auto, note
-	setup.SGBM = rec.opt.Matcher.params(rec.minD, rec.numD)
-	setup.AutoDisparity = rec.autoRange
-	setup.Prewarped = rec.prewarp
-	res.Setup = setup
-	if err := sink.Start(setup); err != nil {
-		return nil, err
-	}
+	return rec.reconstructRange(ctx, open, geom, first, last, sink, workers, threads)
+}
 
-	// Reconstruction.
-	t0 = time.Now()
+// applyGeometry sets the plane, the disparity strips and the grid of a
+// settled geometry.
+func (r *Reconstructor) applyGeometry(g *Geometry) error {
+	if g.ImageSize != (image.Point{}) && g.ImageSize != r.rig.Size {
+		return fmt.Errorf("surface: the geometry was settled for %d×%d px images but the rig is for %d×%d px; settle the record again with this rig", g.ImageSize.X, g.ImageSize.Y, r.rig.Size.X, r.rig.Size.Y)
+	}
+	if g.Band.Auto != r.autoRange || (r.autoRange && g.Band.Prewarp != r.opt.Prewarp) {
+		return fmt.Errorf("surface: the geometry was settled with another disparity setting (automatic range %v, prewarp %v; now %v, %v); settle the record again with these settings",
+			g.Band.Auto, g.Band.Prewarp, r.autoRange, r.autoRange && r.opt.Prewarp)
+	}
+	if err := r.setPlane(g.Plane, false); err != nil {
+		return err
+	}
+	if err := r.setStrips(g.Band.Strips, g.Band.HalfWidthM); err != nil {
+		return err
+	}
+	return r.SetGrid(g.Grid)
+}
+
+// setupOf describes the reconstruction of [first, last).
+func (r *Reconstructor) setupOf(g *Geometry, first, last, workers, threads int) *Setup {
+	rigOut := r.rig
+	p := r.plane
+	rigOut.SeaPlane = &p
+	s := &Setup{
+		Rig: &rigOut, PlaneFit: g.PlaneFit, SeaSigmaM: g.SeaSigmaM,
+		Grid: r.grid, GridAuto: g.GridAuto, GridNote: g.GridNote, GridChoice: g.GridChoice,
+		Strips: r.Strips(), BandHalfWidthM: r.BandHalfWidth(), AutoDisparity: r.autoRange, Prewarped: r.prewarp,
+		Rectification: r.Rectification(), Workers: workers, OpenCVThreads: threads, Options: r.opt,
+		Geometry: g, First: first, Last: last,
+	}
+	if g.PlaneFit != nil {
+		s.PlanePairs = g.PlaneFit.Pairs
+	}
+	minD, numD := r.DisparityRange()
+	s.SGBM = r.opt.Matcher.params(minD, numD)
+	return s
+}
+
+// skipTracker names the pairs a source did not deliver: the holes in its
+// indices, with the reason when the source's counts tell it.
+type skipTracker struct {
+	src   ingest.StereoSource
+	times []float64
+	names interface {
+		PairNames(i int) (left, right string)
+	}
+	first, last int
+	lastIndex   int
+	prev        ingest.SkipCounts
+	out         []SkippedPair
+}
+
+func newSkipTracker(src ingest.StereoSource, first, last int) *skipTracker {
+	t := &skipTracker{src: src, first: first, last: last, lastIndex: first - 1, prev: src.Skipped()}
+	if ts, ok := src.(interface{ Times() []float64 }); ok {
+		t.times = ts.Times()
+	}
+	t.names, _ = src.(interface {
+		PairNames(i int) (left, right string)
+	})
+	return t
+}
+
+// holes names the pairs [a, b) (clipped to the range) that the source
+// skipped during its last call to Next.
+func (t *skipTracker) holes(a, b int) {
+	cur := t.src.Skipped()
+	delta := ingest.SkipCounts{}
+	total := 0
+	for k, v := range cur {
+		if d := v - t.prev[k]; d > 0 {
+			delta[k] = d
+			total += d
+		}
+	}
+	t.prev = cur
+	a, b = max(a, t.first), min(b, t.last)
+	if b <= a {
+		return
+	}
+	// The reasons are those of the pairs when the counts grew by exactly
+	// their number; the pairs take them in index order and in the order of
+	// the reasons' names (exact when there is one reason).
+	var reasons []string
+	if total == b-a {
+		for _, k := range sortedKeys(delta) {
+			for n := 0; n < delta[k]; n++ {
+				reasons = append(reasons, k)
+			}
+		}
+	}
+	for i := a; i < b; i++ {
+		sp := SkippedPair{Index: i, TimeS: math.NaN(), Reason: SkipBySource}
+		if len(reasons) == b-a {
+			sp.Reason = reasons[i-a]
+		}
+		if i < len(t.times) {
+			sp.TimeS = t.times[i]
+		}
+		if t.names != nil {
+			sp.Left, sp.Right = t.names.PairNames(i)
+		}
+		t.out = append(t.out, sp)
+	}
+}
+
+// seen is told each delivered pair's index; it names the holes before it.
+func (t *skipTracker) seen(i int) {
+	t.holes(t.lastIndex+1, i)
+	t.lastIndex = max(t.lastIndex, i)
+}
+
+// reconstructRange is ReconstructRange on a set-up reconstructor.
+func (r *Reconstructor) reconstructRange(ctx context.Context, open Opener, g *Geometry, first, last int, sink Sink, workers, threads int) (*Result, error) {
 	src, err := open()
 	if err != nil {
 		return nil, err
 	}
 	defer src.Close()
+	n := src.Len()
+	if n != g.RecordPairs {
+		return nil, fmt.Errorf("surface: the record has %d image pairs but the geometry was settled on %d; settle this record again", n, g.RecordPairs)
+	}
+	if first < 0 || last > n || first >= last {
+		return nil, fmt.Errorf("surface: the pair range %d–%d is not within the record's %d pairs (give 0 ≤ first < last ≤ %d)", first, last, n, n)
+	}
+	if sk, ok := src.(IndexSeeker); ok && first > 0 {
+		if err := sk.SeekIndex(first); err != nil {
+			return nil, fmt.Errorf("surface: cannot move to pair %d of the record: %v", first, err)
+		}
+	}
+	setup := r.setupOf(g, first, last, workers, threads)
+	res := &Result{Setup: setup, Skipped: ingest.SkipCounts{}, FoamSkipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
+	if err := sink.Start(setup); err != nil {
+		return nil, err
+	}
+	supported := len(r.grid.X) * len(r.grid.Y)
+	if g.GridChoice != nil && g.GridChoice.SupportedCells > 0 {
+		supported = g.GridChoice.SupportedCells
+	}
+	minCells := max(1, int(math.Ceil(r.opt.MinFrameCoverage*float64(supported)-1e-9)))
+
+	t0 := time.Now()
 	slots := 2 * workers
 	maps := make([]Map, slots)
-	total := src.Len()
 	var sumCov float64
-	sizeSkips := 0 // counted on the reading goroutine, read after the pass
-	ws, err := rec.newWorkers(workers)
+	track := newSkipTracker(src, first, last)
+	var sizeSkips []SkippedPair // on the reading goroutine, read after the pass
+	var ownSkips []SkippedPair  // on this goroutine
+	ws, err := r.newWorkers(workers)
 	if err != nil {
 		return nil, err
 	}
 	defer closeWorkers(ws)
+	sz := r.rig.Size
 	err = runPass(ctx, src, ws, slots, passFuncs{
 		accept: func(f *ingest.StereoFrame) (bool, bool) {
-			if f.Left.Cols() != rec.rig.Size.X || f.Left.Rows() != rec.rig.Size.Y {
-				sizeSkips++
+			if f.Index < first {
+				track.holes(0, 0) // consume the counts of pairs before the range
+				return false, false
+			}
+			if f.Index >= last {
+				track.seen(last)
+				return false, true
+			}
+			track.seen(f.Index)
+			if f.Left.Cols() != sz.X || f.Left.Rows() != sz.Y {
+				sizeSkips = append(sizeSkips, SkippedPair{Index: f.Index, TimeS: f.Time, Left: f.LeftPath, Right: f.RightPath,
+					Reason: SkipRigSize})
 				return false, false
 			}
 			return true, false
@@ -184,11 +343,12 @@ func Run(ctx context.Context, rig *calib.Rig, open Opener, opt Options, sink Sin
 		},
 		consume: func(f *ingest.StereoFrame, slot int, seq int) error {
 			m := &maps[slot]
-			if opt.Progress != nil {
-				opt.Progress("reconstruct", f.Index+1, total)
+			if r.opt.Progress != nil {
+				r.opt.Progress("reconstruct", f.Index+1-first, last-first)
 			}
-			if c := m.Coverage(); c < opt.MinFrameCoverage || m.Stats.Cells == 0 {
-				res.Skipped[SkipLowCoverage]++
+			if m.Stats.Cells < minCells {
+				ownSkips = append(ownSkips, SkippedPair{Index: m.Index, TimeS: m.Time, Left: m.LeftPath, Right: m.RightPath,
+					Reason: SkipLowCoverage})
 				return nil
 			}
 			if err := sink.Write(m); err != nil {
@@ -206,23 +366,26 @@ func Run(ctx context.Context, rig *calib.Rig, open Opener, opt Options, sink Sin
 			return nil
 		},
 	})
-	if sizeSkips > 0 {
-		res.Skipped[SkipRigSize] += sizeSkips
+	if err == nil && track.lastIndex < last-1 {
+		// The source ended before the range did.
+		track.seen(last)
 	}
 	for _, w := range ws {
 		res.Times.Add(w.Times)
 	}
-	for k, v := range src.Skipped() {
-		res.Skipped[k] += v
-	}
 	res.Pass["reconstruct"] = time.Since(t0)
+	all := append(append(track.out, sizeSkips...), ownSkips...)
+	sort.SliceStable(all, func(i, j int) bool { return all[i].Index < all[j].Index })
+	res.SkippedPairs = all
+	for _, sp := range all {
+		res.Skipped[sp.Reason]++
+	}
 	if err != nil {
 		return res, err
 	}
-	if res.Frames == 0 {
-		return res, fmt.Errorf("surface: no elevation map could be made from the %d pairs (%s); check the images, the rig and min_frame_coverage", total, describeSkips(res.Skipped))
+	if res.Frames > 0 {
+		res.CoverageMean = sumCov / float64(res.Frames)
 	}
-	res.CoverageMean = sumCov / float64(res.Frames)
 	return res, nil
 }
 
@@ -243,38 +406,16 @@ func describeSkips(c ingest.SkipCounts) string {
 	return s
 }
 
-// probe reads the first pair and checks its size against the rig, so that
-// a wrong rig is reported before any work.
-func probe(rec *Reconstructor, open Opener) error {
-	src, err := open()
-	if err != nil {
-		return err
-	}
-	defer src.Close()
-	var f ingest.StereoFrame
-	defer releaseFrame(&f)
-	if err := src.Next(&f); err != nil {
-		if errors.Is(err, io.EOF) {
-			return fmt.Errorf("surface: no image pair of the record could be read (%s); check the images", describeSkips(src.Skipped()))
-		}
-		return err
-	}
-	sz := rec.rig.Size
-	if f.Left.Cols() != sz.X || f.Left.Rows() != sz.Y {
-		return &SizeError{Path: f.LeftPath, Got: image.Pt(f.Left.Cols(), f.Left.Rows()), Want: sz}
-	}
-	return nil
-}
-
-// SizeError reports that the first pair of a record does not have the
-// rig's image size; [Run] returns it before any work.
+// SizeError reports that the first pairs sampled from a record do not have
+// the rig's image size; [Settle] (and so [Run]) returns it before any
+// reconstruction.
 type SizeError struct {
-	Path      string      // left image of the first pair
+	Path      string      // left image of the first such pair
 	Got, Want image.Point // its size and the rig's
 }
 
 func (e *SizeError) Error() string {
-	return fmt.Sprintf("surface: the first image pair (%s) is %d×%d px but the rig is calibrated for %d×%d px; use the rig file of the cameras that took these images",
+	return fmt.Sprintf("surface: the first image pairs sampled from the record (%s, ...) are %d×%d px but the rig is calibrated for %d×%d px; use the rig file of the cameras that took these images",
 		e.Path, e.Got.X, e.Got.Y, e.Want.X, e.Want.Y)
 }
 
@@ -306,59 +447,8 @@ func closeWorkers(ws []*Worker) {
 	}
 }
 
-// selector picks n pairs spread evenly over the first span seconds of a
-// record (the whole record when span is 0 or longer than it): by time when
-// the source lists its times, by index otherwise. A target whose pair is
-// skipped by the source moves to the next pair delivered.
-type selector struct {
-	targets []float64
-	byTime  bool
-	next    int
-}
-
-func newSelector(src ingest.StereoSource, n int, span float64) *selector {
-	s := &selector{}
-	var a, b float64
-	if ts, ok := src.(interface{ Times() []float64 }); ok && len(ts.Times()) > 0 {
-		t := ts.Times()
-		s.byTime = true
-		a, b = t[0], t[len(t)-1]
-		if span > 0 {
-			b = math.Min(b, a+span)
-		}
-	} else {
-		// Without times, spread the pairs over the whole record by index.
-		b = float64(max(src.Len()-1, 0))
-	}
-	if n == 1 || b <= a {
-		s.targets = []float64{a}
-		return s
-	}
-	for k := 0; k < n; k++ {
-		s.targets = append(s.targets, a+(b-a)*float64(k)/float64(n-1))
-	}
-	return s
-}
-
-// accept says whether to use frame f and whether the selection is complete.
-func (s *selector) accept(f *ingest.StereoFrame) (use, stop bool) {
-	if s.next >= len(s.targets) {
-		return false, true
-	}
-	key := float64(f.Index)
-	if s.byTime {
-		key = f.Time
-	}
-	if key < s.targets[s.next]-1e-9 {
-		return false, false
-	}
-	for s.next < len(s.targets) && s.targets[s.next] <= key+1e-9 {
-		s.next++
-	}
-	return true, false
-}
-
-// planePass fits the mean sea plane. Semi-global matching of the plain
+// planePass fits the mean sea plane to the sampled pairs and returns it
+// with the points of the final fit. Semi-global matching of the plain
 // rectified pair biases the disparities of a surface slanted as steeply as
 // the sea seen from a mast (its single-pass paths all run down the image
 // and lag behind the growth of disparity with the row, putting the points
@@ -368,91 +458,100 @@ func (s *selector) accept(f *ingest.StereoFrame) (use, stop bool) {
 // prewarp, and the final plane is fitted to all the pairs matched with it.
 // With a configured disparity range there is no prewarp and the first fit
 // is the last.
-func (r *Reconstructor) planePass(ctx context.Context, open Opener, workers int) (PlaneFit, error) {
-	po := r.opt.Plane
+func (r *Reconstructor) planePass(ctx context.Context, smp *sample, workers int) (PlaneFit, [][3]float32, error) {
+	all := smp.all()
 	switch {
 	case r.roughPlane != nil:
 		if err := r.SetSeaPlane(*r.roughPlane); err != nil {
-			return PlaneFit{}, err
+			return PlaneFit{}, nil, err
 		}
 	case !r.autoRange || !r.opt.Prewarp:
-		return r.fitPass(ctx, open, workers, po.Frames)
+		return r.fitPass(ctx, smp, all, workers)
 	default:
-		fit, err := r.fitPass(ctx, open, workers, min(po.Frames, max(3, (po.Frames+3)/4)))
+		n := len(all)
+		quarter := sampleTargets(min(n, max(3, (n+3)/4)), n-1)
+		fit, _, err := r.fitPass(ctx, smp, quarter, workers)
 		if err != nil {
-			return PlaneFit{}, err
+			return PlaneFit{}, nil, err
 		}
 		if err := r.SetSeaPlane(fit.Plane); err != nil {
-			return PlaneFit{}, fmt.Errorf("%v (the first plane fitted is probably not the sea; check the images)", err)
+			return PlaneFit{}, nil, fmt.Errorf("%v (the first plane fitted is probably not the sea; check the images)", err)
 		}
 	}
-	return r.fitPass(ctx, open, workers, po.Frames)
+	return r.fitPass(ctx, smp, all, workers)
 }
 
-// fitPass fits a plane to the points of n pairs spread over the first
-// Plane.SpanS seconds, matched with the current setup.
-func (r *Reconstructor) fitPass(ctx context.Context, open Opener, workers, n int) (PlaneFit, error) {
+// pointsPass returns the points, in the left camera's frame, of the
+// sampled pairs at positions k, one pixel in Plane.Stride² each, matched
+// with the current setup.
+func (r *Reconstructor) pointsPass(ctx context.Context, smp *sample, k []int, workers int, pass string) ([][3]float32, error) {
+	pts, _, _, err := r.pointsPassTimes(ctx, smp, k, workers, pass)
+	return pts, err
+}
+
+func (r *Reconstructor) pointsPassTimes(ctx context.Context, smp *sample, k []int, workers int, pass string) (pts [][3]float32, pairs int, span float64, err error) {
 	po := r.opt.Plane
-	src, err := open()
+	src, err := smp.source(k)
 	if err != nil {
-		return PlaneFit{}, err
+		return nil, 0, 0, err
 	}
 	defer src.Close()
-	sel := newSelector(src, n, po.SpanS)
 	ws, err := r.newWorkers(workers)
 	if err != nil {
-		return PlaneFit{}, err
+		return nil, 0, 0, err
 	}
 	defer closeWorkers(ws)
 	slots := 2 * workers
 	bufs := make([][][3]float32, slots)
-	var all [][3]float32
-	pairs := 0
 	t0, t1 := math.NaN(), math.NaN()
 	err = runPass(ctx, src, ws, slots, passFuncs{
-		accept: func(f *ingest.StereoFrame) (bool, bool) {
-			if f.Left.Cols() != r.rig.Size.X || f.Left.Rows() != r.rig.Size.Y {
-				return false, false
-			}
-			return sel.accept(f)
-		},
+		accept: func(f *ingest.StereoFrame) (bool, bool) { return true, false },
 		process: func(w *Worker, f *ingest.StereoFrame, slot int) error {
 			var err error
 			bufs[slot], err = w.CameraPoints(f.Left, f.Right, po.Stride, bufs[slot][:0])
 			return err
 		},
 		consume: func(f *ingest.StereoFrame, slot int, seq int) error {
-			all = append(all, bufs[slot]...)
+			pts = append(pts, bufs[slot]...)
 			pairs++
 			if pairs == 1 {
 				t0 = f.Time
 			}
 			t1 = f.Time
 			if r.opt.Progress != nil {
-				r.opt.Progress("plane", pairs, len(sel.targets))
+				r.opt.Progress(pass, pairs, len(k))
 			}
 			return nil
 		},
 	})
 	if err != nil {
-		return PlaneFit{}, err
+		return nil, 0, 0, err
 	}
-	if pairs == 0 {
-		return PlaneFit{}, fmt.Errorf("surface: no pair could be read for the sea-plane fit (%s)", describeSkips(src.Skipped()))
+	return pts, pairs, t1 - t0, nil
+}
+
+// fitPass fits a plane to the points of the sampled pairs at positions k,
+// matched with the current setup, and returns it with the points.
+func (r *Reconstructor) fitPass(ctx context.Context, smp *sample, k []int, workers int) (PlaneFit, [][3]float32, error) {
+	po := r.opt.Plane
+	all, pairs, span, err := r.pointsPassTimes(ctx, smp, k, workers, "plane")
+	if err != nil {
+		return PlaneFit{}, nil, err
 	}
 	fit, err := FitPlane(all, po.Iterations, po.ThresholdM, po.Seed)
 	if err != nil {
-		return PlaneFit{}, err
+		return PlaneFit{}, nil, err
 	}
 	if fit.Inliers < len(all)/4 {
-		return PlaneFit{}, fmt.Errorf("surface: only %d of %d points lie within %g m of the fitted sea plane; the matches are not of a sea surface (check the images, the disparity range and plane.threshold_m)", fit.Inliers, len(all), po.ThresholdM)
+		return PlaneFit{}, nil, fmt.Errorf("surface: only %d of %d points lie within %g m of the fitted sea plane; the matches are not of a sea surface (check the images, the disparity range and plane.ransac_threshold_m)", fit.Inliers, len(all), po.ThresholdM)
 	}
-	fit.Pairs, fit.SpanS = pairs, t1-t0
-	return fit, nil
+	fit.Pairs, fit.SpanS = pairs, span
+	return fit, all, nil
 }
 
-// chooseGrid returns the configured grid, or the automatic one.
-func (r *Reconstructor) chooseGrid(ctx context.Context, open Opener, workers int) (ingest.Grid, bool, string, error) {
+// chooseGrid returns the configured grid, or the automatic one with the
+// figures of its choice.
+func (r *Reconstructor) chooseGrid(ctx context.Context, smp *sample, workers int) (ingest.Grid, bool, string, *GridChoice, error) {
 	gs := r.opt.Grid
 	if gs.X0 != nil {
 		d := gs.D
@@ -461,40 +560,44 @@ func (r *Reconstructor) chooseGrid(ctx context.Context, open Opener, workers int
 			x0, x1, y0, y1 := *gs.X0, *gs.X1, *gs.Y0, *gs.Y1
 			fp, err := r.viewFootprint(4, func(x, y float64) bool { return x >= x0 && x <= x1 && y >= y0 && y <= y1 })
 			if err != nil {
-				return ingest.Grid{}, false, "", err
+				return ingest.Grid{}, false, "", nil, err
 			}
 			d = niceSpacing(gs.GSDFactor * fp.maxPixelM)
 			note = fmt.Sprintf("configured bounds x %g–%g m, y %g–%g m; spacing %g m = %g × the largest pixel footprint inside them (%.3f m at x = %.1f m), rounded up", x0, x1, y0, y1, d, gs.GSDFactor, fp.maxPixelM, fp.farX)
 		}
 		g, err := configuredGrid(gs, d)
-		return g, false, note, err
+		return g, false, note, nil, err
 	}
-	g, note, err := r.autoGrid(ctx, open, workers)
-	return g, true, note, err
+	g, note, choice, err := r.autoGrid(ctx, smp, workers)
+	return g, true, note, choice, err
 }
 
 // gridCandidates are the spacings, as fractions of the spacing the far
 // edge of the whole view asks for, whose coverage the grid pass counts.
 var gridCandidates = []float64{1, 0.8, 0.65, 0.5, 0.4, 0.33, 0.25}
 
-// autoGrid chooses the largest well-covered rectangle (see the package
-// documentation). Coverage is counted in one pass on lattices of several
-// spacings: the coarsest is GSDFactor times the largest pixel footprint of
-// the whole view; a finer one qualifies when its own rectangle's far edge
-// asks for no more than its spacing, so that the spacing suits the far edge
-// of the grid rather than of the view. The qualifying rectangle of largest
-// area wins, the finest of those within 10 % of it.
-func (r *Reconstructor) autoGrid(ctx context.Context, open Opener, workers int) (ingest.Grid, string, error) {
+// autoGrid chooses the automatic grid (see the package documentation).
+// Coverage is counted in one pass on lattices of several spacings: the
+// coarsest is GSDFactor times the largest pixel footprint of the whole
+// view; a finer one is eligible when the far edge of its supported cells
+// asks for no more than its spacing, so that the spacing suits the far
+// edge of the grid rather than of the view. Of the eligible ones, the one
+// of largest supported area wins, the finest of those within 10 % of it.
+func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) (ingest.Grid, string, *GridChoice, error) {
 	gs := r.opt.Grid
+	extent := gs.Extent
+	if extent == "" {
+		extent = ExtentFootprint
+	}
 	fp, err := r.viewFootprint(4, nil)
 	if err != nil {
-		return ingest.Grid{}, "", err
+		return ingest.Grid{}, "", nil, err
 	}
 	var lats []lattice
 	if gs.D != 0 {
 		l, err := coverageLattice(fp, gs.D)
 		if err != nil {
-			return ingest.Grid{}, "", err
+			return ingest.Grid{}, "", nil, err
 		}
 		lats = append(lats, l)
 	} else {
@@ -510,22 +613,21 @@ func (r *Reconstructor) autoGrid(ctx context.Context, open Opener, workers int) 
 			l, err := coverageLattice(fp, d)
 			if err != nil {
 				if len(lats) == 0 {
-					return ingest.Grid{}, "", err
+					return ingest.Grid{}, "", nil, err
 				}
 				break
 			}
 			lats = append(lats, l)
 		}
 	}
-	src, err := open()
+	src, err := smp.source(smp.all())
 	if err != nil {
-		return ingest.Grid{}, "", err
+		return ingest.Grid{}, "", nil, err
 	}
 	defer src.Close()
-	sel := newSelector(src, r.opt.Plane.Frames, r.opt.Plane.SpanS)
 	ws, err := r.newWorkers(workers)
 	if err != nil {
-		return ingest.Grid{}, "", err
+		return ingest.Grid{}, "", nil, err
 	}
 	defer closeWorkers(ws)
 	slots := 2 * workers
@@ -537,12 +639,7 @@ func (r *Reconstructor) autoGrid(ctx context.Context, open Opener, workers int) 
 	minPts := int32(r.opt.MinPoints)
 	frames := 0
 	err = runPass(ctx, src, ws, slots, passFuncs{
-		accept: func(f *ingest.StereoFrame) (bool, bool) {
-			if f.Left.Cols() != r.rig.Size.X || f.Left.Rows() != r.rig.Size.Y {
-				return false, false
-			}
-			return sel.accept(f)
-		},
+		accept: func(f *ingest.StereoFrame) (bool, bool) { return true, false },
 		process: func(w *Worker, f *ingest.StereoFrame, slot int) error {
 			if err := w.worldPoints(f.Left, f.Right); err != nil {
 				return err
@@ -574,72 +671,133 @@ func (r *Reconstructor) autoGrid(ctx context.Context, open Opener, workers int) 
 			}
 			frames++
 			if r.opt.Progress != nil {
-				r.opt.Progress("grid", frames, len(sel.targets))
+				r.opt.Progress("grid", frames, len(smp.pairs))
 			}
 			return nil
 		},
 	})
 	if err != nil {
-		return ingest.Grid{}, "", err
+		return ingest.Grid{}, "", nil, err
 	}
 	if frames == 0 {
-		return ingest.Grid{}, "", fmt.Errorf("surface: no pair could be read to choose the grid (%s)", describeSkips(src.Skipped()))
+		return ingest.Grid{}, "", nil, fmt.Errorf("surface: no sampled pair could be read to choose the grid")
 	}
 	need := int32(math.Ceil(gs.Coverage*float64(frames) - 1e-9))
 	type choice struct {
-		g    ingest.Grid
-		area float64
-		note string
+		g         ingest.Grid
+		area      float64
+		keep      []bool // supported cells of the grid, row-major
+		lat       lattice
+		i0, j0    int
+		asked     float64
+		farPixel  float64
+		farX      float64
+		supported int
 	}
 	var choices []choice
+	choiceOf := map[int]int{} // lattice → index in choices
+	cands := make([]GridCandidate, len(lats))
 	for k, l := range lats {
+		cands[k].SpacingM = l.d
 		mask := make([]bool, len(covered[k]))
 		for i, n := range covered[k] {
 			mask[i] = n >= need
 		}
-		i0, i1, j0, j1 := largestRectangle(mask, l.nx, l.ny)
+		var i0, i1, j0, j1 int
+		var keep []bool
+		if extent == ExtentInscribed {
+			i0, i1, j0, j1 = largestRectangle(mask, l.nx, l.ny)
+			keep = mask
+		} else {
+			keep, i0, i1, j0, j1 = largestComponent(mask, l.nx, l.ny)
+		}
 		if i1-i0 < 4 || j1-j0 < 4 {
 			continue
+		}
+		sub := make([]bool, (i1-i0)*(j1-j0))
+		cnt := 0
+		for j := j0; j < j1; j++ {
+			for i := i0; i < i1; i++ {
+				if keep[j*l.nx+i] {
+					sub[(j-j0)*(i1-i0)+i-i0] = true
+					cnt++
+				}
+			}
 		}
 		xa, xb := l.x0+float64(i0)*l.d, l.x0+float64(i1-1)*l.d
 		ya, yb := l.y0+float64(j0)*l.d, l.y0+float64(j1-1)*l.d
 		g := ingest.Grid{X: axis(xa, xb, l.d), Y: axis(ya, yb, l.d)}
-		area := (xb - xa + l.d) * (yb - ya + l.d)
-		if gs.D != 0 {
-			choices = append(choices, choice{g, area, fmt.Sprintf("automatic: largest x-aligned rectangle whose %g m cells (configured spacing) hold at least %d points in at least %.0f %% of %d pairs",
-				l.d, r.opt.MinPoints, 100*gs.Coverage, frames)})
-			break
+		if len(g.X) != i1-i0 || len(g.Y) != j1-j0 {
+			return ingest.Grid{}, "", nil, fmt.Errorf("surface: internal error: the automatic grid's axes do not match its lattice")
 		}
-		// The spacing this rectangle's far edge asks for.
-		h := l.d / 2
-		rf, err := r.viewFootprint(4, func(x, y float64) bool { return x >= xa-h && x <= xb+h && y >= ya-h && y <= yb+h })
+		area := float64(cnt) * l.d * l.d
+		cands[k].SupportedCells, cands[k].SupportedAreaM2 = cnt, area
+		// The spacing the far edge of the supported cells asks for.
+		inside := func(x, y float64) bool {
+			c, ok := l.cell(x, y)
+			if !ok {
+				return false
+			}
+			i, j := c%l.nx, c/l.nx
+			return i >= i0 && i < i1 && j >= j0 && j < j1 && keep[c]
+		}
+		rf, err := r.viewFootprint(4, inside)
 		if err != nil {
 			continue
 		}
 		req := niceSpacing(gs.GSDFactor * rf.maxPixelM)
-		if k > 0 && req > l.d+1e-12 {
+		cands[k].SpacingAsked = req
+		if gs.D == 0 && k > 0 && req > l.d+1e-12 {
 			continue
 		}
-		choices = append(choices, choice{g, area, fmt.Sprintf("automatic: largest x-aligned rectangle whose %g m cells hold at least %d points in at least %.0f %% of %d pairs; spacing %g m ≥ %g × the largest pixel footprint on the sea inside it (%.3f m, at x = %.1f m), rounded up",
-			l.d, r.opt.MinPoints, 100*gs.Coverage, frames, l.d, gs.GSDFactor, rf.maxPixelM, rf.farX)})
+		cands[k].Eligible = true
+		choiceOf[k] = len(choices)
+		choices = append(choices, choice{g: g, area: area, keep: sub, lat: l, i0: i0, j0: j0, asked: req, farPixel: rf.maxPixelM, farX: rf.farX, supported: cnt})
+		if gs.D != 0 {
+			break
+		}
 	}
 	// The largest area wins; of areas within 10 % of it, the finest
 	// spacing (choices run from coarse to fine).
-	var best ingest.Grid
-	var bestNote string
+	best := -1
 	maxArea := 0.0
 	for _, c := range choices {
 		maxArea = math.Max(maxArea, c.area)
 	}
-	for _, c := range choices {
+	for i, c := range choices {
 		if c.area >= 0.9*maxArea {
-			best, bestNote = c.g, c.note
+			best = i
 		}
 	}
-	if best.X == nil {
-		return ingest.Grid{}, "", fmt.Errorf("surface: no rectangle of at least 4 × 4 cells of %g m is covered in %.0f %% of the %d pairs examined; check the images and the sea plane, or configure the grid", lats[0].d, 100*gs.Coverage, frames)
+	if best < 0 {
+		return ingest.Grid{}, "", nil, fmt.Errorf("surface: no rectangle of at least 4 × 4 cells of %g m is covered in %.0f %% of the %d pairs examined; check the images and the sea plane, or configure the grid", lats[0].d, 100*gs.Coverage, frames)
 	}
-	return best, bestNote, nil
+	c := choices[best]
+	vx, vy := r.bothViews(4)
+	gc := &GridChoice{Extent: extent, SpacingM: c.lat.d, ViewXM: vx, ViewYM: vy, SupportedCells: c.supported,
+		SupportedFraction: float64(c.supported) / float64(len(c.keep)), Pairs: frames, Candidates: cands}
+	gc.SupportedXM = [2]float64{math.Inf(1), math.Inf(-1)}
+	gc.SupportedYM = gc.SupportedXM
+	nx := len(c.g.X)
+	for i, k := range c.keep {
+		if k {
+			x, y := c.g.X[i%nx], c.g.Y[i/nx]
+			gc.SupportedXM = [2]float64{math.Min(gc.SupportedXM[0], x), math.Max(gc.SupportedXM[1], x)}
+			gc.SupportedYM = [2]float64{math.Min(gc.SupportedYM[0], y), math.Max(gc.SupportedYM[1], y)}
+		}
+	}
+	what := "the rectangle around the largest connected set of cells"
+	if extent == ExtentInscribed {
+		what = "the largest x-aligned rectangle of cells"
+	}
+	spacing := "configured spacing"
+	if gs.D == 0 {
+		spacing = fmt.Sprintf("spacing %g m ≥ %g × the largest pixel footprint on the sea among them (%.3f m, at x = %.1f m), rounded up", c.lat.d, gs.GSDFactor, c.farPixel, c.farX)
+	}
+	note := fmt.Sprintf("automatic (%s): %s whose %g m cells hold at least %d points in at least %.0f %% of %d sampled pairs (%s); %d of its %d cells supported, x %.1f–%.1f m of the %.1f–%.1f m both cameras see",
+		extent, what, c.lat.d, r.opt.MinPoints, 100*gs.Coverage, frames, spacing, c.supported, len(c.keep),
+		gc.SupportedXM[0], gc.SupportedXM[1], vx[0], vx[1])
+	return c.g, note, gc, nil
 }
 
 // passFuncs are the three steps of a pass over a record. accept runs on the

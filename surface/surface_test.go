@@ -264,8 +264,6 @@ func TestReconstructDeployment(t *testing.T) {
 
 	opt := surface.DefaultOptions()
 	opt.Workers = runtime.NumCPU()
-	// The sea is searched within ±1.5 m of the plane (2.5 Hs).
-	opt.ElevationMarginM = 1.5
 	x0, x1, y0, y1 := tg.X[0], tg.X[len(tg.X)-1], tg.Y[0], tg.Y[len(tg.Y)-1]
 	opt.Grid.X0, opt.Grid.X1, opt.Grid.Y0, opt.Grid.Y1, opt.Grid.D = &x0, &x1, &y0, &y1, tg.Dx()
 	out := filepath.Join(t.TempDir(), "maps.nc")
@@ -281,6 +279,7 @@ func TestReconstructDeployment(t *testing.T) {
 	}
 	s := res.Setup
 	t.Logf("%d maps, coverage %.3f (lowest %.3f), skipped %v, passes %v", res.Frames, res.CoverageMean, res.CoverageMin, res.Skipped, res.Pass)
+	t.Logf("sea σ_η %.4f m (truth Hm0/4 %.4f m); band ±%.3f m; %d strips: %v", s.SeaSigmaM, tr.Hm0M/4, s.BandHalfWidthM, len(s.Strips), s.Strips)
 	if res.Frames != tr.Frames || !slices.Equal(s.Grid.X, tg.X) || !slices.Equal(s.Grid.Y, tg.Y) {
 		t.Fatalf("%d maps of %d frames; grid %d×%d, truth %d×%d", res.Frames, tr.Frames, s.Grid.Nx(), s.Grid.Ny(), tg.Nx(), tg.Ny())
 	}

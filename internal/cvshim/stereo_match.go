@@ -242,3 +242,123 @@ func NumThreads() (int, error) {
 	}
 	return int(n), nil
 }
+
+// Strip is one horizontal strip of a [StripMatcher]: its disparities are
+// kept for the rows [Row0, Row1) and computed on the rows [Top, Row1)
+// (Top ≤ Row0: the rows above Row0 let the matcher's top-down paths build
+// up before the rows kept) and the columns from Col0 on (those left of it
+// are not matched), over the disparities [MinDisparity,
+// MinDisparity+NumDisparities) in whole pixels.
+type Strip struct {
+	Row0, Row1, Top, Col0        int
+	MinDisparity, NumDisparities int
+}
+
+// StripMatcher is semi-global block matching ([StereoSGBM]) done in
+// horizontal strips, each with its own disparity range: where the scene's
+// depth varies down the image, as on the sea seen from a mast, each strip
+// searches only the disparities its rows can have. The strips are matched
+// in parallel on OpenCV's thread pool. It keeps work buffers between
+// calls: use one per goroutine. Close releases it.
+type StripMatcher struct {
+	p       *C.cs_strips
+	base    SGBMParams
+	strips  []Strip
+	lrCheck bool
+}
+
+// NewStripMatcher makes one matcher per strip with the parameters of base
+// (whose range is not used) and the strip's range; with lrCheck, each
+// strip also gets its right-view matcher for the left-right check. Strips
+// are given top to bottom with disjoint kept rows.
+func NewStripMatcher(base SGBMParams, strips []Strip, lrCheck bool) (*StripMatcher, error) {
+	if len(strips) == 0 {
+		return nil, fmt.Errorf("strip matching needs at least one strip")
+	}
+	cs := make([]C.cs_strip, len(strips))
+	prev := 0
+	for i, s := range strips {
+		p := base
+		p.MinDisparity, p.NumDisparities = s.MinDisparity, s.NumDisparities
+		if err := p.Validate(); err != nil {
+			return nil, fmt.Errorf("strip %d (rows %d–%d): %v", i, s.Row0, s.Row1, err)
+		}
+		if s.Top < 0 || s.Top > s.Row0 || s.Row0 >= s.Row1 || s.Row0 < prev || s.Col0 < 0 {
+			return nil, fmt.Errorf("strip %d has rows %d–%d from row %d and columns from %d; strips must run top to bottom without overlapping kept rows", i, s.Row0, s.Row1, s.Top, s.Col0)
+		}
+		prev = s.Row1
+		cs[i] = C.cs_strip{row0: C.int(s.Row0), row1: C.int(s.Row1), top: C.int(s.Top), col0: C.int(s.Col0),
+			min_disparity: C.int(s.MinDisparity), num_disparities: C.int(s.NumDisparities)}
+	}
+	cp := C.cs_sgbm_params{
+		block_size: C.int(base.BlockSize), p1: C.int(base.P1), p2: C.int(base.P2),
+		disp12_max_diff: C.int(base.Disp12MaxDiff), pre_filter_cap: C.int(base.PreFilterCap),
+		uniqueness_ratio: C.int(base.UniquenessRatio), speckle_window_size: C.int(base.SpeckleWindowSize),
+		speckle_range: C.int(base.SpeckleRange), mode: C.int(base.Mode),
+	}
+	lr := C.int(0)
+	if lrCheck {
+		lr = 1
+	}
+	var m *C.cs_strips
+	if err := call(C.cs_strips_new(cp, &cs[0], C.int(len(cs)), lr, &m)); err != nil {
+		return nil, err
+	}
+	return &StripMatcher{p: m, base: base, strips: append([]Strip(nil), strips...), lrCheck: lrCheck}, nil
+}
+
+// Strips returns the matcher's strips.
+func (s *StripMatcher) Strips() []Strip { return append([]Strip(nil), s.strips...) }
+
+// Params returns the parameters of strip i's matcher.
+func (s *StripMatcher) Params(i int) SGBMParams {
+	p := s.base
+	p.MinDisparity, p.NumDisparities = s.strips[i].MinDisparity, s.strips[i].NumDisparities
+	return p
+}
+
+// Close releases the matchers; it may be called more than once.
+func (s *StripMatcher) Close() error {
+	if s == nil || s.p == nil {
+		return nil
+	}
+	err := call(C.cs_strips_free(s.p))
+	s.p = nil
+	return err
+}
+
+// Compute matches a rectified pair strip by strip. disp (a Go-owned Mat)
+// receives the CV_32FC1 disparity of the left view in pixels: a strip's raw
+// disparity r (1/16 px) over its range [m, m+n) becomes r/16 where
+// (m+1)·16 ≤ r < (m+n−1)·16 (the end pixels of the range, where the cost
+// minimum sits on its edge, are not used) and, with the left-right check,
+// the right view agrees within maxDiffPx as in [StereoSGBM.ComputeChecked];
+// NaN elsewhere, and in rows of no strip. One strip over the whole image
+// gives exactly ComputeChecked (or Compute) followed by
+// [DisparityToFloat] with those bounds.
+func (s *StripMatcher) Compute(left, right gocv.Mat, disp *gocv.Mat, maxDiffPx float64) (CheckStats, error) {
+	if s == nil || s.p == nil {
+		return CheckStats{}, fmt.Errorf("strip matcher is closed")
+	}
+	if !(maxDiffPx >= 0 && maxDiffPx <= 1000) {
+		return CheckStats{}, fmt.Errorf("left-right tolerance %g px is outside 0–1000 px", maxDiffPx)
+	}
+	if err := checkImages(left, right, disp); err != nil {
+		return CheckStats{}, err
+	}
+	if last := s.strips[len(s.strips)-1]; last.Row1 > left.Rows() {
+		return CheckStats{}, fmt.Errorf("the strips reach row %d of a %d-row image", last.Row1, left.Rows())
+	}
+	for _, st := range s.strips {
+		if st.Col0+st.NumDisparities+16 > left.Cols() {
+			return CheckStats{}, fmt.Errorf("a strip matched from column %d over %d disparities does not fit a %d-column image", st.Col0, st.NumDisparities, left.Cols())
+		}
+	}
+	var before, after C.int
+	err := call(C.cs_strips_compute(s.p, unsafe.Pointer(left.Ptr()), unsafe.Pointer(right.Ptr()),
+		unsafe.Pointer(disp.Ptr()), C.int(math.Round(maxDiffPx*DisparityScale)), &before, &after))
+	if err != nil {
+		return CheckStats{}, err
+	}
+	return CheckStats{ValidBefore: int(before), ValidAfter: int(after)}, nil
+}

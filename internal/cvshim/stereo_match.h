@@ -78,6 +78,53 @@ char *cs_disparity_to_float(void *disp16, void *out, int min_raw, int max_raw);
  */
 char *cs_reproject(void *disp, const double *Q, void *xyz);
 
+/*
+ * Matching in horizontal strips, each with its own disparity range.
+ *
+ * cs_strip is one strip: its disparities are written for the rows
+ * [row0, row1) and computed on the rows [top, row1) (top <= row0: the rows
+ * above row0 let the matcher's top-down paths build up before the rows
+ * kept) and the columns [col0, width), searched over [min_disparity,
+ * min_disparity + num_disparities). Columns left of col0 are NaN.
+ */
+typedef struct {
+	int row0;
+	int row1;
+	int top;
+	int col0;
+	int min_disparity;
+	int num_disparities;
+} cs_strip;
+
+/* cs_strips is an opaque set of strip matchers (a left matcher, and a
+ * right-view twin when lr_check is set, per strip). */
+typedef struct cs_strips cs_strips;
+
+/*
+ * cs_strips_new creates one matcher per strip with the parameters of base
+ * and the strip's range. The strips must not overlap in their kept rows
+ * and must be given top to bottom.
+ */
+char *cs_strips_new(cs_sgbm_params base, const cs_strip *strips, int n, int lr_check, cs_strips **out);
+
+/* cs_strips_free releases the strip matchers (NULL is allowed). */
+char *cs_strips_free(cs_strips *m);
+
+/*
+ * cs_strips_compute matches a rectified pair strip by strip, the strips in
+ * parallel on OpenCV's thread pool (cv::parallel_for_). disp (caller-owned)
+ * receives a CV_32FC1 map of the left view's disparity in pixels: for a
+ * raw disparity r (1/16 px) of a strip of range [m, m + n), r / 16 where
+ * (m + 1) * 16 <= r < (m + n - 1) * 16 (the two end pixels of the range,
+ * where the cost minimum sits on its edge, are not used) and, with the
+ * left-right check, the right view agrees within max_diff16 (as in
+ * cs_sgbm_compute_checked); NaN elsewhere and in rows of no strip.
+ * *valid_before and *valid_after count the pixels with a disparity before
+ * and after the left-right check.
+ */
+char *cs_strips_compute(cs_strips *m, void *left, void *right, void *disp, int max_diff16,
+                        int *valid_before, int *valid_after);
+
 /* cs_set_num_threads wraps cv::setNumThreads; cs_get_num_threads
  * cv::getNumThreads. */
 char *cs_set_num_threads(int n);
