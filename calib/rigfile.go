@@ -6,12 +6,13 @@ import (
 	"fmt"
 	"math"
 	"os"
-	"path/filepath"
 	"reflect"
 	"strconv"
 	"strings"
 
 	"gopkg.in/yaml.v3"
+
+	"crestspeed/internal/atomicfile"
 )
 
 // Rig file identity.
@@ -546,28 +547,11 @@ func yamlMessage(err error) string {
 	return strings.ReplaceAll(s, ". ", "; ")
 }
 
-// writeFileAtomic writes data to a temporary file beside path and renames
-// it into place, so that path is either complete or untouched.
+// writeFileAtomic writes data to path atomically and durably (see
+// internal/atomicfile): path holds either its old or its whole new content.
 func writeFileAtomic(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".part-*")
-	if err != nil {
-		return fmt.Errorf("cannot write in %s: %v", dir, err)
-	}
-	name := tmp.Name()
-	err = tmp.Chmod(0o644)
-	if err == nil {
-		_, err = tmp.Write(data)
-	}
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(name, path)
-	}
-	if err != nil {
-		os.Remove(name)
-		return fmt.Errorf("cannot write %s: %v", path, err)
+	if err := atomicfile.WriteFile(path, data); err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
 	return nil
 }

@@ -14,6 +14,8 @@ import (
 	"slices"
 	"strings"
 	"time"
+
+	"crestspeed/internal/atomicfile"
 )
 
 // ElevationStream is what the later stages read an elevation-map record
@@ -566,36 +568,8 @@ func WriteElevationIndex(path string, parts []IndexPart) error {
 		return fmt.Errorf("ingest: cannot encode the index %s: %v", path, err)
 	}
 	data = append(data, '\n')
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".part-*")
-	if err != nil {
-		return fmt.Errorf("ingest: cannot write the index %s: %v", path, err)
-	}
-	ok := false
-	defer func() {
-		if !ok {
-			tmp.Close()
-			os.Remove(tmp.Name())
-		}
-	}()
-	if _, err := tmp.Write(data); err != nil {
-		return fmt.Errorf("ingest: cannot write the index %s: %v", path, err)
-	}
-	if err := tmp.Chmod(0o644); err != nil {
-		return fmt.Errorf("ingest: cannot write the index %s: %v", path, err)
-	}
-	if err := tmp.Sync(); err != nil {
-		return fmt.Errorf("ingest: cannot write the index %s: %v", path, err)
-	}
-	if err := tmp.Close(); err != nil {
-		return fmt.Errorf("ingest: cannot write the index %s: %v", path, err)
-	}
-	if err := os.Rename(tmp.Name(), path); err != nil {
-		return fmt.Errorf("ingest: cannot move the index %s into place: %v", path, err)
-	}
-	ok = true
-	if d, err := os.Open(dir); err == nil {
-		d.Sync()
-		d.Close()
+	if err := atomicfile.WriteFile(path, data); err != nil {
+		return fmt.Errorf("ingest: cannot write the index %s: %w", path, err)
 	}
 	return nil
 }

@@ -8,12 +8,12 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 
 	"gopkg.in/yaml.v3"
 
 	"crestspeed/calib"
 	"crestspeed/ingest"
+	"crestspeed/internal/atomicfile"
 	"crestspeed/internal/cvshim"
 )
 
@@ -199,36 +199,11 @@ func ParseGeometry(data []byte, name string) (*Geometry, error) {
 	return g, nil
 }
 
-// writeFileAtomic writes data to path through a temporary file in the same
-// folder: written, synced and closed, renamed over path, and the folder
-// synced, so that path holds either the old or the whole new content.
+// writeFileAtomic writes data to path atomically and durably (see
+// internal/atomicfile): path holds either its old or its whole new content.
 func writeFileAtomic(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".part-*")
-	if err != nil {
-		return fmt.Errorf("surface: cannot write in %s: %v", dir, err)
-	}
-	name := tmp.Name()
-	err = tmp.Chmod(0o644)
-	if err == nil {
-		_, err = tmp.Write(data)
-	}
-	if err == nil {
-		err = tmp.Sync()
-	}
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(name, path)
-	}
-	if err != nil {
-		os.Remove(name)
-		return fmt.Errorf("surface: cannot write %s: %v", path, err)
-	}
-	if d, err := os.Open(dir); err == nil {
-		d.Sync()
-		d.Close()
+	if err := atomicfile.WriteFile(path, data); err != nil {
+		return fmt.Errorf("surface: cannot write %s: %w", path, err)
 	}
 	return nil
 }
