@@ -250,13 +250,10 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	case cfg.Frames != "" && (cfg.Left != "" || cfg.Right != ""):
 		return nil, usageError{fmt.Errorf("give either --frames or --left and --right, not both")}
 	}
-	units := ingest.DefaultTimeUnits
 	if cfg.StartUTC != "" {
-		st, err := time.Parse(time.RFC3339, cfg.StartUTC)
-		if err != nil {
+		if _, err := time.Parse(time.RFC3339, cfg.StartUTC); err != nil {
 			return nil, usageError{fmt.Errorf("--start (reconstruct.start_utc) %q is not an RFC 3339 instant like 2026-06-14T09:00:00Z", cfg.StartUTC)}
 		}
-		units = "seconds since " + st.UTC().Format("2006-01-02T15:04:05Z")
 	}
 	if err := c.Site.check(); err != nil {
 		return nil, usageError{err}
@@ -278,13 +275,25 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	if err := claimOutputs(c.Force, outputs...); err != nil {
 		return nil, err
 	}
-	spec := ingest.PairSpec{Dir: cfg.Frames, LeftGlob: cfg.Left, RightGlob: cfg.Right, TimestampsFile: cfg.Timestamps, FPS: cfg.FPS}
+	spec := ingest.PairSpec{Dir: cfg.Frames, LeftGlob: cfg.Left, RightGlob: cfg.Right, TimestampsFile: cfg.Timestamps, FPS: cfg.FPS, StartUTC: cfg.StartUTC}
 	first, err := ingest.OpenPairs(spec)
 	if err != nil {
 		return nil, usageError{err}
 	}
 	total := first.Len()
+	// The time base (how the times were read) and the absolute time of
+	// time 0 (start_utc, the utc column of the timestamps file, or the
+	// images' EXIF capture time) are printed and recorded in the maps.
+	units, originNote := ingest.DefaultTimeUnits, "none (times count from the record's own zero)"
+	if o, ok := first.Origin(); ok {
+		units, originNote = "seconds since "+o.UTC.UTC().Format("2006-01-02T15:04:05.999999999Z"), o.From
+	}
+	timeRule := first.TimeRule()
+	for _, it := range first.SkippedFiles().Items {
+		con.logf("reconstruct: skipped %s: %s %s", strings.Join(it.Files, ", "), it.Reason, it.Detail)
+	}
 	first.Close()
+	con.logf("reconstruct: times: %s; time 0: %s", timeRule, originNote)
 	open := func() (ingest.StereoSource, error) { return ingest.OpenPairs(spec) }
 
 	t0 := time.Now()
@@ -293,7 +302,7 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	opt.Progress = update
 	sink := &surface.FileSink{Path: out, PointsPath: pointsPath, Options: ingest.WriteOptions{
 		Deflate: cfg.Deflate, TimeUnits: units, DepthM: cfg.DepthM,
-		Attrs:    map[string]string{"rig_file": cfg.Rig, "site": c.Site.Name},
+		Attrs:    map[string]string{"rig_file": cfg.Rig, "site": c.Site.Name, "time_base": timeRule, "time_origin": originNote},
 		Platform: c.Site.Platform, Georef: c.Site.georef(),
 	}}
 	res, err := surface.Run(ctx, rig, open, opt, sink)

@@ -1,13 +1,18 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"encoding/csv"
 	"image"
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"crestspeed/calib"
 	"crestspeed/ingest"
@@ -52,6 +57,10 @@ func TestReconstructCommand(t *testing.T) {
 	if err := rig.Save(rigPath); err != nil {
 		t.Fatal(err)
 	}
+	// Give the timestamps file a utc column (ISO 8601 instants) 0.25 s
+	// after each time_s from a chosen instant: time 0 of the maps must come
+	// from it, and say so.
+	addUTCColumn(t, filepath.Join(dep, samples.DeploymentFramesDir, samples.DeploymentTimestamps), time.Date(2026, 3, 9, 6, 30, 0, 0, time.UTC))
 	maps := filepath.Join(out, "maps.nc")
 	_, stderr, err := run(t, "reconstruct", "--rig", rigPath, "--frames", filepath.Join(dep, samples.DeploymentFramesDir),
 		"--out", maps, "--plane-frames", "4", "--workers", "2")
@@ -71,6 +80,10 @@ func TestReconstructCommand(t *testing.T) {
 	src.Close()
 	if len(meta.Times) != 4 || meta.Attrs["sea_plane"] == "" || !strings.HasPrefix(meta.Attrs["grid"], "automatic") {
 		t.Errorf("elevation maps: %d frames, attributes %v", len(meta.Times), meta.Attrs)
+	}
+	if !strings.HasPrefix(meta.Attrs["time_origin"], ingest.OriginUTCColumn) || meta.Attrs["time_base"] == "" ||
+		meta.TimeUnits != "seconds since 2026-03-09T06:30:00.25Z" || !strings.Contains(stderr, "time 0: "+ingest.OriginUTCColumn) {
+		t.Errorf("time base %q, origin %q, units %q; log:\n%s", meta.Attrs["time_base"], meta.Attrs["time_origin"], meta.TimeUnits, stderr)
 	}
 	points, fitted := reconstructOutputs(maps)
 	if _, err := os.Stat(points); err != nil {
@@ -143,5 +156,42 @@ func TestReconstructUsageErrors(t *testing.T) {
 		if exitCode(err) != 2 {
 			t.Errorf("%v: exit status %d, want 2", c.args, exitCode(err))
 		}
+	}
+}
+
+// addUTCColumn rewrites a timestamps file (header frame,time_s,left,right)
+// with a utc column: start + time_s + 0.25 s, as ISO 8601 instants.
+func addUTCColumn(t *testing.T, path string, start time.Time) {
+	t.Helper()
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := csv.NewReader(bytes.NewReader(data))
+	rows, err := r.ReadAll()
+	if err != nil || len(rows) < 2 {
+		t.Fatalf("timestamps %s: %v", path, err)
+	}
+	col := slices.Index(rows[0], "time_s")
+	if col < 0 {
+		t.Fatalf("timestamps %s has no time_s column: %v", path, rows[0])
+	}
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	for i, row := range rows {
+		if i == 0 {
+			w.Write(append(row, "utc"))
+			continue
+		}
+		ts, err := strconv.ParseFloat(row[col], 64)
+		if err != nil {
+			t.Fatal(err)
+		}
+		at := start.Add(time.Duration((ts + 0.25) * float64(time.Second)))
+		w.Write(append(row, at.Format("2006-01-02T15:04:05.000Z")))
+	}
+	w.Flush()
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
 	}
 }
