@@ -420,8 +420,11 @@ func TestReconstructDeployment(t *testing.T) {
 		b, nb := medianRatioPeak(analyseFile(t, out, 0.1).Rows)
 		t.Logf("crests ≥ 0.1 Hm0: median c/c_p truth %.4f (%d rows), reconstructed %.4f (%d rows), %+.4f", a, na, b, nb, b-a)
 	}
-	if math.Abs(ssR.Hm0/ssT.Hm0-1) > 0.05 {
-		t.Errorf("Hm0 %.4f m is not within 5 %% of the truth's %.4f m", ssR.Hm0, ssT.Hm0)
+	// After the noise-floor correction the reconstruction's Hm0 must be that
+	// of the true maps within 2 % (measured: −1.3 %; before the correction
+	// the 3–4 cm reconstruction noise raised it by about 6 %).
+	if math.Abs(ssR.Hm0/ssT.Hm0-1) > 0.02 {
+		t.Errorf("Hm0 %.4f m is not within 2 %% of the truth's %.4f m", ssR.Hm0, ssT.Hm0)
 	}
 	if math.Abs(ssR.Fp-ssT.Fp) > df {
 		t.Errorf("peak frequency %.4f Hz is more than one bin (%.4f Hz) from the truth's %.4f Hz", ssR.Fp, df, ssT.Fp)
