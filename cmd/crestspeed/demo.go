@@ -27,7 +27,9 @@ the chain on it, and print what was measured next to the truth:
      pairs of the demo rig) → calibrate → reconstruct → track → report,
      in DIR/stereo;
   2. a long record of elevation maps with painted whitecaps → track →
-     crest and whitecap speeds, breaking statistics, report, in DIR/tracks.
+     crest and whitecap speeds, breaking statistics, report, in DIR/tracks;
+  3. the two pooled as a campaign of deployments → campaign report, in
+     DIR/campaign.
 
 Everything is synthetic; nothing here describes a real site.`,
 		Args: cobra.NoArgs,
@@ -70,7 +72,10 @@ func Demo(ctx context.Context, con *console, cfg Config) error {
 	if err != nil {
 		return err
 	}
-	return demoChain(ctx, con, cfg, dir, maps, truth)
+	if err := demoChain(ctx, con, cfg, dir, maps, truth); err != nil {
+		return err
+	}
+	return demoCampaign(ctx, con, cfg, dir)
 }
 
 // demoStereo renders a short stereo deployment of the demo rig (chessboard
