@@ -732,6 +732,15 @@ func (s *PairSource) Times() []float64 {
 	return t
 }
 
+// PairNames returns the left and right file names of pair i of the
+// record (in the source's order), "" for an index outside it.
+func (s *PairSource) PairNames(i int) (left, right string) {
+	if i < 0 || i >= len(s.items) {
+		return "", ""
+	}
+	return s.items[i].left, s.items[i].right
+}
+
 // Skipped returns the number of frames left out so far, by reason: those
 // found at open (no partner, no number, duplicates, malformed rows, times
 // that are not finite, out of span or out of order, files not listed) and

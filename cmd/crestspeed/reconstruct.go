@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"time"
@@ -334,7 +335,7 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 		con.logf("reconstruct: mean sea plane from the rig file: camera %.3f m above it", p.OffsetM)
 	}
 	g := s.Grid
-	con.logf("reconstruct: grid x %.2f–%.2f m, y %.2f–%.2f m, %d × %d cells of %g m (%s)",
+	con.logf("reconstruct: grid x %.2f–%.2f m, y %.2f–%.2f m, %d × %d cells of %.4g m (%s)",
 		g.X[0], g.X[len(g.X)-1], g.Y[0], g.Y[len(g.Y)-1], g.Nx(), g.Ny(), g.Dx(), s.GridNote)
 	con.logf("reconstruct: disparities %d to %d px%s; %d workers × %d OpenCV threads",
 		s.SGBM.MinDisparity, s.SGBM.MinDisparity+s.SGBM.NumDisparities-1, map[bool]string{true: " (residual about the sea plane's)", false: ""}[s.Prewarped],
@@ -344,6 +345,14 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 	}
 	for _, k := range sortedSkipReasons(res.Skipped) {
 		con.logf("reconstruct: skipped %d pairs: %s", res.Skipped[k], k)
+	}
+	for i, p := range res.SkippedPairs {
+		if i == maxNamedSkips {
+			con.logf("reconstruct: … and %d more skipped pairs", len(res.SkippedPairs)-i)
+			break
+		}
+		files := strings.Join(slices.DeleteFunc([]string{p.Left, p.Right}, func(s string) bool { return s == "" }), ", ")
+		con.logf("reconstruct: skipped pair %d (t = %.3f s) %s: %s", p.Index, p.TimeS, files, p.Reason)
 	}
 	tm := res.Times
 	if n := time.Duration(max(tm.Pairs, 1)); tm.Pairs > 0 {
@@ -359,6 +368,9 @@ func Reconstruct(ctx context.Context, con *console, c Config) (*surface.Result, 
 		res.Frames, 100*res.CoverageMean, 100*res.CoverageMin, written, elapsed(t0))
 	return res, nil
 }
+
+// maxNamedSkips is how many skipped pairs the log names one by one.
+const maxNamedSkips = 50
 
 // sortedSkipReasons lists skip reasons in a fixed order.
 func sortedSkipReasons(c ingest.SkipCounts) []string {

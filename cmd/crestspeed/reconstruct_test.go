@@ -195,3 +195,32 @@ func addUTCColumn(t *testing.T, path string, start time.Time) {
 		t.Fatal(err)
 	}
 }
+
+// A damaged first pair (its left PNG cut to a third) is skipped, counted
+// and named in the log with its files, like the same damage later in the
+// record; the other pairs are reconstructed and the run succeeds.
+func TestReconstructBadFirstPairSkippedAndNamed(t *testing.T) {
+	dep, _ := tinyDeployment(t)
+	frames := filepath.Join(dep, samples.DeploymentFramesDir)
+	lefts, err := filepath.Glob(filepath.Join(frames, "left_*"))
+	if err != nil || len(lefts) != 4 {
+		t.Fatalf("left frames %v, %v", lefts, err)
+	}
+	slices.Sort(lefts)
+	data, err := os.ReadFile(lefts[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(lefts[0], data[:len(data)/3], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	maps := filepath.Join(t.TempDir(), "maps.nc")
+	_, stderr, err := run(t, "reconstruct", "--rig", filepath.Join(dep, samples.DeploymentRig), "--frames", frames,
+		"--out", maps, "--plane-frames", "3", "--workers", "2")
+	if err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	if !strings.Contains(stderr, "skipped pair 0") || !strings.Contains(stderr, lefts[0]) || !strings.Contains(stderr, "3 maps") {
+		t.Errorf("the damaged first pair is not skipped and named:\n%s", stderr)
+	}
+}
