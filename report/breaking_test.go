@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"context"
+	"crestspeed/internal/pyref"
 	"crestspeed/speed/analysis"
 	"encoding/base64"
 	"encoding/json"
@@ -157,6 +158,27 @@ func TestBreakingReport(t *testing.T) {
 	res, err := WriteReport(out, d, opt)
 	if err != nil {
 		t.Fatal(err)
+	}
+
+	// whitecap_tracks.nc: CF-1.8 trajectories, one per whitecap, read by
+	// xarray (decode_cf, with warnings as errors) with the rows and
+	// whitecaps of whitecaps.csv.
+	var wc struct {
+		Trajectories, Obs   int
+		FeatureType, CFRole string
+	}
+	pyref.JSON(t, `
+import json, sys, warnings
+import netCDF4  # imported first: Debian's build warns of a numpy header size on import
+import xarray as xr
+warnings.simplefilter("error")
+d = json.load(sys.stdin)
+ds = xr.open_dataset(d["nc"])
+print(json.dumps({"Trajectories": ds.sizes["trajectory"], "Obs": ds.sizes["obs"],
+    "FeatureType": ds.attrs.get("featureType", ""), "CFRole": ds["trajectory_id"].attrs.get("cf_role", "")}))
+`, map[string]any{"nc": filepath.Join(out, "whitecap_tracks.nc")}, &wc)
+	if wc.Trajectories != ws.Whitecaps || wc.Obs != ws.Rows || wc.FeatureType != "trajectory" || wc.CFRole != "trajectory_id" {
+		t.Errorf("whitecap_tracks.nc: %+v; want %d whitecaps in %d rows as CF trajectories", wc, ws.Whitecaps, ws.Rows)
 	}
 
 	// figures: the six of the crest speeds, then the four of this section

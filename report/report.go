@@ -68,8 +68,9 @@ var TrackOutputs = []string{"crests.csv", "tracks.csv", "spectrum.csv", "summary
 var whitecapOutputs = []string{"whitecaps.csv", "lambda.csv", "coverage.csv", "gauge_spectrum.csv"}
 
 // ReportOutputs are what WriteReport puts in its folder (besides
-// summary.json): the page, the CF trajectories and the figures folder.
-var ReportOutputs = []string{"report.html", "crest_tracks.nc", "figures"}
+// summary.json): the page, the CF trajectories (whitecap_tracks.nc only
+// when the record has whitecaps) and the figures folder.
+var ReportOutputs = []string{"report.html", "crest_tracks.nc", "whitecap_tracks.nc", "figures"}
 
 // Defaults and bounds of the options.
 const (

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -215,17 +216,34 @@ func minFinite(v []float64) float64 {
 	return m
 }
 
-// writeTrajectories writes crest_tracks.nc into the file set.
+// writeTrajectories writes crest_tracks.nc into the file set, and
+// whitecap_tracks.nc when the deployment has whitecap rows; a
+// whitecap_tracks.nc of an earlier report without whitecaps is removed.
 func writeTrajectories(fs *fileSet, dir string, d *Deployment, version string) error {
-	tmp, err := fs.reserve(dir, "crest_tracks.nc")
-	if err != nil {
-		return err
-	}
 	rs := d.Summary.Record
-	if err := cf.WriteTrajectories(tmp, d.Crests, cf.TrajectoryInfo{
-		TimeUnits: rs.TimeUnits, Title: rs.Title, Site: rs.Attributes["site"], Source: "crestspeed " + version,
-	}); err != nil {
-		return fmt.Errorf("cannot write %s: %w", filepath.Join(dir, "crest_tracks.nc"), err)
+	info := cf.TrajectoryInfo{TimeUnits: rs.TimeUnits, Title: rs.Title, Site: rs.Attributes["site"], Source: "crestspeed " + version}
+	files := []struct {
+		name string
+		coll cf.Collection
+		rows *table.Table
+	}{{"crest_tracks.nc", cf.Crests, d.Crests}}
+	if d.Whitecaps != nil && d.Whitecaps.Rows != nil && d.Whitecaps.Rows.Len() > 0 {
+		files = append(files, struct {
+			name string
+			coll cf.Collection
+			rows *table.Table
+		}{"whitecap_tracks.nc", cf.Whitecaps, cf.ByTrajectory(d.Whitecaps.Rows, cf.Whitecaps)})
+	} else if err := os.Remove(filepath.Join(dir, "whitecap_tracks.nc")); err != nil && !errors.Is(err, os.ErrNotExist) {
+		return fmt.Errorf("cannot remove the stale %s: %w", filepath.Join(dir, "whitecap_tracks.nc"), err)
+	}
+	for _, f := range files {
+		tmp, err := fs.reserve(dir, f.name)
+		if err != nil {
+			return err
+		}
+		if err := cf.WriteCollection(tmp, f.coll, f.rows, info); err != nil {
+			return fmt.Errorf("cannot write %s: %w", filepath.Join(dir, f.name), err)
+		}
 	}
 	return nil
 }
@@ -261,6 +279,9 @@ func finishSummary(sum *Summary, d *Deployment, res *Result, dir string, bounds 
 	}
 	for _, name := range []string{"summary.json", "report.html", "crest_tracks.nc"} {
 		sum.Outputs[name] = abs(filepath.Join(dir, name))
+	}
+	if d.Whitecaps != nil && d.Whitecaps.Rows != nil && d.Whitecaps.Rows.Len() > 0 {
+		sum.Outputs["whitecap_tracks.nc"] = abs(filepath.Join(dir, "whitecap_tracks.nc"))
 	}
 	for _, f := range res.Figures {
 		for _, ext := range []string{".png", ".svg"} {

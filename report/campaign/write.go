@@ -6,7 +6,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"sort"
 	"strings"
 	"time"
 
@@ -237,7 +236,7 @@ func writeTrajectories(set *outputSet, res *Result) error {
 	for i, d := range res.Deployments {
 		crests = append(crests, cf.Part{Rows: d.Crests, TimeOffset: res.Offsets[i]})
 		if d.Whitecaps != nil && d.Whitecaps.Rows.Len() > 0 {
-			wcs = append(wcs, cf.Part{Rows: byTrajectory(d.Whitecaps.Rows, table.WhitecapID, table.WhitecapTime), TimeOffset: res.Offsets[i]})
+			wcs = append(wcs, cf.Part{Rows: cf.ByTrajectory(d.Whitecaps.Rows, cf.Whitecaps), TimeOffset: res.Offsets[i]})
 		} else {
 			wcs = append(wcs, cf.Part{Rows: table.New(table.Whitecaps, 0)})
 		}
@@ -290,42 +289,6 @@ func commonSite(res *Result) string {
 		site = s
 	}
 	return site
-}
-
-// byTrajectory returns t with the rows of a trajectory together in time
-// order (stable), as the contiguous ragged array needs; t itself when they
-// already are.
-func byTrajectory(t *table.Table, id, tm int) *table.Table {
-	ids, ts := t.Cols[id], t.Cols[tm]
-	less := func(i, j int) bool {
-		if ids[i] != ids[j] {
-			return ids[i] < ids[j]
-		}
-		return ts[i] < ts[j]
-	}
-	sorted := true
-	seen := map[float64]bool{}
-	for i := range ids {
-		if i > 0 && ids[i] != ids[i-1] && seen[ids[i]] || i > 0 && ids[i] == ids[i-1] && ts[i] < ts[i-1] {
-			sorted = false
-			break
-		}
-		seen[ids[i]] = true
-	}
-	if sorted {
-		return t
-	}
-	c := &table.Table{Schema: t.Schema, Cols: make([][]float64, len(t.Cols))}
-	for k := range t.Cols {
-		c.Cols[k] = append([]float64(nil), t.Cols[k]...)
-	}
-	perm := make([]int, len(ids))
-	for k := range perm {
-		perm[k] = k
-	}
-	sort.SliceStable(perm, func(a, b int) bool { return less(perm[a], perm[b]) })
-	c.Permute(perm)
-	return c
 }
 
 // figureInput is what the campaign figures are drawn from.

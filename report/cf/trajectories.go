@@ -6,6 +6,7 @@ package cf
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strings"
 	"time"
 
@@ -62,7 +63,50 @@ var (
 // values as NaN (_FillValue NaN). The file appears at path complete or not
 // at all.
 func WriteTrajectories(path string, t *table.Table, info TrajectoryInfo) error {
-	return write(path, Crests, []Part{{Rows: t}}, info, false)
+	return WriteCollection(path, Crests, t, info)
+}
+
+// WriteCollection writes the rows of one deployment's table of collection
+// c (Crests or Whitecaps; the rows of a trajectory together and in time
+// order, see ByTrajectory) as WriteTrajectories writes crest tracks.
+func WriteCollection(path string, c Collection, t *table.Table, info TrajectoryInfo) error {
+	return write(path, c, []Part{{Rows: t}}, info, false)
+}
+
+// ByTrajectory returns t with the rows of a trajectory together in time
+// order (stable), as the contiguous ragged array needs; t itself when they
+// already are.
+func ByTrajectory(t *table.Table, c Collection) *table.Table {
+	ids, ts := t.Cols[c.ID], t.Cols[c.Time]
+	less := func(i, j int) bool {
+		if ids[i] != ids[j] {
+			return ids[i] < ids[j]
+		}
+		return ts[i] < ts[j]
+	}
+	sorted := true
+	seen := map[float64]bool{}
+	for i := range ids {
+		if i > 0 && ids[i] != ids[i-1] && seen[ids[i]] || i > 0 && ids[i] == ids[i-1] && ts[i] < ts[i-1] {
+			sorted = false
+			break
+		}
+		seen[ids[i]] = true
+	}
+	if sorted {
+		return t
+	}
+	out := &table.Table{Schema: t.Schema, Cols: make([][]float64, len(t.Cols))}
+	for k := range t.Cols {
+		out.Cols[k] = append([]float64(nil), t.Cols[k]...)
+	}
+	perm := make([]int, len(ids))
+	for k := range perm {
+		perm[k] = k
+	}
+	sort.SliceStable(perm, func(a, b int) bool { return less(perm[a], perm[b]) })
+	out.Permute(perm)
+	return out
 }
 
 // Part is the rows of one deployment in a pooled trajectory file.
