@@ -125,13 +125,12 @@ type runIdentity struct {
 	Rig        string `json:"rig"`
 	CalibLeft  string `json:"calibrate_left,omitempty"`
 	CalibRight string `json:"calibrate_right,omitempty"`
-	Site       string `json:"site,omitempty"`
 }
 
 func identityOf(cfg Config) runIdentity {
 	r := cfg.Reconstruct
 	return runIdentity{Format: identityFormat, Frames: r.Frames, Left: r.Left, Right: r.Right, Timestamps: r.Timestamps,
-		Rig: r.Rig, CalibLeft: cfg.Calibrate.Left, CalibRight: cfg.Calibrate.Right, Site: cfg.Site.Name}
+		Rig: r.Rig, CalibLeft: cfg.Calibrate.Left, CalibRight: cfg.Calibrate.Right}
 }
 
 // describe names the deployment in a few words, for messages.
@@ -757,6 +756,9 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 		if err := claimOutputs(true, outs...); err != nil {
 			return err
 		}
+		if err := removeWriterTemps(outs...); err != nil {
+			return err
+		}
 		units := ingest.DefaultTimeUnits
 		if st := c.Reconstruct.StartUTC; st != "" {
 			t, err := time.Parse(time.RFC3339, st)
@@ -771,7 +773,7 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 			Platform: c.Site.Platform, Georef: c.Site.georef(), Created: s.created,
 		}}
 		update, stop := con.passes()
-		opt.Progress = func(pass string, done, total int) { update(s.Name+" "+pass, done, total) }
+		opt.Progress = hookPasses(s.Name, func(pass string, done, total int) { update(s.Name+" "+pass, done, total) })
 		res, err := surface.WritePart(ctx, rig, open, geom, opt, s.first, s.last, sink)
 		stop()
 		if err != nil {
@@ -804,7 +806,7 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 		}
 		cc := c
 		cc.Out = tracks
-		_, err := Track(ctx, con, cc)
+		_, err := track(ctx, con, cc, true)
 		return err
 	}
 	return fmt.Errorf("unknown step kind %q", s.kind)
@@ -835,3 +837,37 @@ func wantPart(k int) func(runStep) bool {
 	return func(s runStep) bool { return s.kind == stepPart && s.part == k }
 }
 func wantAll(runStep) bool { return true }
+
+// passHook, when set, sees every progress update of the reconstruction of a
+// part and of tracking, with the step's name: a test uses it to stop a run
+// at a known point of its work.
+var passHook func(step, pass string, done, total int)
+
+// hookPasses returns update, seen by passHook first when one is set.
+func hookPasses(step string, update func(pass string, done, total int)) func(pass string, done, total int) {
+	if passHook == nil {
+		return update
+	}
+	return func(pass string, done, total int) {
+		passHook(step, pass, done, total)
+		update(pass, done, total)
+	}
+}
+
+// removeWriterTemps removes the temporaries the NetCDF writer
+// (internal/netcdf) leaves beside a file when its process is killed:
+// NAME.part-<16 hex digits>.
+func removeWriterTemps(paths ...string) error {
+	for _, p := range paths {
+		matches, err := filepath.Glob(p + ".part-" + strings.Repeat("[0-9a-f]", 16))
+		if err != nil {
+			return err
+		}
+		for _, m := range matches {
+			if err := os.Remove(m); err != nil && !errors.Is(err, fs.ErrNotExist) {
+				return fmt.Errorf("cannot remove the temporary %s of a stopped run: %w", m, err)
+			}
+		}
+	}
+	return nil
+}
