@@ -57,7 +57,7 @@ func runStatus(ctx context.Context, dir string) ([]stepState, error) {
 	if err != nil {
 		return nil, err
 	}
-	steps, err := buildSteps(c, rp)
+	steps, err := buildSteps(c, rp, nil)
 	if err != nil {
 		return nil, err
 	}
