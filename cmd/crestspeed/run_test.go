@@ -217,6 +217,28 @@ func mustRead(t *testing.T, path string) []byte {
 	return b
 }
 
+func TestPlanParts(t *testing.T) {
+	c := defaultConfig()
+	for _, tc := range []struct {
+		pairs, parts, cfgParts, per int
+		want                        [][2]int
+	}{
+		{10, 3, 0, 0, [][2]int{{0, 4}, {4, 7}, {7, 10}}},
+		{10, 0, 2, 0, [][2]int{{0, 5}, {5, 10}}},
+		{2500, 0, 0, 0, [][2]int{{0, 834}, {834, 1667}, {1667, 2500}}}, // 1000 pairs a part: 3 parts
+		{2000, 0, 0, 0, [][2]int{{0, 1000}, {1000, 2000}}},
+		{5, 0, 0, 2, [][2]int{{0, 2}, {2, 4}, {4, 5}}},
+		{3, 8, 0, 0, [][2]int{{0, 1}, {1, 2}, {2, 3}}}, // never more parts than pairs
+		{0, 3, 0, 0, nil},
+	} {
+		c.Run.Parts, c.Run.PairsPerPart = tc.cfgParts, tc.per
+		got := planParts(c, tc.pairs, tc.parts)
+		if fmt.Sprint(got) != fmt.Sprint(tc.want) {
+			t.Errorf("planParts(%d pairs, %d parts, run.parts %d, per %d) = %v, want %v", tc.pairs, tc.parts, tc.cfgParts, tc.per, got, tc.want)
+		}
+	}
+}
+
 // doneSteps lists the steps a run's log says it did, in order.
 func doneSteps(log string) []string {
 	var out []string
@@ -295,6 +317,64 @@ func TestRunKilled(t *testing.T) {
 			compareRunTrees(t, ref, out)
 		})
 	}
+	// The steps one by one, as cluster jobs do them: the parts in any
+	// order, the same files.
+	t.Run("run-step", func(t *testing.T) {
+		if err := os.RemoveAll(out); err != nil {
+			t.Fatal(err)
+		}
+		c := defaultConfig()
+		c.Reconstruct.Frames = filepath.Join(dep, samples.DeploymentFramesDir)
+		c.Reconstruct.Rig = filepath.Join(dep, samples.DeploymentRig)
+		c.Out, c.Workers, c.Run.Parts = out, 2, 3
+		var log bytes.Buffer
+		n, err := prepareRun(context.Background(), &console{stdout: &log, stderr: &log}, c)
+		if err != nil || n != 3 {
+			t.Fatalf("prepareRun: %d parts, %v", n, err)
+		}
+		if _, err := os.Stat(filepath.Join(out, runGeometryName)); err == nil {
+			t.Errorf("prepareRun settled the record; it should only plan it")
+		}
+		_, _, err = run(t, "run-step", "--out", out, "--step", "part", "--part", "1")
+		checkSentence(t, err, "settle", "--step prepare")
+		if exitCode(err) != 3 {
+			t.Errorf("a part before the settling: exit %d, want 3", exitCode(err))
+		}
+		for _, args := range [][]string{{"prepare"}, {"part", "--part", "2"}, {"part", "--part", "0"}, {"finish"}} {
+			_, stderr, err := run(t, append([]string{"run-step", "--out", out, "--workers", "2", "--step"}, args...)...)
+			if len(args) == 1 && args[0] == "finish" {
+				checkSentence(t, err, "part-0001", "--step part --part 1")
+				continue
+			}
+			if err != nil {
+				t.Fatalf("run-step %v: %v\n%s", args, err, stderr)
+			}
+		}
+		for _, args := range [][]string{{"part", "--part", "1"}, {"part", "--part", "1"}, {"finish"}} {
+			_, stderr, err := run(t, append([]string{"run-step", "--out", out, "--workers", "2", "--step"}, args...)...)
+			if err != nil {
+				t.Fatalf("run-step %v: %v\n%s", args, err, stderr)
+			}
+			if args[0] == "part" && strings.Contains(stderr, "nothing to do") == (doneSteps(stderr) != nil) {
+				t.Errorf("run-step %v:\n%s", args, stderr)
+			}
+		}
+		_, _, err = run(t, "run-step", "--out", out, "--step", "part", "--part", "3")
+		checkSentence(t, err, "part 3 does not exist", "0 to 2")
+		compareRunTrees(t, ref, out)
+
+		// Fewer parts: the files of the part that is no more go.
+		_, stderr, err := run(t, "run", "--config", cfg, "--out", out, "--parts", "2", "--workers", "2")
+		if err != nil {
+			t.Fatalf("%v\n%s", err, stderr)
+		}
+		if _, err := os.Stat(filepath.Join(out, "parts", "part-0002.nc")); err == nil {
+			t.Errorf("part-0002.nc is left after the run was planned in 2 parts")
+		}
+		if got := doneSteps(stderr); strings.Join(got, ",") != "part-0000,part-0001,index,track" {
+			t.Errorf("in 2 parts the run did %v:\n%s", got, stderr)
+		}
+	})
 }
 
 // killRunAt starts a run in a child process, waits until it stalls in the

@@ -255,6 +255,9 @@ func prepareRun(ctx context.Context, con *console, cfg Config) (nParts int, err 
 		}
 	}
 	ranges := planParts(c, n, 0)
+	if err := dropPartsFrom(dir, len(ranges)); err != nil {
+		return 0, err
+	}
 	rp := runParts{Format: partsFormat, Pairs: n}
 	for k, r := range ranges {
 		rp.Parts = append(rp.Parts, partRange{Name: partName(k), First: r[0], Last: r[1]})
@@ -666,6 +669,9 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 		if !want(s) {
 			continue
 		}
+		if err := checkBefore(plan, s, steps[:i], want); err != nil {
+			return err
+		}
 		ok, why, err := plan.Check(s.Step, false)
 		if err != nil {
 			return err
@@ -704,6 +710,32 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 		log.logf("run: %d steps done in %s; kept %s, up to date", did, elapsed(t0), describeSteps(kept))
 	default:
 		log.logf("run: %d steps done in %s", did, elapsed(t0))
+	}
+	return nil
+}
+
+// checkBefore refuses to do s when a step it depends on, not done by this
+// invocation, is not up to date: a part needs the settled geometry (not
+// the other parts), the index every part.
+func checkBefore(plan runplan.Plan, s runStep, before []runStep, want func(runStep) bool) error {
+	for _, b := range before {
+		if want(b) || (s.kind == stepPart && b.kind == stepPart) {
+			continue
+		}
+		ok, why, err := plan.Check(b.Step, false)
+		if err != nil {
+			return err
+		}
+		if !ok {
+			group := "prepare"
+			switch b.kind {
+			case stepPart:
+				group = fmt.Sprintf("part --part %d", b.part)
+			case stepIndex, stepTrack:
+				group = "finish"
+			}
+			return incompleteError{fmt.Errorf("step %s is not up to date (%s); do it first (crestspeed run-step --step %s)", b.Name, why, group)}
+		}
 	}
 	return nil
 }
@@ -921,4 +953,27 @@ func removeWriterTemps(paths ...string) error {
 		}
 	}
 	return nil
+}
+
+// dropPartsFrom removes the files and records of the parts numbered n and
+// above, left by an earlier plan of the run with more parts.
+func dropPartsFrom(dir string, n int) error {
+	plan := runplan.Plan{Dir: dir}
+	for k := n; ; k++ {
+		name := partName(k)
+		files := []string{filepath.Join(dir, runPartsDir, name+".nc"), filepath.Join(dir, runPartsDir, name+"-points.nc")}
+		_, errRec := plan.Load(name)
+		_, errFile := os.Stat(files[0])
+		if errors.Is(errRec, fs.ErrNotExist) && errors.Is(errFile, fs.ErrNotExist) {
+			return nil
+		}
+		for _, f := range append(files, failedPath(dir, name)) {
+			if err := os.Remove(f); err != nil && !errors.Is(err, fs.ErrNotExist) {
+				return fmt.Errorf("cannot remove %s of the earlier plan of the run: %w", f, err)
+			}
+		}
+		if err := plan.Forget(name); err != nil {
+			return err
+		}
+	}
 }
