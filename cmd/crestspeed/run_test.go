@@ -41,24 +41,31 @@ func TestMain(m *testing.M) {
 	os.Exit(code)
 }
 
+// smallDeployment is the deployment of the run tests, its sea drawn with
+// the given seed.
+func smallDeployment(seed uint64) samples.Deployment {
+	d := samples.DemoDeployment()
+	d.ImageSize = image.Pt(640, 512)
+	d.DepressionDeg = 45
+	d.Sea.JONSWAP.HsM = 0.6
+	d.Sea.JONSWAP.TpS = 2.8
+	d.Sea.JONSWAP.Seed = seed
+	d.FPS = 4
+	d.Frames = 16
+	d.CalibrationViews = 1
+	return d
+}
+
 func runDeploymentDir(t *testing.T) string {
 	t.Helper()
 	runDep.once.Do(func() {
-		d := samples.DemoDeployment()
-		d.ImageSize = image.Pt(640, 512)
-		d.DepressionDeg = 45
-		d.Sea.JONSWAP.HsM = 0.6
-		d.Sea.JONSWAP.TpS = 2.8
-		d.FPS = 4
-		d.Frames = 16
-		d.CalibrationViews = 1
 		base, err := os.MkdirTemp("", "crestspeed-run-test-")
 		if err != nil {
 			runDep.err = err
 			return
 		}
 		runDep.dir = filepath.Join(base, "dep")
-		_, runDep.err = samples.WriteDeployment(context.Background(), d, runDep.dir, 2, nil)
+		_, runDep.err = samples.WriteDeployment(context.Background(), smallDeployment(samples.DemoDeployment().Sea.JONSWAP.Seed), runDep.dir, 2, nil)
 	})
 	if runDep.err != nil {
 		t.Fatal(runDep.err)
@@ -206,6 +213,52 @@ func TestRunResumable(t *testing.T) {
 	checkSentence(t, err, junk, "holds no crestspeed run")
 	_, _, err = run(t, "status", junk)
 	checkSentence(t, err, junk, "holds no crestspeed run")
+}
+
+// Several deployment files in one run: each into its own folder, then the
+// campaign report; a rerun does nothing; a tracking setting changed in one
+// file redoes that deployment's tracking and the campaign only.
+func TestRunCampaign(t *testing.T) {
+	depA := runDeploymentDir(t)
+	base := t.TempDir()
+	depB := filepath.Join(base, "dep-b")
+	if _, err := samples.WriteDeployment(context.Background(), smallDeployment(424242), depB, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+	a, b := filepath.Join(base, "north.yaml"), filepath.Join(base, "south.yaml")
+	writeRunConfig(t, depA, a)
+	writeRunConfig(t, depB, b)
+	out := filepath.Join(base, "campaign-run")
+	args := []string{"run", "--out", out, "--parts", "2", "--workers", "2", a, b}
+	if _, stderr, err := run(t, args...); err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	for _, f := range []string{"north/tracks/summary.json", "south/parts/part-0001.nc", "campaign/report.html", "campaign/deployments.csv"} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Errorf("the campaign run did not write %s: %v", f, err)
+		}
+	}
+	csv := string(mustRead(t, filepath.Join(out, "campaign", "deployments.csv")))
+	if n := strings.Count(strings.TrimSpace(csv), "\n"); n != 2 {
+		t.Errorf("deployments.csv has %d rows, want 2:\n%s", n, csv)
+	}
+	_, stderr, err := run(t, args...)
+	if err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	if strings.Count(stderr, "nothing to do") != 2 || !strings.Contains(stderr, "campaign report") || !strings.Contains(stderr, "up to date") || doneSteps(stderr) != nil {
+		t.Errorf("the second campaign run did something:\n%s", stderr)
+	}
+	writeRunConfig(t, depB, b, "track:", "  max_gap_frames: 3")
+	_, stderr, err = run(t, args...)
+	if err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	if got := doneSteps(stderr); strings.Join(got, ",") != "track,campaign" {
+		t.Errorf("after a change in south.yaml the run did %v, want track (of south) and campaign:\n%s", got, stderr)
+	}
+	_, _, err = run(t, "run", "--out", out, a, filepath.Join(base, "sub", "north.yaml"))
+	checkSentence(t, err, "same name", "north")
 }
 
 func mustRead(t *testing.T, path string) []byte {
