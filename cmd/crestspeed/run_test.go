@@ -350,7 +350,16 @@ func TestRunKilled(t *testing.T) {
 			if err := os.RemoveAll(out); err != nil {
 				t.Fatal(err)
 			}
-			killRunAt(t, c.stall, runArgs(cfg, out))
+			killRunAt(t, c.stall, runArgs(cfg, out), func() {
+				// While the child holds the step: status says so, and a
+				// second run is refused rather than doing it twice.
+				stdout, _, err := run(t, "status", out)
+				if exitCode(err) != 3 || !strings.Contains(stdout, fmt.Sprintf("%-10s running", c.stall)) {
+					t.Errorf("status during the run: %v (exit %d)\n%s", err, exitCode(err), stdout)
+				}
+				_, _, err = run(t, runArgs(cfg, out)...)
+				checkSentence(t, err, c.stall, "another crestspeed process")
+			})
 			if c.stall == "part-0001" {
 				if _, err := os.Stat(filepath.Join(out, "parts", "part-0001.nc")); err == nil {
 					t.Errorf("a part killed in the middle is there")
@@ -431,8 +440,8 @@ func TestRunKilled(t *testing.T) {
 }
 
 // killRunAt starts a run in a child process, waits until it stalls in the
-// named step and kills it with SIGKILL.
-func killRunAt(t *testing.T, stall string, args []string) {
+// named step, calls whileStalled and kills the child with SIGKILL.
+func killRunAt(t *testing.T, stall string, args []string, whileStalled func()) {
 	t.Helper()
 	cmd := exec.Command(os.Args[0], "-test.run=^TestRunChildProcess$", "-test.count=1")
 	cmd.Env = append(os.Environ(), "RUNTEST_CHILD=1", "RUNTEST_STALL="+stall, "RUNTEST_ARGS="+strings.Join(args, "\x1f"))
@@ -466,6 +475,7 @@ func killRunAt(t *testing.T, stall string, args []string) {
 		cmd.Wait()
 		t.Fatalf("the child run did not reach %s in 90 s", stall)
 	}
+	whileStalled()
 	if err := cmd.Process.Signal(syscall.SIGKILL); err != nil {
 		t.Fatal(err)
 	}
@@ -533,7 +543,7 @@ print("same" if repr(load(sys.argv[1])) == repr(load(sys.argv[2])) else "differe
 func compareRunTrees(t *testing.T, ref, got string) {
 	t.Helper()
 	skip := func(rel string) bool {
-		return rel == "run.log" || strings.HasPrefix(rel, "logs/") || strings.HasPrefix(rel, ".crestspeed/steps/")
+		return rel == "run.log" || strings.HasPrefix(rel, "logs/") || strings.HasPrefix(rel, ".crestspeed/steps/") || strings.HasPrefix(rel, ".crestspeed/locks/")
 	}
 	files := map[string]bool{}
 	for _, root := range []string{ref, got} {
