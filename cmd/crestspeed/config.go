@@ -48,6 +48,7 @@ type Config struct {
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
 	Grid        GridConfig        `yaml:"grid"`
+	Run         RunConfig         `yaml:"run"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -90,6 +91,7 @@ func defaultConfig() Config {
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
 		Grid:        defaultGridConfig(),
+		Run:         RunConfig{PairsPerPart: defaultPairsPerPart},
 	}
 }
 
