@@ -34,6 +34,7 @@ package report
 
 import (
 	"fmt"
+	"time"
 
 	"crestspeed/report/stats"
 	"crestspeed/report/summary"
@@ -105,6 +106,13 @@ type Options struct {
 	SteepnessBounds []float64 `yaml:"-"`
 	// Version is the version of the tool writing the report.
 	Version string `yaml:"-"`
+	// Created is the time the report says it was made (the page's
+	// "generated" line, the history of the trajectory files); zero means
+	// now. Reproducible leaves the wall-clock timings out of summary.json
+	// and the page, so that the same inputs give the same bytes (the steps
+	// of a resumable run).
+	Created      time.Time `yaml:"-"`
+	Reproducible bool      `yaml:"-"`
 }
 
 // DefaultOptions are the options by default.

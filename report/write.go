@@ -76,7 +76,7 @@ func WriteReport(dir string, d *Deployment, opt Options) (*Result, error) {
 	var fs fileSet
 	defer fs.abort()
 	t0 = time.Now()
-	if err := writeTrajectories(&fs, dir, d, opt.Version); err != nil {
+	if err := writeTrajectories(&fs, dir, d, opt.Version, opt.Created); err != nil {
 		return nil, err
 	}
 	timings["report: trajectories NetCDF"] = time.Since(t0).Seconds()
@@ -88,12 +88,16 @@ func WriteReport(dir string, d *Deployment, opt Options) (*Result, error) {
 		}
 	}
 	finishSummary(sum, d, res, dir, bounds, opt)
-	for k, v := range timings {
-		sum.Timings[k] = v
+	if opt.Reproducible {
+		clear(sum.Timings)
+	} else {
+		for k, v := range timings {
+			sum.Timings[k] = v
+		}
+		sum.Timings["report"] = time.Since(started).Seconds()
 	}
-	sum.Timings["report"] = time.Since(started).Seconds()
 	html, err := page.Render(page.Input{Summary: sum, Crests: d.Crests, Figures: res.Figures, Notes: notes(res.Breaking),
-		Bounds: bounds, Resamples: opt.Bootstrap.Resamples, Seed: opt.Bootstrap.Seed, Version: opt.Version, MinClassTracks: opt.MinClassTracks})
+		Bounds: bounds, Resamples: opt.Bootstrap.Resamples, Seed: opt.Bootstrap.Seed, Version: opt.Version, MinClassTracks: opt.MinClassTracks, Generated: opt.Created})
 	if err != nil {
 		return nil, err
 	}
@@ -219,9 +223,9 @@ func minFinite(v []float64) float64 {
 // writeTrajectories writes crest_tracks.nc into the file set, and
 // whitecap_tracks.nc when the deployment has whitecap rows; a
 // whitecap_tracks.nc of an earlier report without whitecaps is removed.
-func writeTrajectories(fs *fileSet, dir string, d *Deployment, version string) error {
+func writeTrajectories(fs *fileSet, dir string, d *Deployment, version string, created time.Time) error {
 	rs := d.Summary.Record
-	info := cf.TrajectoryInfo{TimeUnits: rs.TimeUnits, Title: rs.Title, Site: rs.Attributes["site"], Source: "crestspeed " + version}
+	info := cf.TrajectoryInfo{TimeUnits: rs.TimeUnits, Title: rs.Title, Site: rs.Attributes["site"], Source: "crestspeed " + version, Created: created}
 	files := []struct {
 		name string
 		coll cf.Collection

@@ -89,15 +89,16 @@ func Report(ctx context.Context, con *console, cfg Config) error {
 		return err
 	}
 	con.logf("report: %d crest rows from %s", d.Crests.Len(), rc.Tracks)
-	return writeReport(con, cfg, d, out, started)
+	return writeReport(con, cfg, d, out, started, time.Time{})
 }
 
 func init() { extraCommands = append(extraCommands, newReportCmd) }
 
 // writeReport writes the report of d into dir and prints where it is.
-func writeReport(con *console, cfg Config, d *report.Deployment, dir string, started time.Time) error {
+func writeReport(con *console, cfg Config, d *report.Deployment, dir string, started, created time.Time) error {
 	opt := cfg.Report.options()
 	opt.Bootstrap.Workers = cfg.Workers
+	opt.Created, opt.Reproducible = created, !created.IsZero()
 	res, err := report.WriteReport(dir, d, opt)
 	if err != nil {
 		return err

@@ -465,6 +465,13 @@ func buildSteps(c Config, rp runParts, rf *recordFiles) ([]runStep, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The report says it was made when its newest input was: the newest
+	// part's creation time, so that a rerun writes the same bytes.
+	for _, p := range parts {
+		if p.created.After(st.created) {
+			st.created = p.created
+		}
+	}
 	return append(steps, st), nil
 }
 
@@ -895,7 +902,7 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 		}
 		cc := c
 		cc.Out = tracks
-		_, err := track(ctx, con, cc, true)
+		_, err := track(ctx, con, cc, s.created)
 		return err
 	}
 	return fmt.Errorf("unknown step kind %q", s.kind)

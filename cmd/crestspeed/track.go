@@ -107,13 +107,15 @@ func checkTrack(cfg Config) error {
 // Track runs the crest analysis of the elevation-map file cfg.Track.Input
 // into the folder cfg.Out, then the report unless cfg.Track.Report is off.
 func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, error) {
-	return track(ctx, con, cfg, false)
+	return track(ctx, con, cfg, time.Time{})
 }
 
-// track is Track; with reproducible the wall times of the passes go to the
-// log instead of summary.json, so that the same inputs give the same bytes
-// (the steps of "run").
-func track(ctx context.Context, con *console, cfg Config, reproducible bool) (*report.Summary, error) {
+// track is Track. A non-zero created makes the outputs reproducible (the
+// steps of "run"): the wall times of the passes go to the log instead of
+// summary.json and the page, and the report says it was made at created,
+// so that the same inputs give the same bytes.
+func track(ctx context.Context, con *console, cfg Config, created time.Time) (*report.Summary, error) {
+	reproducible := !created.IsZero()
 	if err := checkTrack(cfg); err != nil {
 		return nil, err
 	}
@@ -185,7 +187,7 @@ func track(ctx context.Context, con *console, cfg Config, reproducible bool) (*r
 	printBreaking(con, sum)
 	con.logf("track: wrote %s in %s", dir, elapsed(started))
 	if tc.Report {
-		if err := writeReport(con, cfg, report.DeploymentFromRecord(rec, sum, dir), dir, time.Now()); err != nil {
+		if err := writeReport(con, cfg, report.DeploymentFromRecord(rec, sum, dir), dir, time.Now(), created); err != nil {
 			return nil, err
 		}
 	}

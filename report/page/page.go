@@ -45,6 +45,8 @@ type Input struct {
 	// MinClassTracks is the fewest tracks of a class not marked as an
 	// indication only.
 	MinClassTracks int
+	// Generated is the time the page says it was made; zero means now.
+	Generated time.Time
 }
 
 // symRE matches the plain-text symbols of the report (c_cr, S_c, f_p,
@@ -142,7 +144,7 @@ func Render(in Input) ([]byte, error) {
 	hd := htmlData{
 		Title:     "Crest-speed deployment report",
 		Caution:   summary.Caution,
-		Generated: time.Now().UTC().Format("2006-01-02 15:04 UTC"),
+		Generated: generatedAt(in.Generated),
 		Version:   sum.Tool["version"], ReportVersion: in.Version,
 		Inputs: sum.Inputs, FewTracks: in.MinClassTracks, Level: int(math.Round(100 * stats.Level)),
 		Config:         prettyJSON(sum.Config),
@@ -645,3 +647,11 @@ const ratioTableTemplate = `<h3>{{.Title}}</h3>
 `
 
 var _ = template.Must(pageTemplate.New("ratiotable").Parse(ratioTableTemplate))
+
+// generatedAt formats the time a page was made: t, or now when t is zero.
+func generatedAt(t time.Time) string {
+	if t.IsZero() {
+		t = time.Now()
+	}
+	return t.UTC().Format("2006-01-02 15:04 UTC")
+}
