@@ -82,7 +82,7 @@ func (r References) Predict(c tracking.Crest) float64 {
 // TrackRows computes, for every crest of a track, the crest speed (local
 // quadratic fit of the crest's path along θ0 over a window of ±half
 // seconds; the path advances frame to frame by the displacement of the
-// crest line at the new tip's cross-position, see tracking.Crest.Path), the two reference phase speeds and the ratios (PHYSICS.md §3).
+// crest line at the new tip's cross-position, see tracking.Crest.Path), the two reference phase speeds and the ratios (docs/methods.md, Crests).
 // The local reference is the median of the per-frame local phase speeds over
 // the same window, which smooths the zero-crossing wavelength along the track
 // and resists the occasional jump of a crossing.

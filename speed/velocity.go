@@ -30,7 +30,7 @@ type SurfaceVelocityOptions struct {
 }
 
 // SurfaceVelocity estimates the linear horizontal surface orbital speed of
-// the waves travelling with θ0 from a sequence of elevation maps (PHYSICS.md §4): over
+// the waves travelling with θ0 from a sequence of elevation maps (docs/methods.md, Breaking): over
 // windows of frames, η (mean removed, masked cells zero) is Hann-tapered in
 // time and Fourier-transformed in time and space; each component that lies
 // on the linear dispersion shell and travels with the waves (its direction
@@ -338,7 +338,7 @@ func tukey(n int, alpha float64) []float64 {
 	return w
 }
 
-// The speed is not projected on θ0 (PHYSICS.md §4 writes the factor
+// The speed is not projected on θ0 (docs/methods.md writes the factor
 // k̂·θ̂0): on a finite grid a single wave leaks into wavenumbers of
 // neighbouring directions, and projecting those biases the speed low by a
 // few per cent even for a wave travelling exactly along θ0; and the

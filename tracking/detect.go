@@ -114,6 +114,38 @@ func Advance(prev, c Crest, reach float64) float64 {
 	return c.S - prev.SOnLine(c.N)
 }
 
+// AdvanceAtTip returns how far the crest line moved along θ0 from prev to
+// c at c's tip: the mean, over the two sampling lines either side of the
+// tip (one step across θ0 away), of the difference of the two segments'
+// crest points on each line. The tip's own line is left out: its crest
+// point is the selected highest one, whose sub-sample interpolation error
+// is not that of an ordinary point, and taking it would add that error to
+// every step of a track. The pair is symmetric about the tip, so the
+// slope of the advance along a curved crest cancels; its curvature enters
+// at second order in the step (an oblique crest line moves faster along
+// θ0, so on short crests this reads slightly high). Without both
+// neighbours it falls back to Advance on the tip's line alone.
+func AdvanceAtTip(prev, c Crest) float64 {
+	if len(prev.poly) > 0 && len(c.poly) > 0 && prev.polyStep == c.polyStep {
+		off := int(math.Round((c.polyN0 - prev.polyN0) / c.polyStep))
+		it := int(math.Round((c.N - c.polyN0) / c.polyStep)) // the tip's line in c
+		var sum float64
+		n := 0
+		for _, i := range []int{it - 1, it + 1} {
+			j := i + off
+			if i < 0 || i >= len(c.poly) || j < 0 || j >= len(prev.poly) {
+				continue
+			}
+			sum += float64(c.poly[i]) - float64(prev.poly[j])
+			n++
+		}
+		if n == 2 {
+			return sum / 2
+		}
+	}
+	return Advance(prev, c, 0.5*c.polyStep)
+}
+
 // SOnLine returns the along-θ0 position of the crest line at the
 // cross-position n: interpolated between the segment's crest points, or
 // extrapolated from its nearest end with SlopeSN outside it.
@@ -138,7 +170,7 @@ func (c Crest) SOnLine(n float64) float64 {
 // line to the cross-position n (first order, from SlopeSN).
 func (c Crest) SAt(n float64) float64 { return c.S + c.SlopeSN*(n-c.N) }
 
-// Steepness returns S_c = a_c·π/w_c (PHYSICS.md §2; for a sinusoid a·k).
+// Steepness returns S_c = a_c·π/w_c (docs/methods.md, Crests; for a sinusoid a·k).
 func (c Crest) Steepness() float64 { return c.Elevation * math.Pi / c.Width }
 
 // Detector finds crests on frames of one grid. Its sampling lines and

@@ -16,7 +16,22 @@ type LinkOptions struct {
 	// Speed predicts how fast a crest moves along θ0 (m/s). The caller
 	// chooses the reference (typically the local linear phase speed).
 	Speed func(c Crest) float64
+	// Step, when set, judges each frame-to-frame step of a track before it
+	// is taken: prev the track's last crest, next the detection assigned
+	// to it, advance the crest line's measured advance along θ0 (metres).
+	// A non-empty reason refuses the step: the track ends there (it is
+	// split) and the detection starts a new track, so that a change of
+	// crest segment never enters a crest's path.
+	Step func(prev, next Crest, advance float64) (reason string)
 }
+
+// End reasons of tracks that are not refused steps.
+const (
+	// EndLost: no detection within the gates for more than MaxGapFrames.
+	EndLost = "lost (no detection within the gates)"
+	// EndRecord: the record ended.
+	EndRecord = "end of record"
+)
 
 // Track is a crest followed through time: one Crest per frame in which it
 // was found, in frame order.
@@ -28,9 +43,17 @@ type Track struct {
 // LinkStats counts what the linker did.
 type LinkStats struct {
 	Births      int // tracks started
-	Deaths      int // tracks ended (lost for more than MaxGapFrames, or at the end of the record)
+	Deaths      int // tracks ended (lost for more than MaxGapFrames, split by a refused step, or at the end of the record)
 	Gated       int // detections that had no track within the gates
 	GapsBridged int // times a track continued after missing at least one frame
+	// Ended counts the tracks ended, by reason: EndLost, EndRecord, or
+	// the reason LinkOptions.Step gave for refusing a step (a split).
+	Ended map[string]int
+	// Steps counts the frame-to-frame steps taken; Residuals holds each
+	// one's measured advance minus its predicted advance (Speed × Δt),
+	// metres, in the order taken.
+	Steps     int
+	Residuals []float64
 }
 
 // Linker assigns each frame's crests to tracks. Push frames in time order;
@@ -47,7 +70,7 @@ type Linker struct {
 
 // NewLinker returns a linker with the given options.
 func NewLinker(opt LinkOptions) *Linker {
-	return &Linker{opt: opt, lastSeen: map[*Track]int{}, nextID: 1}
+	return &Linker{opt: opt, lastSeen: map[*Track]int{}, nextID: 1, stats: LinkStats{Ended: map[string]int{}}}
 }
 
 // Push links the crests of one frame. Frames missing from the record are
@@ -57,7 +80,7 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 	keep := l.active[:0]
 	for _, tr := range l.active {
 		if frame-l.lastSeen[tr]-1 > l.opt.MaxGapFrames {
-			l.finish(tr)
+			l.finish(tr, EndLost)
 			continue
 		}
 		keep = append(keep, tr)
@@ -107,26 +130,52 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 			}
 		}
 	}
-	taken := make([]bool, nt)
+	split := map[*Track]string{}
+	refused := map[int]bool{}
 	for j, c := range crests {
 		if i := assigned[j]; i >= 0 {
 			tr := l.active[i]
+			prev := &tr.Crests[len(tr.Crests)-1]
+			// The advance is measured at the new tip's cross-position (see
+			// AdvanceAtTip): the crest line's motion there, the definition
+			// of c_cr along θ0. Lines farther along the crest move at their
+			// own speeds and are not averaged in.
+			adv := AdvanceAtTip(*prev, c)
+			if l.opt.Step != nil {
+				if why := l.opt.Step(*prev, c, adv); why != "" {
+					split[tr] = why
+					assigned[j] = -1
+					refused[j] = true
+					continue
+				}
+			}
 			if frame-l.lastSeen[tr] > 1 {
 				l.stats.GapsBridged++
 			}
-			prev := &tr.Crests[len(tr.Crests)-1]
-			c.Path = prev.Path + Advance(*prev, c, math.Max(0.5*c.Width, 3*c.polyStep))
+			l.stats.Steps++
+			l.stats.Residuals = append(l.stats.Residuals, adv-l.opt.Speed(*prev)*(c.Time-prev.Time))
+			c.Path = prev.Path + adv
 			prev.poly = nil // only the latest crest of a track keeps its line
 			tr.Crests = append(tr.Crests, c)
 			l.lastSeen[tr] = frame
-			taken[i] = true
 		}
+	}
+	if len(split) > 0 {
+		keep := l.active[:0]
+		for _, tr := range l.active {
+			if why, ok := split[tr]; ok {
+				l.finish(tr, why)
+				continue
+			}
+			keep = append(keep, tr)
+		}
+		l.active = keep
 	}
 	for j, c := range crests {
 		if assigned[j] >= 0 {
 			continue
 		}
-		if nt > 0 {
+		if nt > 0 && !refused[j] {
 			l.stats.Gated++
 		}
 		tr := &Track{ID: l.nextID, Crests: []Crest{c}}
@@ -137,9 +186,10 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 	}
 }
 
-func (l *Linker) finish(tr *Track) {
+func (l *Linker) finish(tr *Track, why string) {
 	tr.Crests[len(tr.Crests)-1].poly = nil
 	l.stats.Deaths++
+	l.stats.Ended[why]++
 	delete(l.lastSeen, tr)
 	l.done = append(l.done, *tr)
 }
@@ -147,7 +197,7 @@ func (l *Linker) finish(tr *Track) {
 // Finish closes all tracks and returns every track in order of ID.
 func (l *Linker) Finish() ([]Track, LinkStats) {
 	for _, tr := range l.active {
-		l.finish(tr)
+		l.finish(tr, EndRecord)
 	}
 	l.active = nil
 	out := l.done

@@ -10,7 +10,7 @@ package tracking
 // of the analysis.
 //
 // The active breaking front of a patch is its leading edge along θ0
-// (PHYSICS.md §5). It is sampled on the same lattice of lines parallel to θ0
+// (docs/methods.md, Breaking). It is sampled on the same lattice of lines parallel to θ0
 // as crests are: on each line that crosses the patch, the patch's
 // membership (1 on its cells, 0 elsewhere) is interpolated bilinearly along
 // the line, and the front on that line is the most advanced point where it

@@ -264,6 +264,7 @@ func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, op
 		GateS: math.Max(0.1*lambdaP, 4*det.Step()),
 		GateN: 2 * det.Step(),
 		Speed: ref.Predict,
+		Step:  stepGate(ref, ss.Hm0, ss.Tp, det.Step()),
 	})
 	var wa *speed.WhitecapAnalyser
 	if opt.Whitecaps && rec.Meta.HasFoam {
