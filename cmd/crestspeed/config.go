@@ -18,6 +18,7 @@ import (
 	"gopkg.in/yaml.v3"
 
 	"crestspeed/ingest"
+	"crestspeed/internal/slurm"
 	"crestspeed/samples"
 	"crestspeed/speed/analysis"
 )
@@ -48,6 +49,7 @@ type Config struct {
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
 	Grid        GridConfig        `yaml:"grid"`
+	Slurm       slurm.Options     `yaml:"slurm"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -90,6 +92,7 @@ func defaultConfig() Config {
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
 		Grid:        defaultGridConfig(),
+		Slurm:       slurm.DefaultOptions(),
 	}
 }
 
