@@ -141,14 +141,14 @@ func TestRender(t *testing.T) {
 		t.Errorf("ArraySpec: %q", got)
 	}
 	o := Options{Partition: "short", Account: "ocean", Time: "1:00:00", Memory: "2G", CPUsPerTask: 3, Extra: []string{" --qos=low"}}
-	s, err := Render(o, Script{Name: "cs-finish", After: []string{"12", "13"}, Log: "/x/slurm/finish_%j.log", Dir: "/x",
+	s, err := Render(o, Script{Name: "cs-finish", After: []string{"12", "13_4"}, Log: "/x/slurm/finish_%j.log", Dir: "/x",
 		Body: []string{"exec " + Quote("/opt/my bin/crestspeed") + " run-step"}})
 	if err != nil {
 		t.Fatal(err)
 	}
 	want := `#!/bin/bash
 #SBATCH --job-name=cs-finish
-#SBATCH --dependency=afterok:12:13
+#SBATCH --dependency=afterok:12:13_4
 #SBATCH --kill-on-invalid-dep=yes
 #SBATCH --output=/x/slurm/finish_%j.log
 #SBATCH --chdir=/x
@@ -165,7 +165,7 @@ exec '/opt/my bin/crestspeed' run-step
 		t.Errorf("got\n%s\nwant\n%s", s, want)
 	}
 	for _, bad := range []Script{{Name: "a b", Log: "x"}, {Name: "a", Log: ""}, {Name: "a", Log: "x y"},
-		{Name: "a", Log: "x", Tasks: []int{-1}}, {Name: "a", Log: "x", After: []string{"1;rm"}}, {Name: "a", Log: "x", Body: []string{"a\nb"}}} {
+		{Name: "a", Log: "x", Tasks: []int{-1}}, {Name: "a", Log: "x", After: []string{"1;rm"}}, {Name: "a", Log: "x", After: []string{"1_x"}}, {Name: "a", Log: "x", Body: []string{"a\nb"}}} {
 		if _, err := Render(DefaultOptions(), bad); err == nil {
 			t.Errorf("%+v: want an error", bad)
 		}

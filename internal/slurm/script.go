@@ -13,8 +13,9 @@ type Script struct {
 	Name string
 	// Tasks are the array indices; none = a single job.
 	Tasks []int
-	// After are job ids this job waits for, each to end successfully
-	// (--dependency=afterok:ID:ID...).
+	// After are the jobs this job waits for, each to end successfully
+	// (--dependency=afterok:ID:ID...): "ID" for a job or a whole array,
+	// "ID_K" for task K of an array.
 	After []string
 	// Log is the path of the job's log. For an array "%A_%a" in it is the
 	// array job id and task index (Slurm's own filename pattern); for a
@@ -82,8 +83,13 @@ func Render(o Options, s Script) (string, error) {
 		}
 	}
 	for _, id := range s.After {
-		if _, err := strconv.ParseUint(id, 10, 64); err != nil {
-			return "", fmt.Errorf("job id %q to wait for is not a number", id)
+		job, task, isTask := strings.Cut(id, "_")
+		_, err := strconv.ParseUint(job, 10, 64)
+		if err == nil && isTask {
+			_, err = strconv.ParseUint(task, 10, 31)
+		}
+		if err != nil {
+			return "", fmt.Errorf("job %q to wait for is neither a job id nor ID_TASK", id)
 		}
 	}
 	var b strings.Builder

@@ -1,0 +1,309 @@
+package main
+
+// Runs on a Slurm cluster: the parts of a run as one sbatch array job and
+// the finishing step (track and report) as a job that waits for them
+// (afterok). What was submitted is recorded in DIR/.crestspeed/slurm.json,
+// so that running the same command again submits only the parts that are
+// neither done nor still queued or running, and `status` can show each
+// part's state in the queue.
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"crestspeed/internal/atomicfile"
+	"crestspeed/internal/slurm"
+)
+
+// slurmRecordVersion is the version of slurm.json's layout.
+const slurmRecordVersion = 1
+
+// slurmRecord is DIR/.crestspeed/slurm.json: every submission of the run.
+type slurmRecord struct {
+	Version     int               `json:"version"`
+	Parts       int               `json:"parts"`
+	Submissions []slurmSubmission `json:"submissions"`
+}
+
+// slurmSubmission is one call of sbatch for the parts and one for the
+// finishing job.
+type slurmSubmission struct {
+	Submitted string `json:"submitted"` // UTC, RFC 3339
+	// ArrayJob is the array job of the parts, "" when every part was done
+	// or in the queue already.
+	ArrayJob string `json:"array_job"`
+	Tasks    []int  `json:"tasks"` // the parts it runs (array indices = part numbers)
+	// FinishJob is the job of the finishing step.
+	FinishJob string `json:"finish_job"`
+	// After are the jobs ("ID" or "ID_K") the finishing job waits for.
+	After []string `json:"after"`
+}
+
+// slurmPlan is what a submission needs to know about the run.
+type slurmPlan struct {
+	Dir        string // the run's output folder, absolute
+	Parts      int    // parts 0 .. Parts-1
+	Opts       slurm.Options
+	Exe        string           // the crestspeed executable the jobs run, absolute
+	PartDone   func(k int) bool // part k's output is complete
+	FinishDone func() bool      // the finishing step's output is complete
+}
+
+func slurmRecordPath(dir string) string { return filepath.Join(dir, ".crestspeed", "slurm.json") }
+func slurmDir(dir string) string        { return filepath.Join(dir, "slurm") }
+
+// partLog is the log of part k run as task k of array job job (sbatch's
+// %A_%a pattern in parts.sbatch).
+func partLog(dir, job string, k int) string {
+	return filepath.Join(slurmDir(dir), fmt.Sprintf("part_%s_%d.log", job, k))
+}
+
+func finishLog(dir, job string) string {
+	return filepath.Join(slurmDir(dir), fmt.Sprintf("finish_%s.log", job))
+}
+
+// readSlurmRecord reads slurm.json; a missing file is an empty record.
+func readSlurmRecord(dir string) (slurmRecord, error) {
+	var r slurmRecord
+	b, err := os.ReadFile(slurmRecordPath(dir))
+	if errors.Is(err, os.ErrNotExist) {
+		return slurmRecord{Version: slurmRecordVersion}, nil
+	}
+	if err != nil {
+		return r, fmt.Errorf("cannot read the record of Slurm jobs: %w", err)
+	}
+	if err := json.Unmarshal(b, &r); err != nil {
+		return r, fmt.Errorf("the record of Slurm jobs %s is damaged (%v); remove it to submit every unfinished part again", slurmRecordPath(dir), err)
+	}
+	if r.Version != slurmRecordVersion {
+		return r, fmt.Errorf("the record of Slurm jobs %s has version %d, this crestspeed reads %d", slurmRecordPath(dir), r.Version, slurmRecordVersion)
+	}
+	return r, nil
+}
+
+func writeSlurmRecord(dir string, r slurmRecord) error {
+	b, err := json.MarshalIndent(r, "", "  ")
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(filepath.Dir(slurmRecordPath(dir)), 0o755); err != nil {
+		return err
+	}
+	return atomicfile.WriteFile(slurmRecordPath(dir), append(b, '\n'))
+}
+
+// slurmPartState is what the queue says of one part: its latest
+// submission's task.
+type slurmPartState struct {
+	Class slurm.Class
+	State string // Slurm's word, "" when the queue does not know the task
+	Job   string // "ID_K", "" when never submitted
+	Log   string // its log file
+}
+
+// slurmStates asks the cluster about the latest job of every part and of
+// the finishing step. With no record it returns nil maps and no error.
+func slurmStates(ctx context.Context, dir string) (map[int]slurmPartState, *slurmPartState, error) {
+	rec, err := readSlurmRecord(dir)
+	if err != nil || len(rec.Submissions) == 0 {
+		return nil, nil, err
+	}
+	latest := map[int]string{} // part -> array job of its latest submission
+	var jobs []string
+	seen := map[string]bool{}
+	add := func(j string) {
+		if j != "" && !seen[j] {
+			seen[j] = true
+			jobs = append(jobs, j)
+		}
+	}
+	for _, s := range rec.Submissions {
+		for _, k := range s.Tasks {
+			latest[k] = s.ArrayJob
+		}
+		add(s.ArrayJob)
+	}
+	last := rec.Submissions[len(rec.Submissions)-1]
+	add(last.FinishJob)
+	tasks, err := slurm.States(ctx, jobs...)
+	if err != nil {
+		return nil, nil, err
+	}
+	type key struct {
+		job string
+		k   int
+	}
+	byKey := map[key]slurm.Task{}
+	for _, t := range tasks {
+		byKey[key{t.Job, t.Index}] = t
+	}
+	parts := map[int]slurmPartState{}
+	for k, job := range latest {
+		st := slurmPartState{Job: job + "_" + strconv.Itoa(k), Log: partLog(dir, job, k)}
+		if t, ok := byKey[key{job, k}]; ok {
+			st.Class, st.State = t.Class(), t.State
+		}
+		parts[k] = st
+	}
+	var fin *slurmPartState
+	if last.FinishJob != "" {
+		fin = &slurmPartState{Job: last.FinishJob, Log: finishLog(dir, last.FinishJob)}
+		if t, ok := byKey[key{last.FinishJob, -1}]; ok {
+			fin.Class, fin.State = t.Class(), t.State
+		}
+	}
+	return parts, fin, nil
+}
+
+// partsScript is the body of parts.sbatch: task K runs part K with as many
+// workers as Slurm gave it CPUs.
+func partsScript(p slurmPlan) []string {
+	return []string{
+		`workers=${SLURM_CPUS_PER_TASK:-1}`,
+		fmt.Sprintf(`exec %s run-step --out %s --step part --part "$SLURM_ARRAY_TASK_ID" --workers "$workers"`,
+			slurm.Quote(p.Exe), slurm.Quote(p.Dir)),
+	}
+}
+
+func finishScript(p slurmPlan) []string {
+	return []string{
+		`workers=${SLURM_CPUS_PER_TASK:-1}`,
+		fmt.Sprintf(`exec %s run-step --out %s --step finish --workers "$workers"`, slurm.Quote(p.Exe), slurm.Quote(p.Dir)),
+	}
+}
+
+// submitSlurm submits what the run still needs: the parts that are neither
+// done nor queued or running, as one array job (DIR/slurm/parts.sbatch),
+// and a finishing job (DIR/slurm/finish.sbatch) that waits for every
+// unfinished part's latest task. A finishing job of an earlier submission
+// that is still waiting is cancelled first, so that one finishing job
+// runs. It returns the submission, with no jobs when the run is complete.
+func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmission, error) {
+	var sub slurmSubmission
+	if err := p.Opts.Validate(); err != nil {
+		return sub, usageError{err}
+	}
+	if p.Parts < 1 {
+		return sub, fmt.Errorf("the run has no parts to submit")
+	}
+	rec, err := readSlurmRecord(p.Dir)
+	if err != nil {
+		return sub, err
+	}
+	if rec.Parts != 0 && rec.Parts != p.Parts && len(rec.Submissions) > 0 {
+		con.logf("slurm: the run now has %d parts, the jobs recorded were for %d; earlier jobs are not counted", p.Parts, rec.Parts)
+		rec.Submissions = nil
+	}
+	parts, fin, err := slurmStates(ctx, p.Dir)
+	if err != nil {
+		return sub, err
+	}
+	var missing []int
+	var after []string
+	for k := 0; k < p.Parts; k++ {
+		if p.PartDone(k) {
+			continue
+		}
+		st, ok := parts[k]
+		if ok && (st.Class == slurm.Queued || st.Class == slurm.Running) {
+			after = append(after, st.Job)
+			continue
+		}
+		if ok && st.Class == slurm.Failed {
+			con.logf("slurm: part %d (job %s) ended %s; submitting it again (log %s)", k, st.Job, st.State, st.Log)
+		}
+		missing = append(missing, k)
+	}
+	if len(missing) == 0 && len(after) == 0 && p.FinishDone() {
+		con.logf("slurm: every part and the finishing step are done; nothing to submit")
+		return sub, nil
+	}
+	if fin != nil && len(missing) == 0 && (fin.Class == slurm.Queued || fin.Class == slurm.Running) {
+		con.logf("slurm: nothing to submit; %d parts and the finishing job %s are in the queue", len(after), fin.Job)
+		return sub, nil
+	}
+	if fin != nil && fin.Class == slurm.Queued {
+		if err := slurm.Cancel(ctx, fin.Job); err != nil {
+			return sub, err
+		}
+		con.logf("slurm: cancelled the waiting finishing job %s; a new one waits for the resubmitted parts", fin.Job)
+	}
+	if err := os.MkdirAll(slurmDir(p.Dir), 0o755); err != nil {
+		return sub, fmt.Errorf("cannot create %s: %w", slurmDir(p.Dir), err)
+	}
+	sub.Submitted = time.Now().UTC().Format(time.RFC3339)
+	if len(missing) > 0 {
+		text, err := slurm.Render(p.Opts, slurm.Script{Name: "crestspeed-parts", Tasks: missing,
+			Log: filepath.Join(slurmDir(p.Dir), "part_%A_%a.log"), Dir: p.Dir, Body: partsScript(p)})
+		if err != nil {
+			return sub, err
+		}
+		path := filepath.Join(slurmDir(p.Dir), "parts.sbatch")
+		if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
+			return sub, err
+		}
+		id, err := slurm.Submit(ctx, path)
+		if err != nil {
+			return sub, err
+		}
+		sub.ArrayJob, sub.Tasks = id, missing
+		for _, k := range missing {
+			after = append(after, id+"_"+strconv.Itoa(k))
+		}
+	}
+	sort.Strings(after)
+	text, err := slurm.Render(p.Opts, slurm.Script{Name: "crestspeed-finish", After: compactAfter(after, sub),
+		Log: filepath.Join(slurmDir(p.Dir), "finish_%j.log"), Dir: p.Dir, Body: finishScript(p)})
+	if err != nil {
+		return sub, err
+	}
+	path := filepath.Join(slurmDir(p.Dir), "finish.sbatch")
+	if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
+		return sub, err
+	}
+	id, err := slurm.Submit(ctx, path)
+	if err != nil {
+		if sub.ArrayJob != "" {
+			_ = slurm.Cancel(ctx, sub.ArrayJob) // no parts without their finishing job
+		}
+		return sub, err
+	}
+	sub.FinishJob, sub.After = id, compactAfter(after, sub)
+	rec.Version, rec.Parts = slurmRecordVersion, p.Parts
+	rec.Submissions = append(rec.Submissions, sub)
+	if err := writeSlurmRecord(p.Dir, rec); err != nil {
+		_ = slurm.Cancel(ctx, sub.ArrayJob, sub.FinishJob)
+		return sub, fmt.Errorf("jobs cancelled: their record cannot be written: %w", err)
+	}
+	if sub.ArrayJob != "" {
+		con.logf("slurm: submitted parts %s as array job %s (logs %s)", slurm.ArraySpec(sub.Tasks), sub.ArrayJob,
+			filepath.Join(slurmDir(p.Dir), "part_"+sub.ArrayJob+"_K.log"))
+	}
+	con.logf("slurm: submitted the finishing job %s, after %s", sub.FinishJob, strings.Join(sub.After, ", "))
+	return sub, nil
+}
+
+// compactAfter lists the jobs the finishing job waits for: the whole new
+// array job rather than each of its tasks, and each earlier task still in
+// the queue by itself.
+func compactAfter(after []string, sub slurmSubmission) []string {
+	var out []string
+	for _, a := range after {
+		if sub.ArrayJob != "" && strings.HasPrefix(a, sub.ArrayJob+"_") {
+			continue
+		}
+		out = append(out, a)
+	}
+	if sub.ArrayJob != "" {
+		out = append(out, sub.ArrayJob)
+	}
+	return out
+}
