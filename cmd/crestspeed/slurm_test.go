@@ -20,7 +20,16 @@ import (
 // TestMain.
 var testCluster = &localcluster.Lazy{Dir: "/tmp/crestspeed-slurm-cmdtest", Port: 6847}
 
+// asCLI is the variable that makes the test binary act as the crestspeed
+// executable (for jobs the end-to-end Slurm test submits): no test runs.
+const asCLI = "CS_TEST_BINARY_AS_CLI"
+
 func TestMain(m *testing.M) {
+	if os.Getenv(asCLI) == "1" {
+		os.Args = append(os.Args[:1], flagless(os.Args[1:])...)
+		main()
+		os.Exit(0)
+	}
 	code := m.Run()
 	if err := testCluster.Stop(); err != nil {
 		fmt.Fprintln(os.Stderr, err)
@@ -29,6 +38,17 @@ func TestMain(m *testing.M) {
 		}
 	}
 	os.Exit(code)
+}
+
+// flagless drops the go test flags (-test.*) a wrapper may pass on.
+func flagless(args []string) []string {
+	var out []string
+	for _, a := range args {
+		if !strings.HasPrefix(a, "-test.") {
+			out = append(out, a)
+		}
+	}
+	return out
 }
 
 // waitSlurm polls the run's states in the queue until ok says so.
