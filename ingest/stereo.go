@@ -722,6 +722,11 @@ func isFile(p string) bool {
 // delivers at most that many.
 func (s *PairSource) Len() int { return len(s.items) }
 
+// Files returns the image files of pair i (0 ≤ i < Len), in time order.
+func (s *PairSource) Files(i int) (left, right string) {
+	return s.items[i].left, s.items[i].right
+}
+
 // Times returns the times of the pairs the source tries, in seconds, in
 // order.
 func (s *PairSource) Times() []float64 {

@@ -49,6 +49,7 @@ type Config struct {
 	Calibrate   CalibrateConfig   `yaml:"calibrate"`
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
 	Grid        GridConfig        `yaml:"grid"`
+	Run         RunConfig         `yaml:"run"`
 	Slurm       slurm.Options     `yaml:"slurm"`
 }
 
@@ -92,6 +93,7 @@ func defaultConfig() Config {
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
 		Grid:        defaultGridConfig(),
+		Run:         RunConfig{PairsPerPart: defaultPairsPerPart},
 		Slurm:       slurm.DefaultOptions(),
 	}
 }

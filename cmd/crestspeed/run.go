@@ -2,88 +2,108 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"os"
-	"path/filepath"
-	"time"
 
 	"github.com/spf13/cobra"
 )
 
-func init() { extraCommands = append(extraCommands, newRunCmd) }
+func init() { extraCommands = append(extraCommands, newRunCmd, newRunStepCmd) }
 
 func newRunCmd(app *App) *cobra.Command {
-	return &cobra.Command{
-		Use:   "run --config deployment.yaml --out DIR",
-		Short: "Run the whole chain on a deployment: calibrate, reconstruct, track, report",
-		Long: `Run the whole chain on one deployment from one configuration file:
+	cmd := &cobra.Command{
+		Use:   "run --config deployment.yaml --out DIR [--parts N]",
+		Short: "Run the whole chain on a deployment: calibrate, reconstruct in parts, track, report",
+		Long: `Run the whole chain on one deployment from one configuration file, in steps
+recorded in the run folder DIR:
 
-  1. calibrate  when the rig file (reconstruct.rig, default DIR/rig.yaml) does
-                not exist yet, from the chessboard pairs of the calibrate
-                section;
-  2. reconstruct the stereo frames of the reconstruct section (a folder
-                with reconstruct.frames, or reconstruct.left/right globs) into
-                DIR/elevation.nc;
-  3. track      crests (and whitecaps) on it into DIR/tracks, with the
-                report.
+  calibrate   when the configuration gives no rig file (reconstruct.rig), from
+              the chessboard pairs of the calibrate section, into DIR/rig.yaml;
+  settle      the mean sea plane, disparity band and grid, once, from pairs
+              sampled over the whole record, into DIR/geometry.yaml;
+  part-NNNN   each part of the record (contiguous ranges of pairs; --parts N
+              or run.parts, default one per run.pairs_per_part pairs) into
+              DIR/parts/part-NNNN.nc;
+  index       DIR/parts/index.json, the parts as one record;
+  track       crests (and whitecaps) into DIR/tracks, with the report.
 
-Every setting comes from the file (see "crestspeed init"); a finished output
-is kept unless --force is given.`,
+Running the same command again does only the steps that are missing or out
+of date, and says which and why: after an interruption it goes on where it
+stopped, and after a change of setting it redoes what depends on it. The
+result is the same, byte for byte, as that of an uninterrupted run. A folder
+holding the run of another deployment is refused; --force redoes every step.
+"crestspeed status DIR" shows where a run stands.
+
+Every setting comes from the file (see "crestspeed init"); the resolved
+configuration is kept in DIR/.crestspeed/config.yaml and the run's log in
+DIR/run.log.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			return RunDeployment(cmd.Context(), app.con, *app.cfg)
 		},
 	}
+	cmd.Flags().Int("parts", 0, "number of parts of the record (run.parts); 0 = one per run.pairs_per_part pairs")
+	app.bindFlag(cmd, "parts", "run.parts")
+	return cmd
 }
 
-// RunDeployment chains calibrate (when the rig file is missing),
-// reconstruct and track for one deployment into the folder cfg.Out. Each
-// stage gets its own copy of the configuration with its inputs and output
-// set, and that copy is what the stage records.
+// RunDeployment runs every step of the deployment of cfg into the folder
+// cfg.Out on this machine: prepare (calibrate when needed, settle), the
+// parts in order with all workers each, then index and track.
 func RunDeployment(ctx context.Context, con *console, cfg Config) error {
-	dir := cfg.Out
+	n, err := prepareRun(ctx, con, cfg)
+	if err != nil {
+		return err
+	}
+	dir := absPath(cfg.Out)
+	con.logf("run: %s, %d parts", dir, n)
+	return doSteps(ctx, con, dir, cfg.Workers, wantAll)
+}
+
+// newRunStepCmd is the hidden command that does one group of steps of a
+// run prepared by "run" (or by a scheduler's submission): the unit of a
+// cluster job.
+func newRunStepCmd(app *App) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:    "run-step --out DIR --step prepare|part|finish [--part K]",
+		Short:  "Do one step of a prepared run (for cluster jobs)",
+		Hidden: true,
+		Args:   cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			step, _ := cmd.Flags().GetString("step")
+			part, _ := cmd.Flags().GetInt("part")
+			return RunStep(cmd.Context(), app.con, app.cfg.Out, app.cfg.Workers, step, part, flagGiven(cmd, "part"))
+		},
+	}
+	cmd.Flags().String("step", "", "prepare (calibrate and settle), part (one part, with --part K) or finish (index, track and report)")
+	cmd.Flags().Int("part", 0, "the part to reconstruct, from 0")
+	return cmd
+}
+
+// RunStep does one group of steps of the run prepared in dir, reading the
+// run's saved configuration: "prepare" = calibrate (when the run has no rig
+// file) and settle; "part" = part K (nothing when it is up to date);
+// "finish" = index, track and report.
+func RunStep(ctx context.Context, con *console, dir string, workers int, step string, part int, partGiven bool) error {
 	if dir == "" {
-		return usageError{fmt.Errorf("give the deployment's output folder with --out DIR")}
+		return usageError{fmt.Errorf("give the run folder with --out DIR")}
 	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("cannot create %s: %w", dir, err)
-	}
-	t0 := time.Now()
-	rig := cfg.Reconstruct.Rig
-	if rig == "" {
-		rig = filepath.Join(dir, "rig.yaml")
-	}
-	if _, err := os.Stat(rig); errors.Is(err, os.ErrNotExist) {
-		if cfg.Calibrate.Left == "" || cfg.Calibrate.Right == "" {
-			return usageError{fmt.Errorf("rig file %s does not exist and the configuration gives no calibration images (calibrate.left, calibrate.right)", rig)}
+	switch step {
+	case "prepare":
+		return doSteps(ctx, con, dir, workers, wantPrepare)
+	case "finish":
+		return doSteps(ctx, con, dir, workers, wantFinish)
+	case "part":
+		if !partGiven {
+			return usageError{fmt.Errorf("give the part to reconstruct with --part K")}
 		}
-		con.logf("run: 1/3 calibrate → %s", rig)
-		c := cfg
-		c.Out = rig
-		if err := Calibrate(ctx, con, c); err != nil {
+		_, rp, err := loadRun(dir)
+		if err != nil {
 			return err
 		}
-	} else {
-		con.logf("run: 1/3 using the rig file %s", rig)
+		if part < 0 || part >= len(rp.Parts) {
+			return usageError{fmt.Errorf("part %d does not exist: the run in %s has parts 0 to %d", part, dir, len(rp.Parts)-1)}
+		}
+		return doSteps(ctx, con, dir, workers, wantPart(part))
 	}
-
-	maps := filepath.Join(dir, "elevation.nc")
-	con.logf("run: 2/3 reconstruct → %s", maps)
-	c := cfg
-	c.Out = maps
-	c.Reconstruct.Rig = rig
-	if _, err := Reconstruct(ctx, con, c); err != nil {
-		return err
-	}
-
-	tracks := filepath.Join(dir, "tracks")
-	con.logf("run: 3/3 track → %s", tracks)
-	c = cfg
-	c.Out, c.Track.Input = tracks, maps
-	if _, err := Track(ctx, con, c); err != nil {
-		return err
-	}
-	con.logf("run: done in %s; report %s", elapsed(t0), filepath.Join(tracks, "report.html"))
-	return nil
+	return usageError{fmt.Errorf("--step %q is not a step; give prepare, part or finish", step)}
 }
