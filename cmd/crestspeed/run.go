@@ -38,9 +38,13 @@ configuration is kept in DIR/.crestspeed/config.yaml and the run's log in
 DIR/run.log.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if s, _ := cmd.Flags().GetString("scheduler"); s != "local" {
+				return runScheduled(cmd.Context(), app.con, *app.cfg, s) // slurm.go
+			}
 			return RunDeployment(cmd.Context(), app.con, *app.cfg)
 		},
 	}
+	cmd.Flags().String("scheduler", "local", "where the parts run: local (this machine) or slurm (submitted with sbatch; see the slurm settings)")
 	cmd.Flags().Int("parts", 0, "number of parts of the record (run.parts); 0 = one per run.pairs_per_part pairs")
 	app.bindFlag(cmd, "parts", "run.parts")
 	return cmd

@@ -20,6 +20,7 @@ import (
 	"time"
 
 	"crestspeed/internal/atomicfile"
+	"crestspeed/internal/runplan"
 	"crestspeed/internal/slurm"
 )
 
@@ -306,4 +307,87 @@ func compactAfter(after []string, sub slurmSubmission) []string {
 		out = append(out, sub.ArrayJob)
 	}
 	return out
+}
+
+// slurmExecutable is the crestspeed the jobs run: this very executable
+// (tests put a stand-in there).
+var slurmExecutable = os.Executable
+
+// runProgress says which parts of the prepared run in dir are up to date,
+// and whether the finishing steps (index, track) are.
+func runProgress(dir string) (parts []bool, finished bool, err error) {
+	c, rp, err := loadRun(dir)
+	if err != nil {
+		return nil, false, err
+	}
+	steps, err := buildSteps(c, rp)
+	if err != nil {
+		return nil, false, err
+	}
+	plan := runplan.Plan{Dir: c.Out, Version: version}
+	parts = make([]bool, len(rp.Parts))
+	finished = true
+	for _, s := range steps {
+		ok, _, err := plan.Check(s.Step, false)
+		if err != nil {
+			return nil, false, err
+		}
+		switch {
+		case s.kind == stepPart:
+			parts[s.part] = ok
+		case wantFinish(s):
+			finished = finished && ok
+		}
+	}
+	return parts, finished, nil
+}
+
+// RunOnSlurm is "crestspeed run --scheduler slurm": the run is prepared on
+// this machine (the configuration recorded; calibrate when needed and the
+// settling of sea plane and grid, both small next to the parts), then its
+// unfinished parts go to the cluster as one array job and the index, track
+// and report as a job that waits for them. It prints the job ids. Running
+// it again submits only what is neither done nor in the queue.
+func RunOnSlurm(ctx context.Context, con *console, cfg Config) error {
+	if err := cfg.Slurm.Validate(); err != nil {
+		return usageError{err}
+	}
+	exe, err := slurmExecutable()
+	if err != nil {
+		return fmt.Errorf("cannot find the crestspeed executable for the jobs: %w", err)
+	}
+	n, err := prepareRun(ctx, con, cfg)
+	if err != nil {
+		return err
+	}
+	dir := absPath(cfg.Out)
+	con.logf("run: %s, %d parts; preparing on this machine, then submitting to Slurm", dir, n)
+	if err := doSteps(ctx, con, dir, cfg.Workers, wantPrepare); err != nil {
+		return err
+	}
+	partOK, finOK, err := runProgress(dir)
+	if err != nil {
+		return err
+	}
+	sub, err := submitSlurm(ctx, con, slurmPlan{Dir: dir, Parts: n, Opts: cfg.Slurm, Exe: exe,
+		PartDone: func(k int) bool { return partOK[k] }, FinishDone: func() bool { return finOK }})
+	if err != nil {
+		return err
+	}
+	if sub.ArrayJob != "" {
+		fmt.Fprintf(con.stdout, "parts job %s (parts %s)\n", sub.ArrayJob, slurm.ArraySpec(sub.Tasks))
+	}
+	if sub.FinishJob != "" {
+		fmt.Fprintf(con.stdout, "finish job %s\n", sub.FinishJob)
+		con.logf("run: follow it with \"crestspeed status %s\"", dir)
+	}
+	return nil
+}
+
+// runScheduled is "run --scheduler NAME" for a scheduler other than local.
+func runScheduled(ctx context.Context, con *console, cfg Config, name string) error {
+	if name == "slurm" {
+		return RunOnSlurm(ctx, con, cfg)
+	}
+	return usageError{fmt.Errorf("--scheduler %q is not a scheduler; give local or slurm", name)}
 }

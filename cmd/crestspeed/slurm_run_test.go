@@ -1,0 +1,227 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"image"
+	"io/fs"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strings"
+	"testing"
+	"time"
+
+	"crestspeed/internal/slurm"
+	"crestspeed/samples"
+)
+
+// slurmDeployment renders the small deployment of the Slurm end-to-end
+// test: the demo rig at 640×512 px looking 45° down at a short wind sea
+// (Hs 0.6 m, Tp 2.8 s), 16 frames at 4 Hz.
+func slurmDeployment(t *testing.T) string {
+	t.Helper()
+	d := samples.DemoDeployment()
+	d.ImageSize = image.Pt(640, 512)
+	d.DepressionDeg = 45
+	d.Sea.JONSWAP.HsM = 0.6
+	d.Sea.JONSWAP.TpS = 2.8
+	d.FPS = 4
+	d.Frames = 16
+	d.CalibrationViews = 1
+	dir := filepath.Join(t.TempDir(), "dep")
+	if _, err := samples.WriteDeployment(context.Background(), d, dir, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+	return dir
+}
+
+// resultFiles lists the result files of a run folder (relative paths):
+// everything but the logs and the records of the run and of its jobs.
+func resultFiles(t *testing.T, dir string) []string {
+	t.Helper()
+	var out []string
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(dir, p)
+		if d.IsDir() {
+			switch rel {
+			case ".crestspeed", "logs", "slurm":
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if rel != "run.log" {
+			out = append(out, rel)
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// TestRunOnSlurmMatchesLocal runs a rendered deployment in 4 parts on the
+// local Slurm cluster with `run --scheduler slurm`, cancels one part's
+// job (scancel) while it runs, runs the same command again, which submits
+// that part alone with a new finishing job, and compares every result file
+// byte for byte with `run` on this machine.
+func TestRunOnSlurmMatchesLocal(t *testing.T) {
+	if _, err := testCluster.Get(); err != nil {
+		t.Fatal(err)
+	}
+	t.Setenv("SOURCE_DATE_EPOCH", "1781427600") // fixed creation times in the part files
+	dep := slurmDeployment(t)
+	base := t.TempDir()
+	cfg := filepath.Join(base, "dep.yaml")
+	conf := strings.Join([]string{
+		"reconstruct:",
+		"  frames: " + filepath.Join(dep, samples.DeploymentFramesDir),
+		"  rig: " + filepath.Join(dep, samples.DeploymentRig),
+		"slurm:",
+		"  cpus_per_task: 1",
+		"  memory: 2G",
+		"  time: \"10\"",
+	}, "\n") + "\n"
+	if err := os.WriteFile(cfg, []byte(conf), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	// Both runs use the same folder (the local one is moved aside), as the
+	// results record their paths, and one worker (a part job has one CPU;
+	// summary.json records the workers).
+	cluster := filepath.Join(base, "run")
+	local := filepath.Join(base, "local")
+	t0 := time.Now()
+	if _, stderr, err := run(t, "run", "--config", cfg, "--out", cluster, "--parts", "4", "--workers", "1"); err != nil {
+		t.Fatalf("local run: %v\n%s", err, stderr)
+	}
+	t.Logf("local run: %s", time.Since(t0).Round(time.Millisecond))
+	if err := os.Rename(cluster, local); err != nil {
+		t.Fatal(err)
+	}
+
+	// The jobs run this test binary as crestspeed, through a wrapper that
+	// holds part 2's first job (before its work starts) until it is
+	// cancelled.
+	wrapper := filepath.Join(base, "crestspeed")
+	held := filepath.Join(base, "held")
+	if err := os.WriteFile(wrapper, []byte("#!/bin/bash\n"+
+		"# run-step --out DIR --step part --part K ...\n"+
+		"if [ \"$5\" = part ] && [ \"$7\" = 2 ] && [ ! -e "+slurm.Quote(held)+" ]; then touch "+slurm.Quote(held)+"; sleep 300; fi\n"+
+		asCLI+"=1 exec "+slurm.Quote(os.Args[0])+" \"$@\"\n"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	old := slurmExecutable
+	slurmExecutable = func() (string, error) { return wrapper, nil }
+	defer func() { slurmExecutable = old }()
+
+	args := []string{"run", "--config", cfg, "--out", cluster, "--parts", "4", "--workers", "1", "--scheduler", "slurm"}
+	t1 := time.Now()
+	stdout, stderr, err := run(t, args...)
+	if err != nil {
+		t.Fatalf("run --scheduler slurm: %v\n%s", err, stderr)
+	}
+	if !strings.Contains(stdout, "(parts 0-3)") || !strings.Contains(stdout, "finish job ") {
+		t.Fatalf("the job ids are not printed:\n%s\n%s", stdout, stderr)
+	}
+	rec, err := readSlurmRecord(cluster)
+	if err != nil || len(rec.Submissions) != 1 {
+		t.Fatalf("record %+v (%v)", rec, err)
+	}
+	first := rec.Submissions[0]
+	waitSlurm(t, cluster, "part 2 running, the others done", 120*time.Second, func(p map[int]slurmPartState, f *slurmPartState) bool {
+		return p[0].Class == slurm.Done && p[1].Class == slurm.Done && p[3].Class == slurm.Done && p[2].Class == slurm.Running
+	})
+	if err := slurm.Cancel(context.Background(), first.ArrayJob+"_2"); err != nil {
+		t.Fatal(err)
+	}
+	waitSlurm(t, cluster, "part 2 cancelled and the finishing job dropped", 60*time.Second, func(p map[int]slurmPartState, f *slurmPartState) bool {
+		return p[2].Class == slurm.Failed && f != nil && f.Class == slurm.Failed
+	})
+	if _, err := os.Stat(filepath.Join(cluster, "tracks")); err == nil {
+		t.Fatal("tracks were written although part 2 was cancelled")
+	}
+
+	stdout, stderr, err = run(t, args...)
+	if err != nil {
+		t.Fatalf("second run --scheduler slurm: %v\n%s", err, stderr)
+	}
+	if !strings.Contains(stdout, "(parts 2)") || !strings.Contains(stderr, "ended CANCELLED; submitting it again") {
+		t.Fatalf("the second run did not resubmit part 2 alone:\n%s\n%s", stdout, stderr)
+	}
+	waitSlurm(t, cluster, "part 2 and the finishing job done", 120*time.Second, func(p map[int]slurmPartState, f *slurmPartState) bool {
+		if f != nil && f.Class == slurm.Failed {
+			b, _ := os.ReadFile(f.Log)
+			t.Fatalf("the finishing job failed: %s", b)
+		}
+		return p[2].Class == slurm.Done && f != nil && f.Class == slurm.Done
+	})
+	t.Logf("cluster run with one cancellation: %s", time.Since(t1).Round(time.Millisecond))
+
+	want, got := resultFiles(t, local), resultFiles(t, cluster)
+	if strings.Join(want, ",") != strings.Join(got, ",") {
+		t.Fatalf("result files differ:\nlocal   %v\ncluster %v", want, got)
+	}
+	if len(want) < 8 {
+		t.Fatalf("too few result files to compare: %v", want)
+	}
+	for _, f := range want {
+		a, err1 := os.ReadFile(filepath.Join(local, f))
+		b, err2 := os.ReadFile(filepath.Join(cluster, f))
+		if err1 != nil || err2 != nil {
+			t.Fatal(err1, err2)
+		}
+		a, b = unclocked(t, f, a), unclocked(t, f, b)
+		if !bytes.Equal(a, b) {
+			i := 0
+			for i < len(a) && i < len(b) && a[i] == b[i] {
+				i++
+			}
+			lo := max(0, i-80)
+			t.Errorf("%s differs between the local and the Slurm run (%d and %d bytes) from byte %d: %q against %q",
+				f, len(a), len(b), i, a[lo:min(len(a), i+40)], b[lo:min(len(b), i+40)])
+		}
+	}
+	// once complete, the same command submits nothing
+	stdout, stderr, err = run(t, args...)
+	if err != nil || stdout != "" || !strings.Contains(stderr, "nothing to submit") {
+		t.Errorf("a run on a complete folder: %v\n%s\n%s", err, stdout, stderr)
+	}
+}
+
+var (
+	historyStamp = regexp.MustCompile(`\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ written by`)
+	timingsJSON  = regexp.MustCompile(`(?s)"timings_s": \{[^}]*\}`)
+	timingsHTML  = regexp.MustCompile(`<td class="num">[0-9.]+ s</td>`)
+)
+
+// unclocked blanks, in the tracking's outputs, the wall-clock values that
+// differ between any two runs (the time the trajectories file was written,
+// the seconds each pass took) and nothing else. Such a NetCDF file is
+// compared as its full ncdump text, as its header checksums cover the
+// written time; every other file byte for byte.
+func unclocked(t *testing.T, name string, b []byte) []byte {
+	if !strings.HasPrefix(name, "tracks"+string(filepath.Separator)) {
+		return b
+	}
+	if strings.HasSuffix(name, ".nc") {
+		tmp := filepath.Join(t.TempDir(), "x.nc")
+		if err := os.WriteFile(tmp, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		out, err := exec.Command("/usr/bin/ncdump", tmp).Output()
+		if err != nil {
+			t.Fatalf("ncdump %s (netcdf-bin, scripts/setup-deps installs it): %v", name, err)
+		}
+		b = out
+	}
+	b = historyStamp.ReplaceAll(b, []byte("TIME written by"))
+	b = timingsJSON.ReplaceAll(b, []byte(`"timings_s": {}`))
+	return timingsHTML.ReplaceAll(b, []byte(`<td class="num">T s</td>`))
+}
