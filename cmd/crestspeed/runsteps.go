@@ -125,13 +125,12 @@ type runIdentity struct {
 	Rig        string `json:"rig"`
 	CalibLeft  string `json:"calibrate_left,omitempty"`
 	CalibRight string `json:"calibrate_right,omitempty"`
-	Site       string `json:"site,omitempty"`
 }
 
 func identityOf(cfg Config) runIdentity {
 	r := cfg.Reconstruct
 	return runIdentity{Format: identityFormat, Frames: r.Frames, Left: r.Left, Right: r.Right, Timestamps: r.Timestamps,
-		Rig: r.Rig, CalibLeft: cfg.Calibrate.Left, CalibRight: cfg.Calibrate.Right, Site: cfg.Site.Name}
+		Rig: r.Rig, CalibLeft: cfg.Calibrate.Left, CalibRight: cfg.Calibrate.Right}
 }
 
 // describe names the deployment in a few words, for messages.
@@ -256,6 +255,9 @@ func prepareRun(ctx context.Context, con *console, cfg Config) (nParts int, err 
 		}
 	}
 	ranges := planParts(c, n, 0)
+	if err := dropPartsFrom(dir, len(ranges)); err != nil {
+		return 0, err
+	}
 	rp := runParts{Format: partsFormat, Pairs: n}
 	for k, r := range ranges {
 		rp.Parts = append(rp.Parts, partRange{Name: partName(k), First: r[0], Last: r[1]})
@@ -371,50 +373,26 @@ func section(all map[string]any, name string, drop ...string) map[string]any {
 	return out
 }
 
-// relOutputs lists outputs relative to the run folder.
-func relOutputs(names ...string) []string { return names }
+// recordFiles are the files a run reads, listed once per invocation: the
+// rig, and the two images of every pair in time order (then the timestamps
+// file, when there is one).
+type recordFiles struct {
+	rig    []runplan.Input // empty until the rig exists
+	rigMod time.Time
+	pairs  []runplan.Input // 2 per pair
+	stamps []runplan.Input // the timestamps file, when given
+}
 
-// buildSteps lists the steps of the run of c, in order, with their
-// fingerprints' ingredients. Upstream results are taken from the records
-// of the steps before (an upstream step not done yet contributes nothing,
-// so its dependants are not up to date either).
-func buildSteps(c Config, rp runParts) ([]runStep, error) {
-	dir := c.Out
-	plan := runplan.Plan{Dir: dir, Version: version}
-	all := settingsMap(c)
-	var steps []runStep
-	rig := rigPath(c)
-	if c.Reconstruct.Rig == "" {
-		var inputs []runplan.Input
-		pairs, err := calib.PairGlobs(c.Calibrate.Left, c.Calibrate.Right)
-		if err != nil {
-			return nil, usageError{err}
-		}
-		for _, p := range pairs {
-			for _, f := range []string{p.Left, p.Right} {
-				in, err := runplan.FileInput(f)
-				if err != nil {
-					return nil, err
-				}
-				inputs = append(inputs, in)
-			}
-		}
-		outs := []string{runRigName}
-		if c.Calibrate.Figures {
-			w, r := calibrateOutputs(runRigName)
-			outs = append(outs, w, r)
-		}
-		steps = append(steps, runStep{kind: stepCalibrate, Step: runplan.Step{Name: stepCalibrate,
-			Settings: map[string]any{"calibrate": section(all, "calibrate")}, Inputs: inputs, Outputs: outs}})
-	}
-	var rigIn []runplan.Input
-	var rigMod time.Time
-	if fi, err := os.Stat(rig); err == nil {
-		in, err := runplan.ContentInput(rig)
+// listRecord lists the files of the run of c and checks that the record
+// still has the pairs the run was planned for.
+func listRecord(c Config, rp runParts) (*recordFiles, error) {
+	rf := &recordFiles{}
+	if fi, err := os.Stat(rigPath(c)); err == nil {
+		in, err := runplan.ContentInput(rigPath(c))
 		if err != nil {
 			return nil, err
 		}
-		rigIn, rigMod = []runplan.Input{in}, fi.ModTime()
+		rf.rig, rf.rigMod = []runplan.Input{in}, fi.ModTime()
 	}
 	src, err := ingest.OpenPairs(pairSpec(c))
 	if err != nil {
@@ -424,7 +402,7 @@ func buildSteps(c Config, rp runParts) ([]runStep, error) {
 	if src.Len() != rp.Pairs {
 		return nil, fmt.Errorf("the deployment now has %d pairs but the run was planned for %d; run \"crestspeed run\" again to plan it anew", src.Len(), rp.Pairs)
 	}
-	files := make([]runplan.Input, 0, 2*src.Len())
+	rf.pairs = make([]runplan.Input, 0, 2*src.Len())
 	for i := 0; i < src.Len(); i++ {
 		l, r := src.Files(i)
 		for _, f := range []string{l, r} {
@@ -432,7 +410,7 @@ func buildSteps(c Config, rp runParts) ([]runStep, error) {
 			if err != nil {
 				return nil, err
 			}
-			files = append(files, in)
+			rf.pairs = append(rf.pairs, in)
 		}
 	}
 	if c.Reconstruct.Timestamps != "" {
@@ -440,48 +418,113 @@ func buildSteps(c Config, rp runParts) ([]runStep, error) {
 		if err != nil {
 			return nil, err
 		}
-		files = append(files, in)
+		rf.stamps = []runplan.Input{in}
+	}
+	return rf, nil
+}
+
+// buildSteps lists the steps of the run of c, in order, with their
+// fingerprints' ingredients. Upstream results are taken from the records
+// of the steps before (an upstream step not done yet contributes a marker,
+// so its dependants are not up to date either). rf == nil lists the files.
+func buildSteps(c Config, rp runParts, rf *recordFiles) ([]runStep, error) {
+	all := settingsMap(c)
+	var steps []runStep
+	if c.Reconstruct.Rig == "" {
+		st, err := calibrateStep(c, all)
+		if err != nil {
+			return nil, err
+		}
+		steps = append(steps, st)
+	}
+	if rf == nil {
+		var err error
+		if rf, err = listRecord(c, rp); err != nil {
+			return nil, err
+		}
 	}
 	recon := section(all, "reconstruct", "rig", "deflate", "start_utc", "depth_m")
-	upstreamOf := func(name string) []string {
-		if fp := plan.Fingerprint(name); fp != "" {
-			return []string{fp}
-		}
-		return []string{"not done"}
-	}
-	var up []string
-	if c.Reconstruct.Rig == "" {
-		up = upstreamOf(stepCalibrate)
-	}
 	steps = append(steps, runStep{kind: stepSettle, Step: runplan.Step{Name: stepSettle,
 		Settings: map[string]any{"reconstruct": recon, "record_pairs": rp.Pairs},
-		Inputs:   append(append([]runplan.Input{}, rigIn...), files...), Upstream: up, Outputs: relOutputs(runGeometryName)}})
+		Inputs:   concat(rf.rig, rf.pairs, rf.stamps), Outputs: []string{runGeometryName}}})
+	parts, err := partSteps(c, all, rp, rf)
+	if err != nil {
+		return nil, err
+	}
+	steps = append(steps, parts...)
+	plan := runplan.Plan{Dir: c.Out, Version: version}
+	var partHashes []string
+	for _, p := range parts {
+		partHashes = append(partHashes, outputHash(plan, p.Name))
+	}
+	steps = append(steps, runStep{kind: stepIndex, Step: runplan.Step{Name: stepIndex,
+		Settings: map[string]any{"parts": len(rp.Parts)}, Upstream: partHashes,
+		Outputs: []string{filepath.Join(runPartsDir, runIndexName)}}})
+	st, err := trackStep(c, all, append([]string{outputHash(plan, stepIndex)}, partHashes...))
+	if err != nil {
+		return nil, err
+	}
+	return append(steps, st), nil
+}
 
-	// A part depends on the settled geometry by content, so that settling
-	// again to the same geometry keeps the parts.
+// concat joins lists of inputs into a new one.
+func concat(lists ...[]runplan.Input) []runplan.Input {
+	var out []runplan.Input
+	for _, l := range lists {
+		out = append(out, l...)
+	}
+	return out
+}
+
+// calibrateStep is the calibration of a run without a rig file.
+func calibrateStep(c Config, all map[string]any) (runStep, error) {
+	var inputs []runplan.Input
+	pairs, err := calib.PairGlobs(c.Calibrate.Left, c.Calibrate.Right)
+	if err != nil {
+		return runStep{}, usageError{err}
+	}
+	for _, p := range pairs {
+		for _, f := range []string{p.Left, p.Right} {
+			in, err := runplan.FileInput(f)
+			if err != nil {
+				return runStep{}, err
+			}
+			inputs = append(inputs, in)
+		}
+	}
+	outs := []string{runRigName}
+	if c.Calibrate.Figures {
+		w, r := calibrateOutputs(runRigName)
+		outs = append(outs, w, r)
+	}
+	return runStep{kind: stepCalibrate, Step: runplan.Step{Name: stepCalibrate,
+		Settings: map[string]any{"calibrate": section(all, "calibrate")}, Inputs: inputs, Outputs: outs}}, nil
+}
+
+// partSteps are the parts of the record. A part depends on the settled
+// geometry by content, so that settling again to the same geometry keeps
+// the parts, and on its own pairs' images only.
+func partSteps(c Config, all map[string]any, rp runParts, rf *recordFiles) ([]runStep, error) {
 	var geomIn []runplan.Input
-	if in, err := runplan.ContentInput(filepath.Join(dir, runGeometryName)); err == nil {
+	if in, err := runplan.ContentInput(filepath.Join(c.Out, runGeometryName)); err == nil {
 		in.Path = runGeometryName
 		geomIn = []runplan.Input{in}
 	}
-	partSettings := section(all, "reconstruct", "rig")
+	settings := section(all, "reconstruct", "rig")
 	epoch, haveEpoch, err := sourceDateEpoch()
 	if err != nil {
 		return nil, err
 	}
-	var partHashes []string
+	var steps []runStep
 	for k, pr := range rp.Parts {
-		if pr.First < 0 || pr.Last > rp.Pairs || pr.First >= pr.Last {
-			return nil, fmt.Errorf("the part list of the run in %s is damaged (%s: pairs %d–%d of %d); run \"crestspeed run\" again", dir, pr.Name, pr.First, pr.Last, rp.Pairs)
+		if pr.First < 0 || pr.Last > rp.Pairs || pr.First >= pr.Last || (k > 0 && pr.First != rp.Parts[k-1].Last) {
+			return nil, fmt.Errorf("the part list of the run in %s is damaged (%s: pairs %d–%d of %d); run \"crestspeed run\" again", c.Out, pr.Name, pr.First, pr.Last, rp.Pairs)
 		}
-		inputs := append(append(append([]runplan.Input{}, geomIn...), rigIn...), files[2*pr.First:2*pr.Last]...)
-		if c.Reconstruct.Timestamps != "" {
-			inputs = append(inputs, files[len(files)-1])
-		}
+		own := rf.pairs[2*pr.First : 2*pr.Last]
 		// The files' creation time is that of their newest input, so that
 		// the same inputs give the same bytes whenever they are processed.
-		created := rigMod
-		for _, in := range files[2*pr.First : 2*pr.Last] {
+		created := rf.rigMod
+		for _, in := range own {
 			if t := time.Unix(0, in.ModTime); t.After(created) {
 				created = t
 			}
@@ -493,31 +536,31 @@ func buildSteps(c Config, rp runParts) ([]runStep, error) {
 		name := partName(k)
 		steps = append(steps, runStep{kind: stepPart, part: k, first: pr.First, last: pr.Last, created: created,
 			Step: runplan.Step{Name: name,
-				Settings: map[string]any{"reconstruct": partSettings, "site": section(all, "site"),
+				Settings: map[string]any{"reconstruct": settings, "site": section(all, "site"),
 					"pairs": []int{pr.First, pr.Last}, "created": created.Format(time.RFC3339)},
-				Inputs: inputs, Outputs: relOutputs(filepath.Join(runPartsDir, name+".nc"), filepath.Join(runPartsDir, name+"-points.nc"))}})
-		partHashes = append(partHashes, outputHash(plan, name))
+				Inputs:  concat(geomIn, rf.rig, own, rf.stamps),
+				Outputs: []string{filepath.Join(runPartsDir, name+".nc"), filepath.Join(runPartsDir, name+"-points.nc")}}})
 	}
-	steps = append(steps, runStep{kind: stepIndex, Step: runplan.Step{Name: stepIndex,
-		Settings: map[string]any{"parts": len(rp.Parts)}, Upstream: partHashes,
-		Outputs: relOutputs(filepath.Join(runPartsDir, runIndexName))}})
+	return steps, nil
+}
 
-	var trackIn []runplan.Input
+// trackStep is the tracking and report of the record, after upstream.
+func trackStep(c Config, all map[string]any, upstream []string) (runStep, error) {
+	var inputs []runplan.Input
 	if g := c.Track.Gauge.File; g != "" {
 		in, err := runplan.ContentInput(g)
 		if err != nil {
-			return nil, err
+			return runStep{}, err
 		}
-		trackIn = append(trackIn, in)
+		inputs = append(inputs, in)
 	}
 	outs := inDir(runTracksDir, report.TrackOutputs...)
 	if c.Track.Report {
 		outs = append(outs, filepath.Join(runTracksDir, "report.html"), filepath.Join(runTracksDir, "crest_tracks.nc"))
 	}
-	steps = append(steps, runStep{kind: stepTrack, Step: runplan.Step{Name: stepTrack,
+	return runStep{kind: stepTrack, Step: runplan.Step{Name: stepTrack,
 		Settings: map[string]any{"track": section(all, "track", "input"), "report": section(all, "report"), "site": section(all, "site")},
-		Inputs:   trackIn, Upstream: append([]string{outputHash(plan, stepIndex)}, partHashes...), Outputs: outs}})
-	return steps, nil
+		Inputs:   inputs, Upstream: upstream, Outputs: outs}}, nil
 }
 
 // outputHash is the SHA-256 of the first output recorded for a step, or a
@@ -600,8 +643,13 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 	did, partsDone, partsToDo := 0, 0, 0
 	var partTime time.Duration
 	// The steps are rebuilt before each one, because a step's record
-	// feeds the fingerprints of those after it.
-	steps, err := buildSteps(c, rp)
+	// feeds the fingerprints of those after it; the record's files are
+	// listed once (again after a calibration, which writes the rig).
+	rf, err := listRecord(c, rp)
+	if err != nil {
+		return err
+	}
+	steps, err := buildSteps(c, rp, rf)
 	if err != nil {
 		return err
 	}
@@ -613,13 +661,16 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 		}
 	}
 	for i := range steps {
-		steps, err := buildSteps(c, rp)
+		steps, err := buildSteps(c, rp, rf)
 		if err != nil {
 			return err
 		}
 		s := steps[i]
 		if !want(s) {
 			continue
+		}
+		if err := checkBefore(plan, s, steps[:i], want); err != nil {
+			return err
 		}
 		ok, why, err := plan.Check(s.Step, false)
 		if err != nil {
@@ -636,6 +687,11 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 			return err
 		}
 		did++
+		if s.kind == stepCalibrate {
+			if rf, err = listRecord(c, rp); err != nil {
+				return err
+			}
+		}
 		msg := fmt.Sprintf("run: %s done in %s", s.Name, elapsed(st))
 		if s.kind == stepPart {
 			partsDone++
@@ -654,6 +710,32 @@ func doSteps(ctx context.Context, con *console, dir string, workers int, want fu
 		log.logf("run: %d steps done in %s; kept %s, up to date", did, elapsed(t0), describeSteps(kept))
 	default:
 		log.logf("run: %d steps done in %s", did, elapsed(t0))
+	}
+	return nil
+}
+
+// checkBefore refuses to do s when a step it depends on, not done by this
+// invocation, is not up to date: a part needs the settled geometry (not
+// the other parts), the index every part.
+func checkBefore(plan runplan.Plan, s runStep, before []runStep, want func(runStep) bool) error {
+	for _, b := range before {
+		if want(b) || (s.kind == stepPart && b.kind == stepPart) {
+			continue
+		}
+		ok, why, err := plan.Check(b.Step, false)
+		if err != nil {
+			return err
+		}
+		if !ok {
+			group := "prepare"
+			switch b.kind {
+			case stepPart:
+				group = fmt.Sprintf("part --part %d", b.part)
+			case stepIndex, stepTrack:
+				group = "finish"
+			}
+			return incompleteError{fmt.Errorf("step %s is not up to date (%s); do it first (crestspeed run-step --step %s)", b.Name, why, group)}
+		}
 	}
 	return nil
 }
@@ -757,6 +839,9 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 		if err := claimOutputs(true, outs...); err != nil {
 			return err
 		}
+		if err := removeWriterTemps(outs...); err != nil {
+			return err
+		}
 		units := ingest.DefaultTimeUnits
 		if st := c.Reconstruct.StartUTC; st != "" {
 			t, err := time.Parse(time.RFC3339, st)
@@ -771,7 +856,7 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 			Platform: c.Site.Platform, Georef: c.Site.georef(), Created: s.created,
 		}}
 		update, stop := con.passes()
-		opt.Progress = func(pass string, done, total int) { update(s.Name+" "+pass, done, total) }
+		opt.Progress = hookPasses(s.Name, func(pass string, done, total int) { update(s.Name+" "+pass, done, total) })
 		res, err := surface.WritePart(ctx, rig, open, geom, opt, s.first, s.last, sink)
 		stop()
 		if err != nil {
@@ -804,7 +889,7 @@ func runOne(ctx context.Context, con *console, c Config, s runStep) error {
 		}
 		cc := c
 		cc.Out = tracks
-		_, err := Track(ctx, con, cc)
+		_, err := track(ctx, con, cc, true)
 		return err
 	}
 	return fmt.Errorf("unknown step kind %q", s.kind)
@@ -835,3 +920,60 @@ func wantPart(k int) func(runStep) bool {
 	return func(s runStep) bool { return s.kind == stepPart && s.part == k }
 }
 func wantAll(runStep) bool { return true }
+
+// passHook, when set, sees every progress update of the reconstruction of a
+// part and of tracking, with the step's name: a test uses it to stop a run
+// at a known point of its work.
+var passHook func(step, pass string, done, total int)
+
+// hookPasses returns update, seen by passHook first when one is set.
+func hookPasses(step string, update func(pass string, done, total int)) func(pass string, done, total int) {
+	if passHook == nil {
+		return update
+	}
+	return func(pass string, done, total int) {
+		passHook(step, pass, done, total)
+		update(pass, done, total)
+	}
+}
+
+// removeWriterTemps removes the temporaries the NetCDF writer
+// (internal/netcdf) leaves beside a file when its process is killed:
+// NAME.part-<16 hex digits>.
+func removeWriterTemps(paths ...string) error {
+	for _, p := range paths {
+		matches, err := filepath.Glob(p + ".part-" + strings.Repeat("[0-9a-f]", 16))
+		if err != nil {
+			return err
+		}
+		for _, m := range matches {
+			if err := os.Remove(m); err != nil && !errors.Is(err, fs.ErrNotExist) {
+				return fmt.Errorf("cannot remove the temporary %s of a stopped run: %w", m, err)
+			}
+		}
+	}
+	return nil
+}
+
+// dropPartsFrom removes the files and records of the parts numbered n and
+// above, left by an earlier plan of the run with more parts.
+func dropPartsFrom(dir string, n int) error {
+	plan := runplan.Plan{Dir: dir}
+	for k := n; ; k++ {
+		name := partName(k)
+		files := []string{filepath.Join(dir, runPartsDir, name+".nc"), filepath.Join(dir, runPartsDir, name+"-points.nc")}
+		_, errRec := plan.Load(name)
+		_, errFile := os.Stat(files[0])
+		if errors.Is(errRec, fs.ErrNotExist) && errors.Is(errFile, fs.ErrNotExist) {
+			return nil
+		}
+		for _, f := range append(files, failedPath(dir, name)) {
+			if err := os.Remove(f); err != nil && !errors.Is(err, fs.ErrNotExist) {
+				return fmt.Errorf("cannot remove %s of the earlier plan of the run: %w", f, err)
+			}
+		}
+		if err := plan.Forget(name); err != nil {
+			return err
+		}
+	}
+}

@@ -3,7 +3,9 @@ package main
 import (
 	"context"
 	"fmt"
+	"maps"
 	"math"
+	"slices"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -105,6 +107,13 @@ func checkTrack(cfg Config) error {
 // Track runs the crest analysis of the elevation-map file cfg.Track.Input
 // into the folder cfg.Out, then the report unless cfg.Track.Report is off.
 func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, error) {
+	return track(ctx, con, cfg, false)
+}
+
+// track is Track; with reproducible the wall times of the passes go to the
+// log instead of summary.json, so that the same inputs give the same bytes
+// (the steps of "run").
+func track(ctx context.Context, con *console, cfg Config, reproducible bool) (*report.Summary, error) {
 	if err := checkTrack(cfg); err != nil {
 		return nil, err
 	}
@@ -140,7 +149,7 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 		opt.Probe = &analysis.ProbePoint{X: *tc.Gauge.XM, Y: *tc.Gauge.YM}
 	}
 	update, stop := con.passes()
-	opt.Progress = update
+	opt.Progress = hookPasses("track", update)
 	con.logf("track: %s, %d frames of %d×%d", tc.Input, len(src.Meta().Times), src.Meta().Grid.Nx(), src.Meta().Grid.Ny())
 	rec, err := analysis.Run(ctx, src, opt)
 	stop()
@@ -149,6 +158,12 @@ func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, erro
 	}
 	for _, w := range rec.Warnings {
 		con.logf("track: warning: %s", w)
+	}
+	if reproducible {
+		for _, k := range slices.Sorted(maps.Keys(rec.Timings)) {
+			con.logf("track: %s took %s", k, rec.Timings[k].Round(time.Millisecond))
+		}
+		clear(rec.Timings)
 	}
 	var gaugeRun *report.GaugeRun
 	if gauge != nil {

@@ -28,6 +28,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"syscall"
 	"time"
 
 	"crestspeed/internal/atomicfile"
@@ -144,7 +145,7 @@ func (p Plan) Check(s Step, verify bool) (upToDate bool, why string, err error) 
 		path := filepath.Join(p.Dir, o.Path)
 		fi, err := os.Stat(path)
 		switch {
-		case errors.Is(err, fs.ErrNotExist):
+		case errors.Is(err, fs.ErrNotExist), errors.Is(err, syscall.ENOTDIR):
 			return false, "its output " + o.Path + " is missing", nil
 		case err != nil:
 			return false, "", fmt.Errorf("output %s cannot be checked: %w", path, err)
