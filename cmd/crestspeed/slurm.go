@@ -320,7 +320,7 @@ func runProgress(dir string) (parts []bool, finished bool, err error) {
 	if err != nil {
 		return nil, false, err
 	}
-	steps, err := buildSteps(c, rp)
+	steps, err := buildSteps(c, rp, nil)
 	if err != nil {
 		return nil, false, err
 	}
@@ -390,4 +390,57 @@ func runScheduled(ctx context.Context, con *console, cfg Config, name string) er
 		return RunOnSlurm(ctx, con, cfg)
 	}
 	return usageError{fmt.Errorf("--scheduler %q is not a scheduler; give local or slurm", name)}
+}
+
+func init() { schedulerStates = slurmSchedulerStates }
+
+// slurmSchedulerStates is status's view of the Slurm jobs of the run in
+// dir, by step name: parts (part-NNNN) and the finishing steps (index,
+// track) whose latest job is queued or running, and those whose job Slurm
+// ended otherwise (cancelled, out of time or memory) while the step is not
+// done: such a job may have been killed before the step could mark itself
+// failed. A run never given to Slurm gives nothing.
+func slurmSchedulerStates(ctx context.Context, dir string) (map[string]string, error) {
+	parts, fin, err := slurmStates(ctx, dir)
+	if err != nil || (parts == nil && fin == nil) {
+		return nil, err
+	}
+	partOK, finOK, err := runProgress(dir)
+	if err != nil {
+		return nil, err
+	}
+	say := func(st slurmPartState, done bool) string {
+		switch {
+		case st.Class == slurm.Queued:
+			return "queued (Slurm job " + st.Job + ")"
+		case st.Class == slurm.Running:
+			return "running (Slurm job " + st.Job + ", log " + st.Log + ")"
+		case st.Class == slurm.Failed && !done:
+			return fmt.Sprintf("failed: Slurm ended job %s %s; log %s%s", st.Job, st.State, st.Log, logTail(st.Log))
+		}
+		return ""
+	}
+	out := map[string]string{}
+	for k, st := range parts {
+		if k < len(partOK) {
+			if s := say(st, partOK[k]); s != "" {
+				out[partName(k)] = s
+			}
+		}
+	}
+	if fin != nil {
+		if s := say(*fin, finOK); s != "" {
+			out[stepIndex], out[stepTrack] = s, s
+		}
+	}
+	return out, nil
+}
+
+// logTail is the last line of a job's log, after " — ", or "".
+func logTail(path string) string {
+	l := tailLines(path, 1)
+	if len(l) == 0 || strings.TrimSpace(l[0]) == "" {
+		return ""
+	}
+	return " — " + strings.TrimSpace(l[0])
 }

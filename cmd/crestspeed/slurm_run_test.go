@@ -3,7 +3,6 @@ package main
 import (
 	"bytes"
 	"context"
-	"image"
 	"io/fs"
 	"os"
 	"os/exec"
@@ -17,26 +16,6 @@ import (
 	"crestspeed/internal/slurm"
 	"crestspeed/samples"
 )
-
-// slurmDeployment renders the small deployment of the Slurm end-to-end
-// test: the demo rig at 640×512 px looking 45° down at a short wind sea
-// (Hs 0.6 m, Tp 2.8 s), 16 frames at 4 Hz.
-func slurmDeployment(t *testing.T) string {
-	t.Helper()
-	d := samples.DemoDeployment()
-	d.ImageSize = image.Pt(640, 512)
-	d.DepressionDeg = 45
-	d.Sea.JONSWAP.HsM = 0.6
-	d.Sea.JONSWAP.TpS = 2.8
-	d.FPS = 4
-	d.Frames = 16
-	d.CalibrationViews = 1
-	dir := filepath.Join(t.TempDir(), "dep")
-	if _, err := samples.WriteDeployment(context.Background(), d, dir, 2, nil); err != nil {
-		t.Fatal(err)
-	}
-	return dir
-}
 
 // resultFiles lists the result files of a run folder (relative paths):
 // everything but the logs and the records of the run and of its jobs.
@@ -73,11 +52,9 @@ func resultFiles(t *testing.T, dir string) []string {
 // that part alone with a new finishing job, and compares every result file
 // byte for byte with `run` on this machine.
 func TestRunOnSlurmMatchesLocal(t *testing.T) {
-	if _, err := testCluster.Get(); err != nil {
-		t.Fatal(err)
-	}
+	startCluster(t)
 	t.Setenv("SOURCE_DATE_EPOCH", "1781427600") // fixed creation times in the part files
-	dep := slurmDeployment(t)
+	dep := runDeploymentDir(t) // run_test.go
 	base := t.TempDir()
 	cfg := filepath.Join(base, "dep.yaml")
 	conf := strings.Join([]string{
@@ -138,6 +115,11 @@ func TestRunOnSlurmMatchesLocal(t *testing.T) {
 	waitSlurm(t, cluster, "part 2 running, the others done", 120*time.Second, func(p map[int]slurmPartState, f *slurmPartState) bool {
 		return p[0].Class == slurm.Done && p[1].Class == slurm.Done && p[3].Class == slurm.Done && p[2].Class == slurm.Running
 	})
+	stdout, _, err = run(t, "status", cluster)
+	if exitCode(err) != exitIncomplete || !regexp.MustCompile(`part-0002 +running \(Slurm job `+first.ArrayJob+`_2`).MatchString(stdout) ||
+		!regexp.MustCompile(`track +queued \(Slurm job `+first.FinishJob+`\)`).MatchString(stdout) {
+		t.Errorf("status while part 2 runs: exit %d\n%s", exitCode(err), stdout)
+	}
 	if err := slurm.Cancel(context.Background(), first.ArrayJob+"_2"); err != nil {
 		t.Fatal(err)
 	}
@@ -146,6 +128,11 @@ func TestRunOnSlurmMatchesLocal(t *testing.T) {
 	})
 	if _, err := os.Stat(filepath.Join(cluster, "tracks")); err == nil {
 		t.Fatal("tracks were written although part 2 was cancelled")
+	}
+	stdout, _, err = run(t, "status", cluster)
+	if exitCode(err) != exitIncomplete || !strings.Contains(stdout, "part-0002  failed: Slurm ended job "+first.ArrayJob+"_2 CANCELLED") ||
+		!regexp.MustCompile(`part-0001 +done`).MatchString(stdout) {
+		t.Errorf("status after the cancellation: exit %d\n%s", exitCode(err), stdout)
 	}
 
 	stdout, stderr, err = run(t, args...)
@@ -187,6 +174,9 @@ func TestRunOnSlurmMatchesLocal(t *testing.T) {
 			t.Errorf("%s differs between the local and the Slurm run (%d and %d bytes) from byte %d: %q against %q",
 				f, len(a), len(b), i, a[lo:min(len(a), i+40)], b[lo:min(len(b), i+40)])
 		}
+	}
+	if stdout, _, err := run(t, "status", cluster); err != nil || !strings.Contains(stdout, "complete") {
+		t.Errorf("status of the complete run: %v\n%s", err, stdout)
 	}
 	// once complete, the same command submits nothing
 	stdout, stderr, err = run(t, args...)

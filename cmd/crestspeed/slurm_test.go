@@ -14,30 +14,35 @@ import (
 	"crestspeed/internal/slurm/localcluster"
 )
 
-// testCluster is the one-node Slurm of scripts/slurm-local for this
-// package's tests, on its own folder and ports (internal/slurm's tests use
-// another), started by the first test that needs it and stopped by
-// TestMain.
-var testCluster = &localcluster.Lazy{Dir: "/tmp/crestspeed-slurm-cmdtest", Port: 6847}
-
 // asCLI is the variable that makes the test binary act as the crestspeed
-// executable (for jobs the end-to-end Slurm test submits): no test runs.
+// executable (for the jobs the end-to-end Slurm test submits): it runs
+// main before any test. The package's other files have registered their
+// commands by then (test files are initialised after them).
 const asCLI = "CS_TEST_BINARY_AS_CLI"
 
-func TestMain(m *testing.M) {
+func init() {
 	if os.Getenv(asCLI) == "1" {
 		os.Args = append(os.Args[:1], flagless(os.Args[1:])...)
 		main()
 		os.Exit(0)
 	}
-	code := m.Run()
-	if err := testCluster.Stop(); err != nil {
-		fmt.Fprintln(os.Stderr, err)
-		if code == 0 {
-			code = 1
-		}
+}
+
+// startCluster starts the one-node Slurm of scripts/slurm-local for one
+// test, on a folder and ports of its own (internal/slurm's tests use
+// others, so that `go test ./...` may run both packages at once), and
+// stops it when the test ends.
+func startCluster(t *testing.T) {
+	t.Helper()
+	c, err := localcluster.Start("/tmp/crestspeed-slurm-cmdtest", 6847)
+	if err != nil {
+		t.Fatal(err)
 	}
-	os.Exit(code)
+	t.Cleanup(func() {
+		if err := c.Stop(); err != nil {
+			t.Error(err)
+		}
+	})
 }
 
 // flagless drops the go test flags (-test.*) a wrapper may pass on.
@@ -78,9 +83,7 @@ func waitSlurm(t *testing.T, dir, what string, limit time.Duration, ok func(map[
 // call submits that part alone with a new finishing job; once complete,
 // a call submits nothing.
 func TestSlurmSubmitResubmit(t *testing.T) {
-	if _, err := testCluster.Get(); err != nil {
-		t.Fatal(err)
-	}
+	startCluster(t)
 	ctx := context.Background()
 	dir := t.TempDir()
 	exe := filepath.Join(dir, "fake-crestspeed")
