@@ -54,7 +54,7 @@ func resultFiles(t *testing.T, dir string) []string {
 func TestRunOnSlurmMatchesLocal(t *testing.T) {
 	startCluster(t)
 	t.Setenv("SOURCE_DATE_EPOCH", "1781427600") // fixed creation times in the part files
-	dep := runDeploymentDir(t) // run_test.go
+	dep := runDeploymentDir(t)                  // run_test.go
 	base := t.TempDir()
 	cfg := filepath.Join(base, "dep.yaml")
 	conf := strings.Join([]string{
