@@ -199,13 +199,27 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 	if err != nil {
 		return sub, err
 	}
-	if rec.Parts != 0 && rec.Parts != p.Parts && len(rec.Submissions) > 0 {
-		con.logf("slurm: the run now has %d parts, the jobs recorded were for %d; earlier jobs are not counted", p.Parts, rec.Parts)
-		rec.Submissions = nil
-	}
 	parts, fin, err := slurmStates(ctx, p.Dir)
 	if err != nil {
 		return sub, err
+	}
+	if rec.Parts != 0 && rec.Parts != p.Parts && len(rec.Submissions) > 0 {
+		// The jobs of the old split would write parts of another numbering.
+		var stale []string
+		for _, st := range parts {
+			if st.Class == slurm.Queued || st.Class == slurm.Running {
+				stale = append(stale, st.Job)
+			}
+		}
+		if fin != nil && (fin.Class == slurm.Queued || fin.Class == slurm.Running) {
+			stale = append(stale, fin.Job)
+		}
+		sort.Strings(stale)
+		if err := slurm.Cancel(ctx, stale...); err != nil {
+			return sub, err
+		}
+		con.logf("slurm: the run now has %d parts, the jobs recorded were for %d; cancelled those still in the queue (%s)", p.Parts, rec.Parts, strings.Join(stale, ", "))
+		rec.Submissions, parts, fin = nil, nil, nil
 	}
 	var missing []int
 	var after []string
