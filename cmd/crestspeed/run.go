@@ -11,7 +11,7 @@ func init() { extraCommands = append(extraCommands, newRunCmd, newRunStepCmd) }
 
 func newRunCmd(app *App) *cobra.Command {
 	cmd := &cobra.Command{
-		Use:   "run --config deployment.yaml --out DIR [--parts N]",
+		Use:   "run --config deployment.yaml --out DIR [--parts N] | run --out DIR [--config campaign.yaml] A.yaml B.yaml...",
 		Short: "Run the whole chain on a deployment: calibrate, reconstruct in parts, track, report",
 		Long: `Run the whole chain on one deployment from one configuration file, in steps
 recorded in the run folder DIR:
@@ -33,13 +33,26 @@ result is the same, byte for byte, as that of an uninterrupted run. A folder
 holding the run of another deployment is refused; --force redoes every step.
 "crestspeed status DIR" shows where a run stands.
 
+Given several deployment configuration files as arguments, run does each
+deployment into DIR/<file name without .yaml>/ in turn, then pools them into
+the campaign report in DIR/campaign (settings of the campaign section from
+--config); a rerun again does only what is missing or out of date.
+
 Every setting comes from the file (see "crestspeed init"); the resolved
 configuration is kept in DIR/.crestspeed/config.yaml and the run's log in
 DIR/run.log.`,
-		Args: cobra.NoArgs,
+		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if s, _ := cmd.Flags().GetString("scheduler"); s != "local" {
-				return runScheduled(cmd.Context(), app.con, *app.cfg, s) // slurm.go
+				conf, _ := cmd.Flags().GetString("config")
+				return runScheduled(cmd.Context(), app.con, *app.cfg, s, args, conf, flagGiven(cmd, "parts")) // slurm.go
+			}
+			if len(args) > 0 {
+				parts := -1
+				if flagGiven(cmd, "parts") {
+					parts = app.cfg.Run.Parts
+				}
+				return RunCampaign(cmd.Context(), app.con, *app.cfg, args, parts)
 			}
 			return RunDeployment(cmd.Context(), app.con, *app.cfg)
 		},

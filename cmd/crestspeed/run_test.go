@@ -41,24 +41,31 @@ func TestMain(m *testing.M) {
 	os.Exit(code)
 }
 
+// smallDeployment is the deployment of the run tests, its sea drawn with
+// the given seed.
+func smallDeployment(seed uint64) samples.Deployment {
+	d := samples.DemoDeployment()
+	d.ImageSize = image.Pt(640, 512)
+	d.DepressionDeg = 45
+	d.Sea.JONSWAP.HsM = 0.6
+	d.Sea.JONSWAP.TpS = 2.8
+	d.Sea.JONSWAP.Seed = seed
+	d.FPS = 4
+	d.Frames = 16
+	d.CalibrationViews = 1
+	return d
+}
+
 func runDeploymentDir(t *testing.T) string {
 	t.Helper()
 	runDep.once.Do(func() {
-		d := samples.DemoDeployment()
-		d.ImageSize = image.Pt(640, 512)
-		d.DepressionDeg = 45
-		d.Sea.JONSWAP.HsM = 0.6
-		d.Sea.JONSWAP.TpS = 2.8
-		d.FPS = 4
-		d.Frames = 16
-		d.CalibrationViews = 1
 		base, err := os.MkdirTemp("", "crestspeed-run-test-")
 		if err != nil {
 			runDep.err = err
 			return
 		}
 		runDep.dir = filepath.Join(base, "dep")
-		_, runDep.err = samples.WriteDeployment(context.Background(), d, runDep.dir, 2, nil)
+		_, runDep.err = samples.WriteDeployment(context.Background(), smallDeployment(samples.DemoDeployment().Sea.JONSWAP.Seed), runDep.dir, 2, nil)
 	})
 	if runDep.err != nil {
 		t.Fatal(runDep.err)
@@ -208,6 +215,52 @@ func TestRunResumable(t *testing.T) {
 	checkSentence(t, err, junk, "holds no crestspeed run")
 }
 
+// Several deployment files in one run: each into its own folder, then the
+// campaign report; a rerun does nothing; a tracking setting changed in one
+// file redoes that deployment's tracking and the campaign only.
+func TestRunCampaign(t *testing.T) {
+	depA := runDeploymentDir(t)
+	base := t.TempDir()
+	depB := filepath.Join(base, "dep-b")
+	if _, err := samples.WriteDeployment(context.Background(), smallDeployment(424242), depB, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+	a, b := filepath.Join(base, "north.yaml"), filepath.Join(base, "south.yaml")
+	writeRunConfig(t, depA, a)
+	writeRunConfig(t, depB, b)
+	out := filepath.Join(base, "campaign-run")
+	args := []string{"run", "--out", out, "--parts", "2", "--workers", "2", a, b}
+	if _, stderr, err := run(t, args...); err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	for _, f := range []string{"north/tracks/summary.json", "south/parts/part-0001.nc", "campaign/report.html", "campaign/deployments.csv"} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Errorf("the campaign run did not write %s: %v", f, err)
+		}
+	}
+	csv := string(mustRead(t, filepath.Join(out, "campaign", "deployments.csv")))
+	if n := strings.Count(strings.TrimSpace(csv), "\n"); n != 2 {
+		t.Errorf("deployments.csv has %d rows, want 2:\n%s", n, csv)
+	}
+	_, stderr, err := run(t, args...)
+	if err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	if strings.Count(stderr, "nothing to do") != 2 || !strings.Contains(stderr, "campaign report") || !strings.Contains(stderr, "up to date") || doneSteps(stderr) != nil {
+		t.Errorf("the second campaign run did something:\n%s", stderr)
+	}
+	writeRunConfig(t, depB, b, "track:", "  max_gap_frames: 3")
+	_, stderr, err = run(t, args...)
+	if err != nil {
+		t.Fatalf("%v\n%s", err, stderr)
+	}
+	if got := doneSteps(stderr); strings.Join(got, ",") != "track,campaign" {
+		t.Errorf("after a change in south.yaml the run did %v, want track (of south) and campaign:\n%s", got, stderr)
+	}
+	_, _, err = run(t, "run", "--out", out, a, filepath.Join(base, "sub", "north.yaml"))
+	checkSentence(t, err, "same name", "north")
+}
+
 func mustRead(t *testing.T, path string) []byte {
 	t.Helper()
 	b, err := os.ReadFile(path)
@@ -297,7 +350,16 @@ func TestRunKilled(t *testing.T) {
 			if err := os.RemoveAll(out); err != nil {
 				t.Fatal(err)
 			}
-			killRunAt(t, c.stall, runArgs(cfg, out))
+			killRunAt(t, c.stall, runArgs(cfg, out), func() {
+				// While the child holds the step: status says so, and a
+				// second run is refused rather than doing it twice.
+				stdout, _, err := run(t, "status", out)
+				if exitCode(err) != 3 || !strings.Contains(stdout, fmt.Sprintf("%-10s running", c.stall)) {
+					t.Errorf("status during the run: %v (exit %d)\n%s", err, exitCode(err), stdout)
+				}
+				_, _, err = run(t, runArgs(cfg, out)...)
+				checkSentence(t, err, c.stall, "another crestspeed process")
+			})
 			if c.stall == "part-0001" {
 				if _, err := os.Stat(filepath.Join(out, "parts", "part-0001.nc")); err == nil {
 					t.Errorf("a part killed in the middle is there")
@@ -378,8 +440,8 @@ func TestRunKilled(t *testing.T) {
 }
 
 // killRunAt starts a run in a child process, waits until it stalls in the
-// named step and kills it with SIGKILL.
-func killRunAt(t *testing.T, stall string, args []string) {
+// named step, calls whileStalled and kills the child with SIGKILL.
+func killRunAt(t *testing.T, stall string, args []string, whileStalled func()) {
 	t.Helper()
 	cmd := exec.Command(os.Args[0], "-test.run=^TestRunChildProcess$", "-test.count=1")
 	cmd.Env = append(os.Environ(), "RUNTEST_CHILD=1", "RUNTEST_STALL="+stall, "RUNTEST_ARGS="+strings.Join(args, "\x1f"))
@@ -413,6 +475,7 @@ func killRunAt(t *testing.T, stall string, args []string) {
 		cmd.Wait()
 		t.Fatalf("the child run did not reach %s in 90 s", stall)
 	}
+	whileStalled()
 	if err := cmd.Process.Signal(syscall.SIGKILL); err != nil {
 		t.Fatal(err)
 	}
@@ -480,7 +543,7 @@ print("same" if repr(load(sys.argv[1])) == repr(load(sys.argv[2])) else "differe
 func compareRunTrees(t *testing.T, ref, got string) {
 	t.Helper()
 	skip := func(rel string) bool {
-		return rel == "run.log" || strings.HasPrefix(rel, "logs/") || strings.HasPrefix(rel, ".crestspeed/steps/")
+		return rel == "run.log" || strings.HasPrefix(rel, "logs/") || strings.HasPrefix(rel, ".crestspeed/steps/") || strings.HasPrefix(rel, ".crestspeed/locks/")
 	}
 	files := map[string]bool{}
 	for _, root := range []string{ref, got} {

@@ -25,6 +25,7 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"syscall"
 	"time"
 
 	"gopkg.in/yaml.v3"
@@ -764,6 +765,11 @@ func describeSteps(names []string) string {
 // and records it when it succeeds (or marks it failed).
 func doStep(ctx context.Context, con *console, c Config, plan runplan.Plan, s runStep) error {
 	dir := c.Out
+	unlock, err := lockStep(dir, s.Name)
+	if err != nil {
+		return err
+	}
+	defer unlock()
 	if err := plan.Forget(s.Name); err != nil {
 		return err
 	}
@@ -976,4 +982,55 @@ func dropPartsFrom(dir string, n int) error {
 			return err
 		}
 	}
+}
+
+// lockPath is the lock file of a step: held (flock) by the process doing
+// it, released by the system when that process ends, however it ends.
+func lockPath(dir, name string) string {
+	return filepath.Join(stateDir(dir), "locks", name+".lock")
+}
+
+// lockStep takes the lock of a step, refusing when another process holds
+// it.
+func lockStep(dir, name string) (unlock func(), err error) {
+	path := lockPath(dir, name)
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		return nil, fmt.Errorf("cannot create %s: %w", filepath.Dir(path), err)
+	}
+	f, err := os.OpenFile(path, os.O_CREATE|os.O_RDWR, 0o644)
+	if err != nil {
+		return nil, fmt.Errorf("cannot open the lock of step %s: %w", name, err)
+	}
+	// A few tries: "status" holds the lock for an instant when it looks.
+	for try := 0; try < 20; try++ {
+		if err = syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB); !errors.Is(err, syscall.EWOULDBLOCK) {
+			break
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	if err != nil {
+		f.Close()
+		if errors.Is(err, syscall.EWOULDBLOCK) {
+			return nil, incompleteError{fmt.Errorf("step %s is being done by another crestspeed process; wait for it to end (crestspeed status %s) or stop it", name, dir)}
+		}
+		return nil, fmt.Errorf("cannot lock step %s: %w", name, err)
+	}
+	return func() {
+		syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
+		f.Close()
+	}, nil
+}
+
+// stepRunning reports whether a process holds the lock of a step.
+func stepRunning(dir, name string) bool {
+	f, err := os.Open(lockPath(dir, name))
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	if err := syscall.Flock(int(f.Fd()), syscall.LOCK_SH|syscall.LOCK_NB); err != nil {
+		return errors.Is(err, syscall.EWOULDBLOCK)
+	}
+	syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
+	return false
 }

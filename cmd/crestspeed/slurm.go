@@ -46,6 +46,8 @@ type slurmSubmission struct {
 	FinishJob string `json:"finish_job"`
 	// After are the jobs ("ID" or "ID_K") the finishing job waits for.
 	After []string `json:"after"`
+	// Queued: nothing was submitted; FinishJob is the one already queued.
+	Queued bool `json:"-"`
 }
 
 // slurmPlan is what a submission needs to know about the run.
@@ -243,7 +245,7 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 	}
 	if fin != nil && len(missing) == 0 && (fin.Class == slurm.Queued || fin.Class == slurm.Running) {
 		con.logf("slurm: nothing to submit; %d parts and the finishing job %s are in the queue", len(after), fin.Job)
-		return sub, nil
+		return slurmSubmission{FinishJob: fin.Job, Queued: true}, nil
 	}
 	if fin != nil && fin.Class == slurm.Queued {
 		if err := slurm.Cancel(ctx, fin.Job); err != nil {
@@ -362,48 +364,161 @@ func runProgress(dir string) (parts []bool, finished bool, err error) {
 // unfinished parts go to the cluster as one array job and the index, track
 // and report as a job that waits for them. It prints the job ids. Running
 // it again submits only what is neither done nor in the queue.
-func RunOnSlurm(ctx context.Context, con *console, cfg Config) error {
+func RunOnSlurm(ctx context.Context, con *console, cfg Config) (slurmSubmission, error) {
+	return runOnSlurm(ctx, con, cfg, cfg.Slurm)
+}
+
+// runOnSlurm is RunOnSlurm with the sbatch options opts.
+func runOnSlurm(ctx context.Context, con *console, cfg Config, opts slurm.Options) (slurmSubmission, error) {
+	var none slurmSubmission
+	if err := opts.Validate(); err != nil {
+		return none, usageError{err}
+	}
+	exe, err := slurmExecutable()
+	if err != nil {
+		return none, fmt.Errorf("cannot find the crestspeed executable for the jobs: %w", err)
+	}
+	n, err := prepareRun(ctx, con, cfg)
+	if err != nil {
+		return none, err
+	}
+	dir := absPath(cfg.Out)
+	con.logf("run: %s, %d parts; preparing on this machine, then submitting to Slurm", dir, n)
+	if err := doSteps(ctx, con, dir, cfg.Workers, wantPrepare); err != nil {
+		return none, err
+	}
+	partOK, finOK, err := runProgress(dir)
+	if err != nil {
+		return none, err
+	}
+	sub, err := submitSlurm(ctx, con, slurmPlan{Dir: dir, Parts: n, Opts: opts, Exe: exe,
+		PartDone: func(k int) bool { return partOK[k] }, FinishDone: func() bool { return finOK }})
+	if err != nil {
+		return none, err
+	}
+	if sub.ArrayJob != "" {
+		fmt.Fprintf(con.stdout, "parts job %s (parts %s)\n", sub.ArrayJob, slurm.ArraySpec(sub.Tasks))
+	}
+	if sub.FinishJob != "" && !sub.Queued {
+		fmt.Fprintf(con.stdout, "finish job %s\n", sub.FinishJob)
+		con.logf("run: follow it with \"crestspeed status %s\"", dir)
+	}
+	return sub, nil
+}
+
+// runScheduled is "run --scheduler NAME [FILES...]" for a scheduler other
+// than local.
+func runScheduled(ctx context.Context, con *console, cfg Config, name string, files []string, configFile string, partsGiven bool) error {
+	if name != "slurm" {
+		return usageError{fmt.Errorf("--scheduler %q is not a scheduler; give local or slurm", name)}
+	}
+	if len(files) == 0 {
+		_, err := RunOnSlurm(ctx, con, cfg)
+		return err
+	}
+	return runCampaignOnSlurm(ctx, con, cfg, files, configFile, partsGiven)
+}
+
+// runCampaignOnSlurm is "run --scheduler slurm --out DIR A.yaml B.yaml...":
+// each deployment is submitted as by RunOnSlurm into DIR/<name>, with the
+// slurm section of the command's own configuration (--config), and one
+// more job, after every deployment's finishing job, runs the same command
+// on this machine's terms (--scheduler local): the deployments are then up
+// to date, so it only pools them into DIR/campaign. When nothing is left
+// for the cluster, the campaign is pooled here at once.
+func runCampaignOnSlurm(ctx context.Context, con *console, cfg Config, files []string, configFile string, partsGiven bool) error {
+	if cfg.Out == "" {
+		return usageError{fmt.Errorf("give the campaign's output folder with --out DIR")}
+	}
 	if err := cfg.Slurm.Validate(); err != nil {
 		return usageError{err}
+	}
+	dir := absPath(cfg.Out)
+	parts := -1
+	if partsGiven {
+		parts = cfg.Run.Parts
+	}
+	var after []string
+	for i, f := range files {
+		c, err := loadConfigFile(f)
+		if err != nil {
+			return err
+		}
+		name := strings.TrimSuffix(filepath.Base(f), filepath.Ext(f))
+		if name == campaignDirName || name == runplan.StateDir || name == "" {
+			return usageError{fmt.Errorf("deployment file %s cannot be used: its name %q is that of the campaign's own folder; rename it", f, name)}
+		}
+		c.Out = filepath.Join(dir, name)
+		c.Workers, c.Force, c.Quiet = cfg.Workers, cfg.Force, cfg.Quiet
+		if parts >= 0 {
+			c.Run.Parts = parts
+		}
+		con.logf("run: deployment %d of %d: %s → %s", i+1, len(files), f, c.Out)
+		sub, err := runOnSlurm(ctx, con, c, cfg.Slurm) // the campaign's options, not the deployment's
+		if err != nil {
+			return fmt.Errorf("deployment %s: %w", f, err)
+		}
+		if sub.FinishJob != "" {
+			after = append(after, sub.FinishJob)
+		}
+	}
+	rec, err := readSlurmRecord(dir)
+	if err != nil {
+		return err
+	}
+	if n := len(rec.Submissions); n > 0 {
+		last := rec.Submissions[n-1].FinishJob
+		if ts, err := slurm.States(ctx, last); err == nil && len(ts) == 1 && ts[0].Class() == slurm.Queued {
+			if err := slurm.Cancel(ctx, last); err != nil {
+				return err
+			}
+			con.logf("slurm: cancelled the waiting campaign job %s; a new one waits for the deployments", last)
+		}
+	}
+	if len(after) == 0 {
+		con.logf("run: every deployment is done; pooling the campaign here")
+		return RunCampaign(ctx, con, cfg, files, parts)
 	}
 	exe, err := slurmExecutable()
 	if err != nil {
 		return fmt.Errorf("cannot find the crestspeed executable for the jobs: %w", err)
 	}
-	n, err := prepareRun(ctx, con, cfg)
+	cmd := []string{slurm.Quote(exe), "run", "--scheduler", "local", "--out", slurm.Quote(dir), `--workers "$workers"`}
+	if configFile != "" {
+		cmd = append(cmd, "--config", slurm.Quote(absPath(configFile)))
+	}
+	if parts >= 0 {
+		cmd = append(cmd, "--parts", strconv.Itoa(parts))
+	}
+	for _, f := range files {
+		cmd = append(cmd, slurm.Quote(absPath(f)))
+	}
+	if err := os.MkdirAll(slurmDir(dir), 0o755); err != nil {
+		return err
+	}
+	text, err := slurm.Render(cfg.Slurm, slurm.Script{Name: "crestspeed-campaign", After: after,
+		Log: filepath.Join(slurmDir(dir), "campaign_%j.log"), Dir: dir,
+		Body: []string{`workers=${SLURM_CPUS_PER_TASK:-1}`, "exec " + strings.Join(cmd, " ")}})
 	if err != nil {
 		return err
 	}
-	dir := absPath(cfg.Out)
-	con.logf("run: %s, %d parts; preparing on this machine, then submitting to Slurm", dir, n)
-	if err := doSteps(ctx, con, dir, cfg.Workers, wantPrepare); err != nil {
+	path := filepath.Join(slurmDir(dir), "campaign.sbatch")
+	if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
 		return err
 	}
-	partOK, finOK, err := runProgress(dir)
+	id, err := slurm.Submit(ctx, path)
 	if err != nil {
 		return err
 	}
-	sub, err := submitSlurm(ctx, con, slurmPlan{Dir: dir, Parts: n, Opts: cfg.Slurm, Exe: exe,
-		PartDone: func(k int) bool { return partOK[k] }, FinishDone: func() bool { return finOK }})
-	if err != nil {
-		return err
+	rec.Version = slurmRecordVersion
+	rec.Submissions = append(rec.Submissions, slurmSubmission{Submitted: time.Now().UTC().Format(time.RFC3339), FinishJob: id, After: after})
+	if err := writeSlurmRecord(dir, rec); err != nil {
+		_ = slurm.Cancel(ctx, id)
+		return fmt.Errorf("job cancelled: its record cannot be written: %w", err)
 	}
-	if sub.ArrayJob != "" {
-		fmt.Fprintf(con.stdout, "parts job %s (parts %s)\n", sub.ArrayJob, slurm.ArraySpec(sub.Tasks))
-	}
-	if sub.FinishJob != "" {
-		fmt.Fprintf(con.stdout, "finish job %s\n", sub.FinishJob)
-		con.logf("run: follow it with \"crestspeed status %s\"", dir)
-	}
+	fmt.Fprintf(con.stdout, "campaign job %s\n", id)
+	con.logf("slurm: submitted the campaign job %s, after %s; its log %s", id, strings.Join(after, ", "), filepath.Join(slurmDir(dir), "campaign_"+id+".log"))
 	return nil
-}
-
-// runScheduled is "run --scheduler NAME" for a scheduler other than local.
-func runScheduled(ctx context.Context, con *console, cfg Config, name string) error {
-	if name == "slurm" {
-		return RunOnSlurm(ctx, con, cfg)
-	}
-	return usageError{fmt.Errorf("--scheduler %q is not a scheduler; give local or slurm", name)}
 }
 
 func init() { schedulerStates = slurmSchedulerStates }

@@ -3,6 +3,8 @@ package main
 import (
 	"bytes"
 	"context"
+	"fmt"
+	"image"
 	"io/fs"
 	"os"
 	"os/exec"
@@ -166,13 +168,7 @@ func TestRunOnSlurmMatchesLocal(t *testing.T) {
 		}
 		a, b = unclocked(t, f, a), unclocked(t, f, b)
 		if !bytes.Equal(a, b) {
-			i := 0
-			for i < len(a) && i < len(b) && a[i] == b[i] {
-				i++
-			}
-			lo := max(0, i-80)
-			t.Errorf("%s differs between the local and the Slurm run (%d and %d bytes) from byte %d: %q against %q",
-				f, len(a), len(b), i, a[lo:min(len(a), i+40)], b[lo:min(len(b), i+40)])
+			t.Errorf("%s differs between the local and the Slurm run: %s", f, firstDiff(a, b))
 		}
 	}
 	if stdout, _, err := run(t, "status", cluster); err != nil || !strings.Contains(stdout, "complete") {
@@ -214,4 +210,96 @@ func unclocked(t *testing.T, name string, b []byte) []byte {
 	b = historyStamp.ReplaceAll(b, []byte("TIME written by"))
 	b = timingsJSON.ReplaceAll(b, []byte(`"timings_s": {}`))
 	return timingsHTML.ReplaceAll(b, []byte(`<td class="num">T s</td>`))
+}
+
+// TestCampaignOnSlurm submits two deployments and their campaign with one
+// `run --scheduler slurm` command: the campaign job waits for both
+// deployments' finishing jobs and pools them; the results equal those of
+// the same command run on this machine.
+func TestCampaignOnSlurm(t *testing.T) {
+	startCluster(t)
+	t.Setenv("SOURCE_DATE_EPOCH", "1781427600")
+	base := t.TempDir()
+	// north: the run tests' deployment; south: another sea (Hs 0.8 m,
+	// other seeds), 16 frames
+	d := samples.DemoDeployment()
+	d.ImageSize = image.Pt(640, 512)
+	d.DepressionDeg = 45
+	d.Sea.JONSWAP.HsM, d.Sea.JONSWAP.TpS, d.Sea.JONSWAP.Seed, d.Seed = 0.8, 3.0, 11, 12
+	d.FPS, d.Frames, d.CalibrationViews = 4, 16, 1
+	south := filepath.Join(base, "south-dep")
+	if _, err := samples.WriteDeployment(context.Background(), d, south, 2, nil); err != nil {
+		t.Fatal(err)
+	}
+	for n, dep := range map[string]string{"north": runDeploymentDir(t), "south": south} { // runDeploymentDir: run_test.go
+		conf := "reconstruct:\n  frames: " + filepath.Join(dep, samples.DeploymentFramesDir) + "\n  rig: " + filepath.Join(dep, samples.DeploymentRig) + "\n"
+		if err := os.WriteFile(filepath.Join(base, n+".yaml"), []byte(conf), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	camp := filepath.Join(base, "campaign.yaml")
+	if err := os.WriteFile(camp, []byte("slurm:\n  cpus_per_task: 1\n  memory: 2G\n  time: \"10\"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(base, "run")
+	local := filepath.Join(base, "local")
+	args := []string{"run", "--config", camp, "--out", out, "--parts", "2", "--workers", "1",
+		filepath.Join(base, "north.yaml"), filepath.Join(base, "south.yaml")}
+	if _, stderr, err := run(t, args...); err != nil {
+		t.Fatalf("local campaign: %v\n%s", err, stderr)
+	}
+	if err := os.Rename(out, local); err != nil {
+		t.Fatal(err)
+	}
+	wrapper := filepath.Join(base, "crestspeed")
+	if err := os.WriteFile(wrapper, []byte("#!/bin/bash\n"+asCLI+"=1 exec "+slurm.Quote(os.Args[0])+" \"$@\"\n"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	old := slurmExecutable
+	slurmExecutable = func() (string, error) { return wrapper, nil }
+	defer func() { slurmExecutable = old }()
+	stdout, stderr, err := run(t, append(args, "--scheduler", "slurm")...)
+	if err != nil {
+		t.Fatalf("campaign on Slurm: %v\n%s", err, stderr)
+	}
+	m := regexp.MustCompile(`campaign job (\d+)`).FindStringSubmatch(stdout)
+	if m == nil || strings.Count(stdout, "finish job ") != 2 {
+		t.Fatalf("job ids not printed:\n%s\n%s", stdout, stderr)
+	}
+	deadline := time.Now().Add(150 * time.Second)
+	for {
+		ts, err := slurm.States(context.Background(), m[1])
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(ts) == 1 && ts[0].Class() == slurm.Done {
+			break
+		}
+		if len(ts) == 1 && ts[0].Class() == slurm.Failed || time.Now().After(deadline) {
+			b, _ := os.ReadFile(filepath.Join(out, "slurm", "campaign_"+m[1]+".log"))
+			t.Fatalf("campaign job %s: %+v\n%s", m[1], ts, b)
+		}
+		time.Sleep(500 * time.Millisecond)
+	}
+	for _, f := range []string{"campaign/deployments.csv", "north/tracks/crests.csv", "south/tracks/crests.csv", "south/tracks/summary.json", "north/parts/index.json"} {
+		a, err1 := os.ReadFile(filepath.Join(local, f))
+		b, err2 := os.ReadFile(filepath.Join(out, f))
+		if err1 != nil || err2 != nil {
+			t.Fatal(err1, err2)
+		}
+		rel := strings.TrimPrefix(strings.TrimPrefix(f, "north/"), "south/")
+		if a, b := unclocked(t, rel, a), unclocked(t, rel, b); !bytes.Equal(a, b) {
+			t.Errorf("%s differs between the local and the Slurm campaign: %s", f, firstDiff(a, b))
+		}
+	}
+}
+
+// firstDiff shows where two files first differ.
+func firstDiff(a, b []byte) string {
+	i := 0
+	for i < len(a) && i < len(b) && a[i] == b[i] {
+		i++
+	}
+	lo := max(0, i-80)
+	return fmt.Sprintf("%d and %d bytes, from byte %d: %q against %q", len(a), len(b), i, a[lo:min(len(a), i+40)], b[lo:min(len(b), i+40)])
 }

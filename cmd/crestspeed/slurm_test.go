@@ -118,7 +118,7 @@ fi
 		t.Fatalf("first submission %+v", first)
 	}
 	again, err := submitSlurm(ctx, con, plan)
-	if err != nil || again.ArrayJob != "" || again.FinishJob != "" {
+	if err != nil || again.ArrayJob != "" || !again.Queued || again.FinishJob != first.FinishJob {
 		t.Fatalf("a second call while queued submitted %+v (%v)", again, err)
 	}
 	waitSlurm(t, dir, "parts 0, 1, 3 done and 2 running", 60*time.Second, func(p map[int]slurmPartState, f *slurmPartState) bool {

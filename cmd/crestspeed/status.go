@@ -20,7 +20,8 @@ func newStatusCmd(app *App) *cobra.Command {
 		Short: "Show where a run stands: every step done, missing, out of date or failed",
 		Long: `Show every step of the run in DIR (see "crestspeed run"): done, not done yet,
 out of date (and why), failed (with the end of its log, DIR/logs/STEP.log),
-or, for a run given to a scheduler, queued or running.
+running (a process on this machine holds the step), or, for a run given to
+a scheduler, queued or running.
 
 Exits with status 0 only when the run is complete, 3 when it is not.`,
 		Args: func(cmd *cobra.Command, args []string) error {
@@ -79,6 +80,8 @@ func runStatus(ctx context.Context, dir string) ([]stepState, error) {
 		switch {
 		case sched[s.Name] != "":
 			st.State = sched[s.Name]
+		case stepRunning(c.Out, s.Name):
+			st.State = "running"
 		case ok:
 			st.State = "done"
 		case ferr == nil:
