@@ -169,3 +169,25 @@ fi
 		t.Errorf("the log does not say why part 2 was submitted again:\n%s", log.String())
 	}
 }
+
+// Bad Slurm settings and an unknown scheduler are one sentence and exit
+// status 2, before anything is written or submitted.
+func TestSlurmBadSettings(t *testing.T) {
+	base := t.TempDir()
+	cfg := filepath.Join(base, "c.yaml")
+	if err := os.WriteFile(cfg, []byte("slurm:\n  time: 1h\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(base, "run")
+	_, _, err := run(t, "run", "--config", cfg, "--out", out, "--scheduler", "slurm")
+	if exitCode(err) != exitUsage || !strings.Contains(fmt.Sprint(err), `slurm.time: "1h" is not a Slurm time`) {
+		t.Errorf("bad slurm.time: exit %d, %v", exitCode(err), err)
+	}
+	_, _, err = run(t, "run", "--out", out, "--scheduler", "pbs")
+	if exitCode(err) != exitUsage || !strings.Contains(fmt.Sprint(err), `--scheduler "pbs" is not a scheduler`) {
+		t.Errorf("unknown scheduler: exit %d, %v", exitCode(err), err)
+	}
+	if _, err := os.Stat(out); err == nil {
+		t.Errorf("a refused run wrote %s", out)
+	}
+}
