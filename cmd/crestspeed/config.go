@@ -18,6 +18,7 @@ import (
 	"gopkg.in/yaml.v3"
 
 	"crestspeed/ingest"
+	"crestspeed/internal/slurm"
 	"crestspeed/samples"
 	"crestspeed/speed/analysis"
 )
@@ -49,6 +50,7 @@ type Config struct {
 	Reconstruct ReconstructConfig `yaml:"reconstruct"`
 	Grid        GridConfig        `yaml:"grid"`
 	Run         RunConfig         `yaml:"run"`
+	Slurm       slurm.Options     `yaml:"slurm"`
 }
 
 // SynthesizeConfig configures "crestspeed synthesize".
@@ -92,6 +94,7 @@ func defaultConfig() Config {
 		Reconstruct: defaultReconstructConfig(),
 		Grid:        defaultGridConfig(),
 		Run:         RunConfig{PairsPerPart: defaultPairsPerPart},
+		Slurm:       slurm.DefaultOptions(),
 	}
 }
 

@@ -43,6 +43,10 @@ configuration is kept in DIR/.crestspeed/config.yaml and the run's log in
 DIR/run.log.`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if s, _ := cmd.Flags().GetString("scheduler"); s != "local" {
+				conf, _ := cmd.Flags().GetString("config")
+				return runScheduled(cmd.Context(), app.con, *app.cfg, s, args, conf, flagGiven(cmd, "parts")) // slurm.go
+			}
 			if len(args) > 0 {
 				parts := -1
 				if flagGiven(cmd, "parts") {
@@ -53,6 +57,7 @@ DIR/run.log.`,
 			return RunDeployment(cmd.Context(), app.con, *app.cfg)
 		},
 	}
+	cmd.Flags().String("scheduler", "local", "where the parts run: local (this machine) or slurm (submitted with sbatch; see the slurm settings)")
 	cmd.Flags().Int("parts", 0, "number of parts of the record (run.parts); 0 = one per run.pairs_per_part pairs")
 	app.bindFlag(cmd, "parts", "run.parts")
 	return cmd
