@@ -14,6 +14,7 @@ all: build
 
 deps:
 	@pkg-config --exists opencv4 netcdf 2>/dev/null && [ -x /usr/bin/ncdump ] && /usr/bin/python3 -c 'import numpy, scipy, netCDF4, xarray, cv2' 2>/dev/null \
+		&& command -v sbatch >/dev/null && [ -x /usr/sbin/slurmctld ] && [ -x /usr/sbin/munged ] \
 		|| scripts/setup-deps
 
 build: deps
