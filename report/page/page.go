@@ -269,7 +269,7 @@ func seaRows(ss summary.SeaStateSummary) []htmlKV {
 // qualityRows are the rows of the counts and quality table.
 func qualityRows(sum *summary.Summary, q quality) []htmlKV {
 	fr := sum.Frames
-	return []htmlKV{
+	rows := []htmlKV{
 		{"Frames in the input file", fmt.Sprint(fr.InFile)},
 		{"Frames read", fmt.Sprint(fr.Read)},
 		{"Frames skipped", fmt.Sprint(fr.Skipped)},
@@ -287,6 +287,16 @@ func qualityRows(sum *summary.Summary, q quality) []htmlKV {
 		{"Tracks rejected from the statistics: shorter than the speed window, no speed at all", fmt.Sprint(q.tracks - q.tracksSpeed)},
 		{"Tracks in the statistics", fmt.Sprint(q.tracksSpeed)},
 	}
+	c := sum.Crests
+	for _, k := range sortedKeys(c.EndedByReason) {
+		rows = append(rows, htmlKV{"Tracks ended: " + template.HTMLEscapeString(k), fmt.Sprint(c.EndedByReason[k])})
+	}
+	if r := c.StepResidualM; r != nil {
+		rows = append(rows, htmlKV{"Steps: measured minus predicted advance (median; 5–95 %)",
+			fmt.Sprintf("%+.3f m; %+.3f to %+.3f m over %d steps", r.P50, r.P05, r.P95, r.N)})
+	}
+	rows = append(rows, htmlKV{"Steps whose crest elevation changed by more than 0.3 H<sub>m0</sub>", pct(c.ElevationJumpShare)})
+	return rows
 }
 
 // ratioTable is the table of one ratio's statistics, its cells keyed by

@@ -190,6 +190,27 @@ type CrestsSummary struct {
 	Deaths           int `json:"deaths"`
 	GapsBridged      int `json:"gaps_bridged"`
 	Unmatched        int `json:"detections_outside_gates"`
+	// Quality of the tracking: tracks ended (or split) by reason; the
+	// distribution of each frame-to-frame step's measured advance minus
+	// its predicted advance (local linear phase speed × Δt), metres; and
+	// the share of steps whose crest elevation changed by more than 0.3
+	// Hm0.
+	EndedByReason      map[string]int   `json:"tracks_ended_by_reason,omitempty"`
+	Steps              int              `json:"steps"`
+	StepResidualM      *QuantileSummary `json:"step_residual_advance_m,omitempty"`
+	ElevationJumpShare float64          `json:"share_steps_elevation_change_over_0_3_hm0"`
+}
+
+// QuantileSummary is a distribution by its quantiles.
+type QuantileSummary struct {
+	N   int     `json:"n"`
+	P01 float64 `json:"p01"`
+	P05 float64 `json:"p05"`
+	P25 float64 `json:"p25"`
+	P50 float64 `json:"p50"`
+	P75 float64 `json:"p75"`
+	P95 float64 `json:"p95"`
+	P99 float64 `json:"p99"`
 }
 
 // WhitecapsSummary is the "whitecaps" block of summary.json.

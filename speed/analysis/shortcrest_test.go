@@ -84,6 +84,15 @@ func TestShortCrestedCrestSpeedExact(t *testing.T) {
 			area := 160 * 120 * 0.2 * 0.2
 			t.Logf("%s: %d rows with speed (%.3f per m² s), %d without an exact maximum; measured/exact median %.3f, IQR %.3f–%.3f; ended %v",
 				c.name, len(r), float64(len(r))/(area*40), notMax, quantile(r, 0.5), quantile(r, 0.25), quantile(r, 0.75), rec.Link.Ended)
+			// The tracking-quality figures: every track ended once, for a
+			// reason; one residual per step taken.
+			ended := 0
+			for _, n := range rec.Link.Ended {
+				ended += n
+			}
+			if ended != rec.Link.Deaths || len(rec.Link.Residuals) != rec.Link.Steps || rec.Link.Ended[analysis.SplitAdvance] == 0 {
+				t.Errorf("link statistics: %d ended by reason, %d deaths; %d residuals for %d steps; %v", ended, rec.Link.Deaths, len(rec.Link.Residuals), rec.Link.Steps, rec.Link.Ended)
+			}
 			if m := quantile(r, 0.5); len(r) < 200 || !(m >= 0.97 && m <= 1.045) {
 				t.Errorf("%s: median measured/exact %.3f over %d rows; want 0.97–1.045", c.name, m, len(r))
 			}
