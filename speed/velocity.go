@@ -56,8 +56,15 @@ type SurfaceVelocityOptions struct {
 // spatial transform treats the grid as periodic, so values within a few
 // cells of the edges are less reliable; both are limits of the estimate.
 //
-// Memory: two windows of complex frames, 2·Window·nx·ny·16 bytes, whatever
-// the record length.
+// Windows are processed in pairs: the window starting half a window later
+// rides in the imaginary part of the same transform (the input is real and
+// the gain, made Hermitian-symmetric, keeps a real field real), and the
+// spatial transforms run only on the frequency planes where the gain is not
+// zero everywhere.
+//
+// Memory: one window of complex frames plus one and a half windows of
+// single-precision frames, Window·nx·ny·(16 + 6) bytes, whatever the record
+// length.
 type SurfaceVelocity struct {
 	nx, ny, nw int
 	dx, dy, dt float64
@@ -66,8 +73,9 @@ type SurfaceVelocity struct {
 	taper      []float64 // spatial Tukey taper, ny*nx
 	valid      []bool    // cells far enough from the taper to be reported
 	gain       []float64 // transfer function per (f, ky, kx), 0 where removed
+	keep       []bool    // per frequency plane: some gain in it is not zero
 
-	buf     []complex128 // current window, [t][y][x]
+	buf     []float32    // the pending pair of windows, [t][y][x], 1.5·Window frames
 	work    []complex128 // its transform, reused from window to window
 	frames  int          // frames pushed so far
 	filled  int          // frames in buf
@@ -98,7 +106,7 @@ func NewSurfaceVelocity(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptio
 	}
 	nw := opt.Window
 	s := &SurfaceVelocity{nx: nx, ny: ny, nw: nw, dx: dx, dy: dy, dt: dt, opt: opt, ready: ready,
-		buf:   make([]complex128, nw*nx*ny),
+		buf:   make([]float32, (nw+nw/2)*nx*ny),
 		limit: -1,
 		hann:  make([]float64, nw),
 		out:   make([]float32, nx*ny),
@@ -107,6 +115,15 @@ func NewSurfaceVelocity(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptio
 		s.hann[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(nw))
 	}
 	s.gain = s.transfer()
+	s.keep = make([]bool, nw)
+	for it := range s.keep {
+		for _, g := range s.gain[it*nx*ny : (it+1)*nx*ny] {
+			if g != 0 {
+				s.keep[it] = true
+				break
+			}
+		}
+	}
 	tx, ty := tukey(nx, 0.25), tukey(ny, 0.25)
 	vx, vy := tukey(nx, 0.375), tukey(ny, 0.375)
 	s.taper = make([]float64, nx*ny)
@@ -172,7 +189,23 @@ func (s *SurfaceVelocity) transfer() []float64 {
 			}
 		}
 	}
-	return g
+	// Hermitian-symmetric part, g(b) ← (g(b) + g(−b))/2: for a real input
+	// the real part of the filtered field is the same either way, and with
+	// a symmetric gain the output of a real input is real, so two windows can
+	// share one transform (one real, one imaginary). Only the Nyquist bins,
+	// which are their own mirror, are asymmetric before this.
+	sym := make([]float64, len(g))
+	for it := 0; it < nw; it++ {
+		mt := (nw - it) % nw
+		for iy := 0; iy < ny; iy++ {
+			my := (ny - iy) % ny
+			for ix := 0; ix < nx; ix++ {
+				mx := (nx - ix) % nx
+				sym[(it*ny+iy)*nx+ix] = 0.5 * (g[(it*ny+iy)*nx+ix] + g[(mt*ny+my)*nx+mx])
+			}
+		}
+	}
+	return sym
 }
 
 // Push adds the next frame (row-major, NaN where unknown; mean already
@@ -183,33 +216,46 @@ func (s *SurfaceVelocity) Push(eta []float32) {
 	n := s.nx * s.ny
 	plane := s.buf[s.filled*n : (s.filled+1)*n]
 	for i := range plane {
-		v := 0.0
+		v := float32(0)
 		if eta != nil && !math.IsNaN(float64(eta[i])) {
-			v = float64(eta[i])
+			v = eta[i]
 		}
-		plane[i] = complex(v, 0)
+		plane[i] = v
 	}
 	s.filled++
 	s.frames++
-	if s.filled == s.nw {
-		half := s.nw / 2
-		s.window(s.frames - s.nw)
-		// the second half becomes the first half of the next window
-		copy(s.buf[:half*n], s.buf[half*n:])
+	half := s.nw / 2
+	if s.filled == s.nw+half {
+		s.window(s.frames-s.filled, true)
+		// the last half becomes the first half of the next pair
+		copy(s.buf[:half*n], s.buf[s.nw*n:])
 		s.filled = half
 	}
 }
 
-// window transforms, filters and adds the window starting at frame start.
-func (s *SurfaceVelocity) window(start int) {
+// window transforms, filters and adds the window starting at frame start
+// and, if pair, the one starting half a window later (in the imaginary
+// part).
+func (s *SurfaceVelocity) window(start int, pair bool) {
 	nw, ny, nx := s.nw, s.ny, s.nx
 	if s.work == nil {
-		s.work = make([]complex128, len(s.buf))
+		s.work = make([]complex128, nw*nx*ny)
 	}
 	work := s.work
+	n, half := nx*ny, nw/2
 	for t := 0; t < nw; t++ {
-		for i := 0; i < nx*ny; i++ {
-			work[t*nx*ny+i] = s.buf[t*nx*ny+i] * complex(s.hann[t]*s.taper[i], 0)
+		a := s.buf[t*n : (t+1)*n]
+		w := work[t*n : (t+1)*n]
+		if pair {
+			b := s.buf[(t+half)*n : (t+half+1)*n]
+			for i := range w {
+				h := s.hann[t] * s.taper[i]
+				w[i] = complex(float64(a[i])*h, float64(b[i])*h)
+			}
+		} else {
+			for i := range w {
+				w[i] = complex(float64(a[i])*s.hann[t]*s.taper[i], 0)
+			}
 		}
 	}
 	s.fft3(work, false)
@@ -219,20 +265,34 @@ func (s *SurfaceVelocity) window(start int) {
 	s.fft3(work, true)
 	norm := 1 / float64(nw*nx*ny)
 	for t := 0; t < nw; t++ {
-		fr := start + t
-		k := fr - s.accBase
-		for k >= len(s.acc) {
-			s.acc = append(s.acc, make([]float64, nx*ny))
-			s.wsum = append(s.wsum, 0)
-		}
-		a := s.acc[k]
+		a := s.accum(start + t)
 		for i := range a {
-			a[i] += real(work[t*nx*ny+i]) * norm
+			a[i] += real(work[t*n+i]) * norm
 		}
-		s.wsum[k] += s.hann[t]
+		s.wsum[start+t-s.accBase] += s.hann[t]
+	}
+	if pair {
+		for t := 0; t < nw; t++ {
+			a := s.accum(start + half + t)
+			for i := range a {
+				a[i] += imag(work[t*n+i]) * norm
+			}
+			s.wsum[start+half+t-s.accBase] += s.hann[t]
+		}
+		start += half
 	}
 	// frames before start + nw/2 receive no more windows
-	s.emit(start + nw/2)
+	s.emit(start + half)
+}
+
+// accum returns the output accumulator of frame fr, growing the list.
+func (s *SurfaceVelocity) accum(fr int) []float64 {
+	k := fr - s.accBase
+	for k >= len(s.acc) {
+		s.acc = append(s.acc, make([]float64, s.nx*s.ny))
+		s.wsum = append(s.wsum, 0)
+	}
+	return s.acc[k]
 }
 
 // emit hands out every pending frame before frame `upto`.
@@ -275,6 +335,9 @@ func (s *SurfaceVelocity) Close() {
 	for s.frames < lastStart+s.nw {
 		s.Push(nil)
 	}
+	if start := s.frames - s.filled; start <= lastStart {
+		s.window(start, false) // a last window without a partner
+	}
 	s.emit(total)
 	s.acc, s.wsum = nil, nil
 }
@@ -314,9 +377,27 @@ func (s *SurfaceVelocity) fft3(a []complex128, inverse bool) {
 		}
 		wg.Wait()
 	}
-	run(nx, nw*ny, func(l int) int { return l * nx }, 1)
-	run(ny, nw*nx, func(l int) int { t, x := l/nx, l%nx; return t*nx*ny + x }, nx)
-	run(nw, ny*nx, func(l int) int { return l }, nx*ny)
+	// the spatial transforms only on the frequency planes that are kept
+	// (the others are zeroed by the gain): time first going forward, last
+	// going back
+	var planes []int
+	for it, k := range s.keep {
+		if k {
+			planes = append(planes, it)
+		}
+	}
+	np := len(planes)
+	spatial := func() {
+		run(nx, np*ny, func(l int) int { return planes[l/ny]*nx*ny + (l%ny)*nx }, 1)
+		run(ny, np*nx, func(l int) int { return planes[l/nx]*nx*ny + l%nx }, nx)
+	}
+	if !inverse {
+		run(nw, ny*nx, func(l int) int { return l }, nx*ny)
+		spatial()
+	} else {
+		spatial()
+		run(nw, ny*nx, func(l int) int { return l }, nx*ny)
+	}
 }
 
 // tukey returns a Tukey (tapered cosine) window of n points whose tapered
