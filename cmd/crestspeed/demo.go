@@ -138,6 +138,9 @@ func demoStereo(ctx context.Context, con *console, cfg Config, dir string) error
 	con.logf("  %-26s %10.3f %10.3f", "Hm0 (m)", truth.Hm0M, sum.SeaState.Hm0)
 	con.logf("  %-26s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, sum.SeaState.Tp)
 	con.logf("  %-26s %10.1f %10.1f", "mean direction (°)", math.Remainder(truth.MeanDirectionDeg, 360), sum.SeaState.MeanDirection)
+	if sea, err := d.Sea.Sea(); err == nil {
+		logExactSpeeds(con, "crest speed c_cr (m/s)", c.Out, sea, sum.SeaState.MeanDirection)
+	}
 	if sum.Whitecaps != nil {
 		con.logf("  %-26s %10d %10d", "whitecaps", len(d.Foam.Patches), sum.Whitecaps.Whitecaps)
 		con.logf("  %-26s %10.3f %10.3f", "whitecap front speed (m/s)", d.Foam.Patches[0].SpeedMPS, sum.Whitecaps.MedianTrackSpeedRatio*sum.SeaState.PeakPhaseSpeed)
