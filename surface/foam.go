@@ -223,7 +223,22 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 			}
 		}
 	}
-	// Hysteresis: flood the growth mask from the seeds (8-connected).
+	d.flood(low, mask, w, h)
+	// Closing, then the minimum area.
+	for range o.ClosePx {
+		dilate3(mask, d.tmp, w, h)
+		copy(mask, d.tmp)
+	}
+	for range o.ClosePx {
+		erode3(mask, d.tmp, w, h)
+		copy(mask, d.tmp)
+	}
+	return d.dropSmall(mask, w, h), nil
+}
+
+// flood marks in mask every pixel of the growth mask low connected
+// (8-connected) to a seed (low value 2): the hysteresis step.
+func (d *FoamDetector) flood(low, mask []uint8, w, h int) {
 	d.stack = d.stack[:0]
 	for i, v := range low {
 		if v == 2 {
@@ -253,16 +268,6 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 			}
 		}
 	}
-	// Closing, then the minimum area.
-	for range o.ClosePx {
-		dilate3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
-	for range o.ClosePx {
-		erode3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
-	return d.dropSmall(mask, w, h), nil
 }
 
 // background fills d.bg with the median-of-block-means background.
