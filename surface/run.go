@@ -282,28 +282,15 @@ func (r *Reconstructor) reconstructRange(ctx context.Context, open Opener, g *Ge
 		return nil, err
 	}
 	defer src.Close()
-	n := src.Len()
-	if n != g.RecordPairs {
-		return nil, fmt.Errorf("surface: the record has %d image pairs but the geometry was settled on %d; settle this record again", n, g.RecordPairs)
-	}
-	if first < 0 || last > n || first >= last {
-		return nil, fmt.Errorf("surface: the pair range %d–%d is not within the record's %d pairs (give 0 ≤ first < last ≤ %d)", first, last, n, n)
-	}
-	if sk, ok := src.(IndexSeeker); ok && first > 0 {
-		if err := sk.SeekIndex(first); err != nil {
-			return nil, fmt.Errorf("surface: cannot move to pair %d of the record: %v", first, err)
-		}
+	if err := seekRange(src, g, first, last); err != nil {
+		return nil, err
 	}
 	setup := r.setupOf(g, first, last, workers, threads)
 	res := &Result{Setup: setup, Skipped: ingest.SkipCounts{}, FoamSkipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
 	if err := sink.Start(setup); err != nil {
 		return nil, err
 	}
-	supported := len(r.grid.X) * len(r.grid.Y)
-	if g.GridChoice != nil && g.GridChoice.SupportedCells > 0 {
-		supported = g.GridChoice.SupportedCells
-	}
-	minCells := max(1, int(math.Ceil(r.opt.MinFrameCoverage*float64(supported)-1e-9)))
+	minCells := r.minFrameCells(g)
 
 	t0 := time.Now()
 	slots := 2 * workers
@@ -387,6 +374,35 @@ func (r *Reconstructor) reconstructRange(ctx context.Context, open Opener, g *Ge
 		res.CoverageMean = sumCov / float64(res.Frames)
 	}
 	return res, nil
+}
+
+// seekRange checks that the record matches the settled geometry and that
+// the pair range first–last lies within it, and moves a seekable source to
+// the first pair.
+func seekRange(src ingest.StereoSource, g *Geometry, first, last int) error {
+	n := src.Len()
+	if n != g.RecordPairs {
+		return fmt.Errorf("surface: the record has %d image pairs but the geometry was settled on %d; settle this record again", n, g.RecordPairs)
+	}
+	if first < 0 || last > n || first >= last {
+		return fmt.Errorf("surface: the pair range %d–%d is not within the record's %d pairs (give 0 ≤ first < last ≤ %d)", first, last, n, n)
+	}
+	if sk, ok := src.(IndexSeeker); ok && first > 0 {
+		if err := sk.SeekIndex(first); err != nil {
+			return fmt.Errorf("surface: cannot move to pair %d of the record: %v", first, err)
+		}
+	}
+	return nil
+}
+
+// minFrameCells is the fewest valid cells a map may have and still be kept:
+// MinFrameCoverage of the cells the settled grid supports (at least one).
+func (r *Reconstructor) minFrameCells(g *Geometry) int {
+	supported := len(r.grid.X) * len(r.grid.Y)
+	if g.GridChoice != nil && g.GridChoice.SupportedCells > 0 {
+		supported = g.GridChoice.SupportedCells
+	}
+	return max(1, int(math.Ceil(r.opt.MinFrameCoverage*float64(supported)-1e-9)))
 }
 
 // describeSkips lists skip counts in a sentence fragment.
@@ -810,26 +826,73 @@ type passFuncs struct {
 	consume func(f *ingest.StereoFrame, slot, seq int) error
 }
 
+// passJob is one accepted frame handed to a worker, with its place in the
+// record (seq) and the result slot it owns.
+type passJob struct {
+	seq, slot int
+	f         ingest.StereoFrame
+}
+
+// passDone is a worker's finished job with the error it met, if any.
+type passDone struct {
+	passJob
+	err error
+}
+
+// feedFrames reads the source, keeps the frames accept takes and sends each,
+// once a result slot is free, to the workers as a job; it closes jobs when
+// the source, accept or the context ends the pass, and returns the source's
+// read error, if any.
+func feedFrames(ctx context.Context, src ingest.StereoSource, accept func(*ingest.StereoFrame) (bool, bool), free <-chan int, jobs chan<- passJob) error {
+	defer close(jobs)
+	var f ingest.StereoFrame
+	defer releaseFrame(&f)
+	for seq := 0; ; seq++ {
+		var slot int
+		select {
+		case <-ctx.Done():
+			return nil
+		case slot = <-free:
+		}
+		for {
+			err := src.Next(&f)
+			if errors.Is(err, io.EOF) {
+				return nil
+			}
+			if err != nil {
+				return err
+			}
+			use, stop := accept(&f)
+			if stop {
+				return nil
+			}
+			if use {
+				break
+			}
+		}
+		j := passJob{seq: seq, slot: slot, f: f}
+		f.Left, f.Right = gocv.Mat{}, gocv.Mat{}
+		select {
+		case jobs <- j:
+		case <-ctx.Done():
+			releaseFrame(&j.f)
+			return nil
+		}
+	}
+}
+
 // runPass reads src on one goroutine, processes accepted pairs on the
 // workers and consumes the results in reading order. At most slots pairs
 // are in flight. The first error stops the pass.
 func runPass(ctx context.Context, src ingest.StereoSource, ws []*Worker, slots int, pf passFuncs) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	type job struct {
-		seq, slot int
-		f         ingest.StereoFrame
-	}
-	type done struct {
-		job
-		err error
-	}
 	free := make(chan int, slots)
 	for i := 0; i < slots; i++ {
 		free <- i
 	}
-	jobs := make(chan job)
-	results := make(chan done, slots)
+	jobs := make(chan passJob)
+	results := make(chan passDone, slots)
 	var wg sync.WaitGroup
 	for _, w := range ws {
 		wg.Add(1)
@@ -842,58 +905,17 @@ func runPass(ctx context.Context, src ingest.StereoSource, ws []*Worker, slots i
 				} else {
 					err = ctx.Err()
 				}
-				results <- done{job: j, err: err}
+				results <- passDone{passJob: j, err: err}
 			}
 		}()
 	}
 	readErr := make(chan error, 1)
-	go func() {
-		defer close(jobs)
-		var f ingest.StereoFrame
-		defer releaseFrame(&f)
-		for seq := 0; ; seq++ {
-			var slot int
-			select {
-			case <-ctx.Done():
-				readErr <- nil
-				return
-			case slot = <-free:
-			}
-			for {
-				err := src.Next(&f)
-				if errors.Is(err, io.EOF) {
-					readErr <- nil
-					return
-				}
-				if err != nil {
-					readErr <- err
-					return
-				}
-				use, stop := pf.accept(&f)
-				if stop {
-					readErr <- nil
-					return
-				}
-				if use {
-					break
-				}
-			}
-			j := job{seq: seq, slot: slot, f: f}
-			f.Left, f.Right = gocv.Mat{}, gocv.Mat{}
-			select {
-			case jobs <- j:
-			case <-ctx.Done():
-				releaseFrame(&j.f)
-				readErr <- nil
-				return
-			}
-		}
-	}()
+	go func() { readErr <- feedFrames(ctx, src, pf.accept, free, jobs) }()
 	go func() {
 		wg.Wait()
 		close(results)
 	}()
-	pending := map[int]done{}
+	pending := map[int]passDone{}
 	next := 0
 	var firstErr error
 	for d := range results {
