@@ -246,28 +246,7 @@ func (d *FoamDetector) flood(low, mask []uint8, w, h int) {
 			d.stack = append(d.stack, int32(i))
 		}
 	}
-	for len(d.stack) > 0 {
-		i := int(d.stack[len(d.stack)-1])
-		d.stack = d.stack[:len(d.stack)-1]
-		x, y := i%w, i/w
-		for dy := -1; dy <= 1; dy++ {
-			yy := y + dy
-			if yy < 0 || yy >= h {
-				continue
-			}
-			for dx := -1; dx <= 1; dx++ {
-				xx := x + dx
-				if xx < 0 || xx >= w {
-					continue
-				}
-				j := yy*w + xx
-				if low[j] != 0 && mask[j] == 0 {
-					mask[j] = 1
-					d.stack = append(d.stack, int32(j))
-				}
-			}
-		}
-	}
+	d.stack = floodFrom(d.stack, low, mask, w, h, nil)
 }
 
 // background fills d.bg with the median-of-block-means background.
@@ -366,6 +345,39 @@ func dilate3(src, dst []uint8, w, h int) {
 	}
 }
 
+// floodFrom grows from the pixels on stack until it is empty: each
+// 8-connected neighbour j with grow[j] set and mark[j] clear is marked and
+// pushed. visit, when not nil, is called with every pixel popped. It
+// returns the emptied stack, for its storage to be reused.
+func floodFrom[G, M uint8 | int32](stack []int32, grow []G, mark []M, w, h int, visit func(i int)) []int32 {
+	for len(stack) > 0 {
+		i := int(stack[len(stack)-1])
+		stack = stack[:len(stack)-1]
+		if visit != nil {
+			visit(i)
+		}
+		x, y := i%w, i/w
+		for dy := -1; dy <= 1; dy++ {
+			yy := y + dy
+			if yy < 0 || yy >= h {
+				continue
+			}
+			for dx := -1; dx <= 1; dx++ {
+				xx := x + dx
+				if xx < 0 || xx >= w {
+					continue
+				}
+				j := yy*w + xx
+				if grow[j] != 0 && mark[j] == 0 {
+					mark[j] = 1
+					stack = append(stack, int32(j))
+				}
+			}
+		}
+	}
+	return stack
+}
+
 // dropSmall clears the 8-connected regions of mask smaller than MinAreaPx
 // and returns the number of foam pixels left.
 func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
@@ -375,6 +387,7 @@ func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
 	total := 0
 	region := d.region[:0]
 	defer func() { d.region = region[:0] }()
+	visit := func(i int) { region = append(region, int32(i)) }
 	for s := range mask[:n] {
 		if mask[s] == 0 || d.label[s] != 0 {
 			continue
@@ -382,29 +395,7 @@ func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
 		region = region[:0]
 		d.stack = append(d.stack[:0], int32(s))
 		d.label[s] = 1
-		for len(d.stack) > 0 {
-			i := int(d.stack[len(d.stack)-1])
-			d.stack = d.stack[:len(d.stack)-1]
-			region = append(region, int32(i))
-			x, y := i%w, i/w
-			for dy := -1; dy <= 1; dy++ {
-				yy := y + dy
-				if yy < 0 || yy >= h {
-					continue
-				}
-				for dx := -1; dx <= 1; dx++ {
-					xx := x + dx
-					if xx < 0 || xx >= w {
-						continue
-					}
-					j := yy*w + xx
-					if mask[j] != 0 && d.label[j] == 0 {
-						d.label[j] = 1
-						d.stack = append(d.stack, int32(j))
-					}
-				}
-			}
-		}
+		d.stack = floodFrom(d.stack, mask, d.label, w, h, visit)
 		if len(region) < d.opt.MinAreaPx {
 			for _, i := range region {
 				mask[i] = 0
