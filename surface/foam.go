@@ -209,14 +209,8 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 	// survive): OpenPx 3×3 erosions, then as many dilations.
 	if o.OpenPx > 0 {
 		d.orig = append(d.orig[:0], low...)
-		for range o.OpenPx {
-			erode3(low, d.tmp, w, h)
-			copy(low, d.tmp)
-		}
-		for range o.OpenPx {
-			dilate3(low, d.tmp, w, h)
-			copy(low, d.tmp)
-		}
+		d.repeatMorph(erode3, low, w, h, o.OpenPx)
+		d.repeatMorph(dilate3, low, w, h, o.OpenPx)
 		for i, v := range low {
 			if v != 0 {
 				low[i] = d.orig[i]
@@ -225,14 +219,8 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 	}
 	d.flood(low, mask, w, h)
 	// Closing, then the minimum area.
-	for range o.ClosePx {
-		dilate3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
-	for range o.ClosePx {
-		erode3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
+	d.repeatMorph(dilate3, mask, w, h, o.ClosePx)
+	d.repeatMorph(erode3, mask, w, h, o.ClosePx)
 	return d.dropSmall(mask, w, h), nil
 }
 
@@ -342,6 +330,15 @@ func dilate3(src, dst []uint8, w, h int) {
 			}
 			dst[y*w+x] = v
 		}
+	}
+}
+
+// repeatMorph applies the 3×3 operation op (erode3 or dilate3) n times to
+// m in place, through d.tmp.
+func (d *FoamDetector) repeatMorph(op func(src, dst []uint8, w, h int), m []uint8, w, h, n int) {
+	for range n {
+		op(m, d.tmp, w, h)
+		copy(m, d.tmp)
 	}
 }
 
