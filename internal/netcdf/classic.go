@@ -217,49 +217,47 @@ func (c *cursor) u32(what string) (uint32, error) {
 // in CDF-5.
 func (c *cursor) nonNeg(what string) (int64, error) {
 	at := c.off
-	if c.wide {
-		b, err := c.bytes(8, what)
-		if err != nil {
-			return 0, err
-		}
-		v := int64(binary.BigEndian.Uint64(b))
-		if v < 0 {
-			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
-		}
-		return v, nil
-	}
-	v, err := c.u32(what)
+	v, err := c.int4or8(what, c.wide)
 	if err != nil {
 		return 0, err
 	}
-	if int32(v) < 0 {
-		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, int32(v))}
+	if v < 0 {
+		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
 	}
-	return int64(v), nil
+	return v, nil
 }
 
 // offset reads an OFFSET field: 4 bytes in CDF-1, 8 bytes in CDF-2 and CDF-5.
 func (c *cursor) offset(version int, what string) (int64, error) {
 	at := c.off
-	if version == 1 {
-		v, err := c.u32(what)
-		if err != nil {
-			return 0, err
-		}
-		if int32(v) < 0 {
-			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, int32(v))}
-		}
-		return int64(v), nil
-	}
-	b, err := c.bytes(8, what)
+	v, err := c.int4or8(what, version != 1)
 	if err != nil {
 		return 0, err
 	}
-	v := int64(binary.BigEndian.Uint64(b))
 	if v < 0 {
+		if version == 1 {
+			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
+		}
 		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative", what)}
 	}
 	return v, nil
+}
+
+// int4or8 reads a big-endian signed integer field of 8 bytes when wide,
+// of 4 otherwise.
+func (c *cursor) int4or8(what string, wide bool) (int64, error) {
+	if wide {
+		b, err := c.bytes(8, what)
+		if err != nil {
+			return 0, err
+		}
+		return int64(binary.BigEndian.Uint64(b)), nil
+	}
+	v, err := c.u32(what)
+	if err != nil {
+		return 0, err
+	}
+	return int64(int32(v)), nil
 }
 
 // pad4 rounds n up to a multiple of 4.
