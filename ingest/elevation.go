@@ -762,14 +762,20 @@ func (s *ElevationSource) Paths() []string { return []string{s.path} }
 // with no frames are left out.
 func (s *ElevationSource) Skipped() SkipCounts {
 	c := s.frameSkips()
+	addGapSkips(c, s.gaps)
+	return c
+}
+
+// addGapSkips counts in c, under SkipTimeGap, the frames missing in gaps,
+// when there are any.
+func addGapSkips(c SkipCounts, gaps []Gap) {
 	miss := 0
-	for _, g := range s.gaps {
+	for _, g := range gaps {
 		miss += g.Missing
 	}
 	if miss > 0 {
 		c[SkipTimeGap] = miss
 	}
-	return c
 }
 
 // frameSkips counts the frames Next skipped, without the time gaps.

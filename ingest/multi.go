@@ -356,13 +356,7 @@ func (m *MultiSource) Skipped() SkipCounts {
 			c[k] += v
 		}
 	}
-	miss := 0
-	for _, g := range m.gaps {
-		miss += g.Missing
-	}
-	if miss > 0 {
-		c[SkipTimeGap] = miss
-	}
+	addGapSkips(c, m.gaps)
 	return c
 }
 
