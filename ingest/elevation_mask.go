@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"crestspeed/internal/selectk"
 	"math"
 	"slices"
 
@@ -342,45 +343,7 @@ func gcd(a, b int) int {
 }
 
 // quantileMid returns the median of v (the lower middle element for an
-// even count), reordering v, in linear expected time (Hoare's selection
-// with a median-of-three pivot).
+// even count), reordering v, in linear expected time.
 func quantileMid(v []float64) float64 {
-	k := (len(v) - 1) / 2
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		mid := lo + (hi-lo)/2
-		if v[mid] < v[lo] {
-			v[mid], v[lo] = v[lo], v[mid]
-		}
-		if v[hi] < v[lo] {
-			v[hi], v[lo] = v[lo], v[hi]
-		}
-		if v[hi] < v[mid] {
-			v[hi], v[mid] = v[mid], v[hi]
-		}
-		pivot := v[mid]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < pivot {
-				i++
-			}
-			for v[j] > pivot {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
+	return selectk.Kth(v, (len(v)-1)/2)
 }

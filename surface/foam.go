@@ -36,6 +36,7 @@ package surface
 // votes are foam pixels.
 
 import (
+	"crestspeed/internal/selectk"
 	"errors"
 	"fmt"
 	"math"
@@ -263,7 +264,7 @@ func (d *FoamDetector) background(pix []uint8, w, h int) {
 			for y := max(by-r, 0); y <= min(by+r, bh-1); y++ {
 				d.win = append(d.win, d.blocks[y*bw+max(bx-r, 0):y*bw+min(bx+r, bw-1)+1]...)
 			}
-			d.med[by*bw+bx] = selectKth(d.win, len(d.win)/2)
+			d.med[by*bw+bx] = selectk.Kth(d.win, len(d.win)/2)
 		}
 	}
 	// Bilinear interpolation between block centres.
@@ -547,37 +548,4 @@ func (w *Worker) stereoCheck(d *FoamDetector, mask []uint8, st *FoamStats) error
 		}
 	}
 	return nil
-}
-
-// selectKth returns the k-th smallest value of a (reordering it), by
-// Hoare's selection with a middle pivot (Hoare 1961, CACM 4, 321–322,
-// Algorithm 65 "FIND").
-func selectKth(a []float32, k int) float32 {
-	lo, hi := 0, len(a)-1
-	for lo < hi {
-		p := a[lo+(hi-lo)/2]
-		i, j := lo, hi
-		for i <= j {
-			for a[i] < p {
-				i++
-			}
-			for a[j] > p {
-				j--
-			}
-			if i <= j {
-				a[i], a[j] = a[j], a[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return a[k]
-		}
-	}
-	return a[k]
 }
