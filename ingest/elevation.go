@@ -729,8 +729,10 @@ func findGaps(times []float64, gapFactor float64) (float64, []Gap) {
 }
 
 // Meta returns a description of the record. The slices and map are copies.
-func (s *ElevationSource) Meta() ElevationMeta {
-	m := s.meta
+func (s *ElevationSource) Meta() ElevationMeta { return s.meta.clone() }
+
+// clone copies m with its own grid axes, times and attributes.
+func (m ElevationMeta) clone() ElevationMeta {
 	m.Grid = Grid{X: slices.Clone(m.Grid.X), Y: slices.Clone(m.Grid.Y)}
 	m.Times = slices.Clone(m.Times)
 	m.Attrs = maps.Clone(m.Attrs)
