@@ -281,22 +281,8 @@ func Solve(views []View, size image.Point, opt Options) (*Result, error) {
 		return nil, err
 	}
 	views = append([]View(nil), views...)
-	n := len(views)
-	good := 0
-	for i := range views {
-		if views[i].Status == ViewUsed {
-			if len(views[i].Left) != opt.Pattern.Cols*opt.Pattern.Rows || len(views[i].Right) != len(views[i].Left) {
-				return nil, fmt.Errorf("view %s has %d left and %d right corners but pattern %s has %d", views[i].Name,
-					len(views[i].Left), len(views[i].Right), opt.Pattern, opt.Pattern.Cols*opt.Pattern.Rows)
-			}
-			good++
-		}
-	}
-	switch {
-	case good == 0:
-		return nil, fmt.Errorf("no %s chessboard was found in both images of any of the %d pairs; check --pattern (inner corners, columns x rows) and that the whole board is in both pictures", opt.Pattern, n)
-	case good < opt.minViews():
-		return nil, fmt.Errorf("only %d of %d image pairs show the whole %s chessboard in both images, fewer than the %d needed; shoot more views or lower calibrate.min_views", good, n, opt.Pattern, opt.minViews())
+	if err := checkUsedViews(views, opt); err != nil {
+		return nil, err
 	}
 	if size.X <= 0 || size.Y <= 0 {
 		return nil, fmt.Errorf("image size %d×%d px is not positive", size.X, size.Y)
@@ -370,6 +356,37 @@ func Solve(views []View, size image.Point, opt Options) (*Result, error) {
 		return nil, err
 	}
 	res.Rig, res.Rectification = rig, rc
+	rig.Quality = measureViews(views, rig, rc, objPts, st, opt)
+	return res, nil
+}
+
+// checkUsedViews checks that every view marked used has one corner per
+// pattern corner on both sides, and that enough views are used.
+func checkUsedViews(views []View, opt Options) error {
+	n := len(views)
+	good := 0
+	for i := range views {
+		if views[i].Status == ViewUsed {
+			if len(views[i].Left) != opt.Pattern.Cols*opt.Pattern.Rows || len(views[i].Right) != len(views[i].Left) {
+				return fmt.Errorf("view %s has %d left and %d right corners but pattern %s has %d", views[i].Name,
+					len(views[i].Left), len(views[i].Right), opt.Pattern, opt.Pattern.Cols*opt.Pattern.Rows)
+			}
+			good++
+		}
+	}
+	switch {
+	case good == 0:
+		return fmt.Errorf("no %s chessboard was found in both images of any of the %d pairs; check --pattern (inner corners, columns x rows) and that the whole board is in both pictures", opt.Pattern, n)
+	case good < opt.minViews():
+		return fmt.Errorf("only %d of %d image pairs show the whole %s chessboard in both images, fewer than the %d needed; shoot more views or lower calibrate.min_views", good, n, opt.Pattern, opt.minViews())
+	}
+	return nil
+}
+
+// measureViews measures each view's residuals against the solved rig and
+// its epipolar errors after rectification, and sums them up with the
+// solve's settings into the rig's quality record.
+func measureViews(views []View, rig *Rig, rc *Rectification, objPts [][3]float32, st cvshim.StereoCalibration, opt Options) *Quality {
 	var epi []float64
 	var sumL, sumR float64
 	used := 0
@@ -425,8 +442,7 @@ func Solve(views []View, size image.Point, opt Options) (*Result, error) {
 		}
 		q.Views = append(q.Views, vq)
 	}
-	rig.Quality = q
-	return res, nil
+	return q
 }
 
 func detectorName(d string) string {

@@ -98,6 +98,38 @@ func drawCorners(img *gocv.Mat, p Pattern, corners [][2]float32, res [][2]float6
 // RMS error of every view in each camera with dropped views marked and the
 // drop threshold drawn. The file is written atomically.
 func (r *Result) WriteResidualPlot(path string) error {
+	p1, err := r.residualPanel()
+	if err != nil {
+		return err
+	}
+	p2, err := r.viewRMSPanel()
+	if err != nil {
+		return err
+	}
+	const w, h = 12 * vg.Inch, 5 * vg.Inch
+	img := vgimg.New(w, h)
+	dc := draw.New(img)
+	tiles := draw.Tiles{Rows: 1, Cols: 2, PadX: vg.Inch / 2, PadTop: vg.Inch / 8, PadBottom: vg.Inch / 8, PadLeft: vg.Inch / 8, PadRight: vg.Inch / 8}
+	plots := [][]*plot.Plot{{p1, p2}}
+	canvases := plot.Align(plots, tiles, dc)
+	p1.Draw(canvases[0][0])
+	p2.Draw(canvases[0][1])
+	var buf bytes.Buffer
+	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
+		return fmt.Errorf("residual plot cannot be encoded: %v", err)
+	}
+	return writeFileAtomic(path, buf.Bytes())
+}
+
+// Colours of the left and right cameras in the calibration figures.
+var (
+	plotBlue = color.RGBA{31, 119, 180, 255}
+	plotRed  = color.RGBA{214, 39, 40, 255}
+)
+
+// residualPanel draws the scatter of every used corner's reprojection
+// residual, left camera blue and right red, on square axes.
+func (r *Result) residualPanel() (*plot.Plot, error) {
 	var resL, resR plotter.XYs
 	for _, v := range r.Views {
 		if v.Status != ViewUsed {
@@ -111,7 +143,7 @@ func (r *Result) WriteResidualPlot(path string) error {
 		}
 	}
 	if len(resL) == 0 {
-		return fmt.Errorf("calibration has no residuals to plot")
+		return nil, fmt.Errorf("calibration has no residuals to plot")
 	}
 	p1 := plot.New()
 	p1.Title.Text = "Reprojection residuals, views used"
@@ -123,16 +155,14 @@ func (r *Result) WriteResidualPlot(path string) error {
 	}
 	lim *= 1.05
 	p1.X.Min, p1.X.Max, p1.Y.Min, p1.Y.Max = -lim, lim, -lim, lim
-	blue := color.RGBA{31, 119, 180, 255}
-	red := color.RGBA{214, 39, 40, 255}
 	for _, s := range []struct {
 		name string
 		xy   plotter.XYs
 		c    color.Color
-	}{{"left camera", resL, blue}, {"right camera", resR, red}} {
+	}{{"left camera", resL, plotBlue}, {"right camera", resR, plotRed}} {
 		sc, err := plotter.NewScatter(s.xy)
 		if err != nil {
-			return fmt.Errorf("residual plot cannot be drawn: %v", err)
+			return nil, fmt.Errorf("residual plot cannot be drawn: %v", err)
 		}
 		sc.GlyphStyle.Color = s.c
 		sc.GlyphStyle.Radius = vg.Points(1.5)
@@ -141,7 +171,12 @@ func (r *Result) WriteResidualPlot(path string) error {
 		p1.Legend.Add(s.name, sc)
 	}
 	p1.Add(plotter.NewGrid())
+	return p1, nil
+}
 
+// viewRMSPanel draws each view's RMS reprojection error per camera, with
+// dropped views marked and the drop threshold drawn when one was used.
+func (r *Result) viewRMSPanel() (*plot.Plot, error) {
 	p2 := plot.New()
 	p2.Title.Text = "RMS reprojection error per view"
 	p2.X.Label.Text = "view"
@@ -174,10 +209,10 @@ func (r *Result) WriteResidualPlot(path string) error {
 		c     color.Color
 		shape draw.GlyphDrawer
 	}{
-		{"left, used", usedL, blue, draw.CircleGlyph{}},
-		{"right, used", usedR, red, draw.CircleGlyph{}},
-		{"left, dropped", dropL, blue, draw.CrossGlyph{}},
-		{"right, dropped", dropR, red, draw.CrossGlyph{}},
+		{"left, used", usedL, plotBlue, draw.CircleGlyph{}},
+		{"right, used", usedR, plotRed, draw.CircleGlyph{}},
+		{"left, dropped", dropL, plotBlue, draw.CrossGlyph{}},
+		{"right, dropped", dropR, plotRed, draw.CrossGlyph{}},
 		{"both cameras, used", usedB, color.Black, draw.RingGlyph{}},
 		{"both cameras, dropped", dropB, color.Black, draw.CrossGlyph{}},
 	} {
@@ -186,7 +221,7 @@ func (r *Result) WriteResidualPlot(path string) error {
 		}
 		sc, err := plotter.NewScatter(s.xy)
 		if err != nil {
-			return fmt.Errorf("residual plot cannot be drawn: %v", err)
+			return nil, fmt.Errorf("residual plot cannot be drawn: %v", err)
 		}
 		sc.GlyphStyle.Color = s.c
 		sc.GlyphStyle.Radius = vg.Points(3)
@@ -199,25 +234,12 @@ func (r *Result) WriteResidualPlot(path string) error {
 		first, last := ticks[0].Value, ticks[len(ticks)-1].Value
 		ln, err := plotter.NewLine(plotter.XYs{{X: first, Y: th}, {X: last, Y: th}})
 		if err != nil {
-			return fmt.Errorf("residual plot cannot be drawn: %v", err)
+			return nil, fmt.Errorf("residual plot cannot be drawn: %v", err)
 		}
 		ln.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
 		p2.Add(ln)
 		p2.Legend.Add(fmt.Sprintf("drop threshold, %g × median of both cameras", q.DropFactor), ln)
 	}
 	p2.Add(plotter.NewGrid())
-
-	const w, h = 12 * vg.Inch, 5 * vg.Inch
-	img := vgimg.New(w, h)
-	dc := draw.New(img)
-	tiles := draw.Tiles{Rows: 1, Cols: 2, PadX: vg.Inch / 2, PadTop: vg.Inch / 8, PadBottom: vg.Inch / 8, PadLeft: vg.Inch / 8, PadRight: vg.Inch / 8}
-	plots := [][]*plot.Plot{{p1, p2}}
-	canvases := plot.Align(plots, tiles, dc)
-	p1.Draw(canvases[0][0])
-	p2.Draw(canvases[0][1])
-	var buf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
-		return fmt.Errorf("residual plot cannot be encoded: %v", err)
-	}
-	return writeFileAtomic(path, buf.Bytes())
+	return p2, nil
 }

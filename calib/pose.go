@@ -111,13 +111,20 @@ func boardPose(rig *Rig, obj [][3]float32, left, right [][2]float32) (R [9]float
 			break
 		}
 	}
+	resL, resR = splitResiduals(r0, n)
+	return R, t, resL, resR, true
+}
+
+// splitResiduals unpacks the stacked residual vector (left x, left y,
+// right x, right y per corner) into per-camera residuals of n corners.
+func splitResiduals(r0 []float64, n int) (resL, resR [][2]float64) {
 	resL = make([][2]float64, n)
 	resR = make([][2]float64, n)
 	for k := range resL {
 		resL[k] = [2]float64{r0[4*k], r0[4*k+1]}
 		resR[k] = [2]float64{r0[4*k+2], r0[4*k+3]}
 	}
-	return R, t, resL, resR, true
+	return resL, resR
 }
 
 // initialPose estimates the board pose in cam's frame from one view, by

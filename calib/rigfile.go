@@ -194,12 +194,9 @@ func ParseRig(data []byte, name string) (*Rig, error) {
 	if err := rd.unknown(); err != nil {
 		return nil, err
 	}
-	missing := func(key string) error {
-		return bad("lacks %s; recalibrate with \"crestspeed calibrate\" or add it", key)
-	}
 	for _, k := range []string{"image_width_px", "image_height_px", "left_camera", "right_camera", "right_from_left", "baseline_m"} {
 		if top[k] == nil {
-			return nil, missing(k)
+			return nil, rd.missing(k)
 		}
 	}
 	r := &Rig{}
@@ -213,79 +210,21 @@ func ParseRig(data []byte, name string) (*Rig, error) {
 		key string
 		out *Camera
 	}{{"left_camera", &r.Left}, {"right_camera", &r.Right}} {
-		cam, err := rd.mapping(top[c.key], c.key, cameraKeys)
-		if err != nil {
+		if *c.out, err = rd.camera(top[c.key], c.key); err != nil {
 			return nil, err
 		}
-		var vals [4][]float64
-		for i, k := range []struct {
-			key  string
-			n    int
-			what string
-		}{{"focal_length_px", 2, "fx, fy"}, {"principal_point_px", 2, "cx, cy"}, {"radial_distortion", 3, "k1, k2, k3"}, {"tangential_distortion", 2, "p1, p2"}} {
-			path := c.key + "." + k.key
-			if cam[k.key] == nil {
-				return nil, missing(path)
-			}
-			if vals[i], err = rd.numbers(cam[k.key], path, k.n, k.what); err != nil {
-				return nil, err
-			}
-		}
-		*c.out = Camera{
-			Fx: vals[0][0], Fy: vals[0][1], Cx: vals[1][0], Cy: vals[1][1],
-			K1: vals[2][0], K2: vals[2][1], K3: vals[2][2], P1: vals[3][0], P2: vals[3][1],
-		}
 	}
-	pose, err := rd.mapping(top["right_from_left"], "right_from_left", poseKeys)
-	if err != nil {
+	if err := rd.pose(top["right_from_left"], r); err != nil {
 		return nil, err
 	}
-	switch {
-	case pose["rotation"] == nil:
-		return nil, missing("right_from_left.rotation")
-	case pose["translation_m"] == nil:
-		return nil, missing("right_from_left.translation_m")
-	}
-	rows, err := rd.sequence(pose["rotation"], "right_from_left.rotation", 3, "rows of three numbers")
-	if err != nil {
-		return nil, err
-	}
-	for i, row := range rows {
-		v, err := rd.numbers(row, fmt.Sprintf("right_from_left.rotation row %d", i+1), 3, "numbers")
-		if err != nil {
-			return nil, err
-		}
-		copy(r.R[3*i:], v)
-	}
-	t, err := rd.numbers(pose["translation_m"], "right_from_left.translation_m", 3, "x, y, z in metres")
-	if err != nil {
-		return nil, err
-	}
-	copy(r.T[:], t)
 	baseline, err := rd.number(top["baseline_m"], "baseline_m")
 	if err != nil {
 		return nil, err
 	}
 	if n := top["sea_plane"]; n != nil {
-		pl, err := rd.mapping(n, "sea_plane", planeKeys)
-		if err != nil {
+		if r.SeaPlane, err = rd.seaPlane(n); err != nil {
 			return nil, err
 		}
-		if pl["normal"] == nil {
-			return nil, missing("sea_plane.normal")
-		}
-		if pl["offset_m"] == nil {
-			return nil, missing("sea_plane.offset_m")
-		}
-		nv, err := rd.numbers(pl["normal"], "sea_plane.normal", 3, "x, y, z")
-		if err != nil {
-			return nil, err
-		}
-		off, err := rd.number(pl["offset_m"], "sea_plane.offset_m")
-		if err != nil {
-			return nil, err
-		}
-		r.SeaPlane = &Plane{Normal: [3]float64{nv[0], nv[1], nv[2]}, OffsetM: off}
 	}
 	if n := top["calibration"]; n != nil {
 		if r.Quality, err = rd.quality(n); err != nil {
@@ -299,6 +238,93 @@ func ParseRig(data []byte, name string) (*Rig, error) {
 		return nil, bad("gives baseline_m %g but right_from_left.translation_m is %g m long; correct one of them", baseline, b)
 	}
 	return r, nil
+}
+
+// missing reports a required key absent from the rig file.
+func (rd *rigReader) missing(key string) error {
+	return rd.bad("lacks %s; recalibrate with \"crestspeed calibrate\" or add it", key)
+}
+
+// camera reads one camera's intrinsics and distortion from the mapping at
+// key.
+func (rd *rigReader) camera(n *yaml.Node, key string) (Camera, error) {
+	cam, err := rd.mapping(n, key, cameraKeys)
+	if err != nil {
+		return Camera{}, err
+	}
+	var vals [4][]float64
+	for i, k := range []struct {
+		key  string
+		n    int
+		what string
+	}{{"focal_length_px", 2, "fx, fy"}, {"principal_point_px", 2, "cx, cy"}, {"radial_distortion", 3, "k1, k2, k3"}, {"tangential_distortion", 2, "p1, p2"}} {
+		path := key + "." + k.key
+		if cam[k.key] == nil {
+			return Camera{}, rd.missing(path)
+		}
+		if vals[i], err = rd.numbers(cam[k.key], path, k.n, k.what); err != nil {
+			return Camera{}, err
+		}
+	}
+	return Camera{
+		Fx: vals[0][0], Fy: vals[0][1], Cx: vals[1][0], Cy: vals[1][1],
+		K1: vals[2][0], K2: vals[2][1], K3: vals[2][2], P1: vals[3][0], P2: vals[3][1],
+	}, nil
+}
+
+// pose reads the right camera's rotation and translation relative to the
+// left one into r.
+func (rd *rigReader) pose(n *yaml.Node, r *Rig) error {
+	pose, err := rd.mapping(n, "right_from_left", poseKeys)
+	if err != nil {
+		return err
+	}
+	switch {
+	case pose["rotation"] == nil:
+		return rd.missing("right_from_left.rotation")
+	case pose["translation_m"] == nil:
+		return rd.missing("right_from_left.translation_m")
+	}
+	rows, err := rd.sequence(pose["rotation"], "right_from_left.rotation", 3, "rows of three numbers")
+	if err != nil {
+		return err
+	}
+	for i, row := range rows {
+		v, err := rd.numbers(row, fmt.Sprintf("right_from_left.rotation row %d", i+1), 3, "numbers")
+		if err != nil {
+			return err
+		}
+		copy(r.R[3*i:], v)
+	}
+	t, err := rd.numbers(pose["translation_m"], "right_from_left.translation_m", 3, "x, y, z in metres")
+	if err != nil {
+		return err
+	}
+	copy(r.T[:], t)
+	return nil
+}
+
+// seaPlane reads the optional sea plane (normal and offset).
+func (rd *rigReader) seaPlane(n *yaml.Node) (*Plane, error) {
+	pl, err := rd.mapping(n, "sea_plane", planeKeys)
+	if err != nil {
+		return nil, err
+	}
+	if pl["normal"] == nil {
+		return nil, rd.missing("sea_plane.normal")
+	}
+	if pl["offset_m"] == nil {
+		return nil, rd.missing("sea_plane.offset_m")
+	}
+	nv, err := rd.numbers(pl["normal"], "sea_plane.normal", 3, "x, y, z")
+	if err != nil {
+		return nil, err
+	}
+	off, err := rd.number(pl["offset_m"], "sea_plane.offset_m")
+	if err != nil {
+		return nil, err
+	}
+	return &Plane{Normal: [3]float64{nv[0], nv[1], nv[2]}, OffsetM: off}, nil
 }
 
 // Keys of the sections of a rig file, from the yaml tags of the schema.

@@ -441,7 +441,66 @@ func (s *ElevationSource) check() error {
 		return err
 	}
 
-	// Global attributes.
+	if err := s.readGlobals(); err != nil {
+		return err
+	}
+
+	shape, err := f.VarShape(eta)
+	if err != nil {
+		return s.errorf("cannot read the shape of %q: %v", eta, err)
+	}
+	s.layout = layout{dims: dims, shape: shape, pos: pos, flip: flip}
+	if err := s.maskSetup(typ, unit); err != nil {
+		return err
+	}
+
+	if f.HasVar(s.names.Foam) {
+		return s.foamSetup(dims, pos, flip)
+	}
+	return nil
+}
+
+// foamSetup checks the optional foam mask, which must span the elevation's
+// dimensions (dims, in any order) as bytes, and records its layout and
+// fill value.
+func (s *ElevationSource) foamSetup(dims []string, pos [3]int, flip [3]bool) error {
+	f, eta := s.f, s.names.Eta
+	fd, err := f.VarDims(s.names.Foam)
+	if err != nil {
+		return s.errorf("cannot read the dimensions of %q: %v", s.names.Foam, err)
+	}
+	if len(fd) != 3 || !sameSet(fd, dims) {
+		return s.errorf("variable %q has dimensions (%s); expected the dimensions of %q (%s) in any order",
+			s.names.Foam, strings.Join(fd, ","), eta, strings.Join(dims, ","))
+	}
+	ft, err := f.VarType(s.names.Foam)
+	if err != nil {
+		return s.errorf("cannot read the type of %q: %v", s.names.Foam, err)
+	}
+	if ft != netcdf.Uint8 && ft != netcdf.Int8 {
+		return s.errorf("variable %q has type %s; expected a byte mask (0 water, 1 whitecap)", s.names.Foam, ft)
+	}
+	fv, _, ok, err := f.FillValue(s.names.Foam)
+	if err != nil {
+		return s.errorf("cannot read the fill value of %q: %v", s.names.Foam, err)
+	}
+	if ok {
+		s.mp.foamFill, s.mp.hasFoamFill = uint8(int64(fv)), true
+	}
+	var fpos [3]int
+	for r := range fpos {
+		fpos[r] = slices.Index(fd, dims[pos[r]])
+	}
+	fshape, _ := f.VarShape(s.names.Foam)
+	s.layout.foam = &layout{dims: fd, shape: fshape, pos: fpos, flip: flip}
+	s.meta.HasFoam = true
+	return nil
+}
+
+// readGlobals reads the global attributes: the water depth, the
+// georeference, the title and the other text attributes.
+func (s *ElevationSource) readGlobals() error {
+	f := s.f
 	depth, ok, err := f.AttFloat64("", "water_depth_m")
 	if err != nil {
 		return s.errorf("cannot read the global attribute water_depth_m: %v", err)
@@ -464,48 +523,6 @@ func (s *ElevationSource) check() error {
 	s.meta.Title = attrs["title"]
 	delete(attrs, "title")
 	s.meta.Attrs = attrs
-
-	shape, err := f.VarShape(eta)
-	if err != nil {
-		return s.errorf("cannot read the shape of %q: %v", eta, err)
-	}
-	s.layout = layout{dims: dims, shape: shape, pos: pos, flip: flip}
-	if err := s.maskSetup(typ, unit); err != nil {
-		return err
-	}
-
-	// Optional foam mask, over the same dimensions in any order.
-	if f.HasVar(s.names.Foam) {
-		fd, err := f.VarDims(s.names.Foam)
-		if err != nil {
-			return s.errorf("cannot read the dimensions of %q: %v", s.names.Foam, err)
-		}
-		if len(fd) != 3 || !sameSet(fd, dims) {
-			return s.errorf("variable %q has dimensions (%s); expected the dimensions of %q (%s) in any order",
-				s.names.Foam, strings.Join(fd, ","), eta, strings.Join(dims, ","))
-		}
-		ft, err := f.VarType(s.names.Foam)
-		if err != nil {
-			return s.errorf("cannot read the type of %q: %v", s.names.Foam, err)
-		}
-		if ft != netcdf.Uint8 && ft != netcdf.Int8 {
-			return s.errorf("variable %q has type %s; expected a byte mask (0 water, 1 whitecap)", s.names.Foam, ft)
-		}
-		fv, _, ok, err := f.FillValue(s.names.Foam)
-		if err != nil {
-			return s.errorf("cannot read the fill value of %q: %v", s.names.Foam, err)
-		}
-		if ok {
-			s.mp.foamFill, s.mp.hasFoamFill = uint8(int64(fv)), true
-		}
-		var fpos [3]int
-		for r := range fpos {
-			fpos[r] = slices.Index(fd, dims[pos[r]])
-		}
-		fshape, _ := f.VarShape(s.names.Foam)
-		s.layout.foam = &layout{dims: fd, shape: fshape, pos: fpos, flip: flip}
-		s.meta.HasFoam = true
-	}
 	return nil
 }
 
@@ -712,8 +729,10 @@ func findGaps(times []float64, gapFactor float64) (float64, []Gap) {
 }
 
 // Meta returns a description of the record. The slices and map are copies.
-func (s *ElevationSource) Meta() ElevationMeta {
-	m := s.meta
+func (s *ElevationSource) Meta() ElevationMeta { return s.meta.clone() }
+
+// clone copies m with its own grid axes, times and attributes.
+func (m ElevationMeta) clone() ElevationMeta {
 	m.Grid = Grid{X: slices.Clone(m.Grid.X), Y: slices.Clone(m.Grid.Y)}
 	m.Times = slices.Clone(m.Times)
 	m.Attrs = maps.Clone(m.Attrs)
@@ -745,14 +764,20 @@ func (s *ElevationSource) Paths() []string { return []string{s.path} }
 // with no frames are left out.
 func (s *ElevationSource) Skipped() SkipCounts {
 	c := s.frameSkips()
+	addGapSkips(c, s.gaps)
+	return c
+}
+
+// addGapSkips counts in c, under SkipTimeGap, the frames missing in gaps,
+// when there are any.
+func addGapSkips(c SkipCounts, gaps []Gap) {
 	miss := 0
-	for _, g := range s.gaps {
+	for _, g := range gaps {
 		miss += g.Missing
 	}
 	if miss > 0 {
 		c[SkipTimeGap] = miss
 	}
-	return c
 }
 
 // frameSkips counts the frames Next skipped, without the time gaps.

@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"crestspeed/internal/selectk"
 	"math"
 	"slices"
 
@@ -43,28 +44,14 @@ type maskParams struct {
 // on the stored values.
 func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 	f, name, p := s.f, s.names.Eta, &s.mp
-	one := func(att string, def float64) (float64, bool, error) {
-		_, n, ok, err := f.AttInfo(name, att)
-		if err != nil || !ok {
-			return def, false, err
-		}
-		v, _, err := f.AttFloat64(name, att)
-		if err != nil {
-			return def, false, s.errorf("attribute %s of %q: %v", att, name, err)
-		}
-		if n != 1 || math.IsNaN(v) || math.IsInf(v, 0) {
-			return def, false, s.errorf("attribute %s of %q must be one finite number (CF-1.8 §8.1); it has %d value(s), the first %g", att, name, n, v)
-		}
-		return v, true, nil
-	}
-	scale, hasScale, err := one("scale_factor", 1)
+	scale, hasScale, err := s.eltAtt("scale_factor", 1)
 	if err != nil {
 		return err
 	}
 	if scale == 0 {
 		return s.errorf("attribute scale_factor of %q is 0, which would make every elevation the same; fix the attribute", name)
 	}
-	offset, hasOffset, err := one("add_offset", 0)
+	offset, hasOffset, err := s.eltAtt("add_offset", 0)
 	if err != nil {
 		return err
 	}
@@ -119,12 +106,12 @@ func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 		}
 		p.validLo, p.validHi = toStored(vr[0], "valid_range"), toStored(vr[1], "valid_range")
 	} else {
-		if v, ok, err := one("valid_min", 0); err != nil {
+		if v, ok, err := s.eltAtt("valid_min", 0); err != nil {
 			return err
 		} else if ok {
 			p.validLo = toStored(v, "valid_min")
 		}
-		if v, ok, err := one("valid_max", 0); err != nil {
+		if v, ok, err := s.eltAtt("valid_max", 0); err != nil {
 			return err
 		} else if ok {
 			p.validHi = toStored(v, "valid_max")
@@ -133,6 +120,40 @@ func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 	if p.validLo > p.validHi {
 		p.validLo, p.validHi = p.validHi, p.validLo // a negative scale_factor turned them round
 	}
+	s.fillBoundsValid(typ)
+
+	// Plausibility in metres, as bounds on stored values.
+	p.boundLo, p.boundHi = -math.MaxFloat64, math.MaxFloat64
+	if b := s.opt.MaxAbsElevationM; b > 0 {
+		p.boundLo, p.boundHi = p.toStoredRange(-b, b)
+	}
+	p.spike = s.opt.SpikeFactor > 0
+	p.spikeK, p.spikeMin = s.opt.SpikeFactor, s.opt.SpikeMinM
+	return nil
+}
+
+// eltAtt reads the single finite number of attribute att of the elevation
+// variable, or def (and false) when the attribute is absent.
+func (s *ElevationSource) eltAtt(att string, def float64) (float64, bool, error) {
+	f, name := s.f, s.names.Eta
+	_, n, ok, err := f.AttInfo(name, att)
+	if err != nil || !ok {
+		return def, false, err
+	}
+	v, _, err := f.AttFloat64(name, att)
+	if err != nil {
+		return def, false, s.errorf("attribute %s of %q: %v", att, name, err)
+	}
+	if n != 1 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return def, false, s.errorf("attribute %s of %q must be one finite number (CF-1.8 §8.1); it has %d value(s), the first %g", att, name, n, v)
+	}
+	return v, true, nil
+}
+
+// fillBoundsValid narrows the valid range by the fill value when the
+// variable has no valid_* attributes.
+func (s *ElevationSource) fillBoundsValid(typ netcdf.Type) {
+	f, name, p := s.f, s.names.Eta, &s.mp
 	// Without valid_* attributes the fill value bounds the valid range
 	// (NetCDF User's Guide, appendix A, valid_range: a positive fill is a
 	// valid maximum, otherwise a valid minimum), except for bytes without
@@ -150,15 +171,6 @@ func (s *ElevationSource) maskSetup(typ netcdf.Type, unit float64) error {
 			}
 		}
 	}
-
-	// Plausibility in metres, as bounds on stored values.
-	p.boundLo, p.boundHi = -math.MaxFloat64, math.MaxFloat64
-	if b := s.opt.MaxAbsElevationM; b > 0 {
-		p.boundLo, p.boundHi = p.toStoredRange(-b, b)
-	}
-	p.spike = s.opt.SpikeFactor > 0
-	p.spikeK, p.spikeMin = s.opt.SpikeFactor, s.opt.SpikeMinM
-	return nil
 }
 
 // stored rounds a value given in the file's attributes to the precision of
@@ -331,45 +343,7 @@ func gcd(a, b int) int {
 }
 
 // quantileMid returns the median of v (the lower middle element for an
-// even count), reordering v, in linear expected time (Hoare's selection
-// with a median-of-three pivot).
+// even count), reordering v, in linear expected time.
 func quantileMid(v []float64) float64 {
-	k := (len(v) - 1) / 2
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		mid := lo + (hi-lo)/2
-		if v[mid] < v[lo] {
-			v[mid], v[lo] = v[lo], v[mid]
-		}
-		if v[hi] < v[lo] {
-			v[hi], v[lo] = v[lo], v[hi]
-		}
-		if v[hi] < v[mid] {
-			v[hi], v[mid] = v[mid], v[hi]
-		}
-		pivot := v[mid]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < pivot {
-				i++
-			}
-			for v[j] > pivot {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
+	return selectk.Kth(v, (len(v)-1)/2)
 }

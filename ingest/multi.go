@@ -303,13 +303,7 @@ func timeReference(units string) (time.Time, bool) {
 
 // Meta returns a description of the whole record (grid, depth, title and
 // attributes of the first file). The slices and map are copies.
-func (m *MultiSource) Meta() ElevationMeta {
-	c := m.meta
-	c.Grid = Grid{X: slices.Clone(c.Grid.X), Y: slices.Clone(c.Grid.Y)}
-	c.Times = slices.Clone(c.Times)
-	c.Attrs = maps.Clone(c.Attrs)
-	return c
-}
+func (m *MultiSource) Meta() ElevationMeta { return m.meta.clone() }
 
 // Path returns the pattern, index or first file the record was opened
 // from.
@@ -356,13 +350,7 @@ func (m *MultiSource) Skipped() SkipCounts {
 			c[k] += v
 		}
 	}
-	miss := 0
-	for _, g := range m.gaps {
-		miss += g.Missing
-	}
-	if miss > 0 {
-		c[SkipTimeGap] = miss
-	}
+	addGapSkips(c, m.gaps)
 	return c
 }
 

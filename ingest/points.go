@@ -226,7 +226,7 @@ func (s *PointSource) fromNames(files []string) error {
 		s.items = append(s.items, pairItem{time: rule.toTime(n.p.value), left: n.path})
 	}
 	slices.SortFunc(s.items, func(a, b pairItem) int {
-		if c := cmpFloat(a.time, b.time); c != 0 {
+		if c := compareOrder(a.time, b.time); c != 0 {
 			return c
 		}
 		return strings.Compare(a.left, b.left)
@@ -247,7 +247,7 @@ func (s *PointSource) fromTable(tab *tsTable, files []string, start TimeOrigin, 
 		}
 	}
 	rows := tab.rows
-	slices.SortStableFunc(rows, func(a, b tsRow) int { return cmpInt(a.frame, b.frame) })
+	slices.SortStableFunc(rows, func(a, b tsRow) int { return compareOrder(a.frame, b.frame) })
 	seen := map[int]bool{}
 	for _, r := range rows {
 		f := r.files[0]

@@ -503,7 +503,7 @@ func (s *PairSource) pairFromNames(left, right []string, fps, maxSpan float64) e
 		}
 	}
 	slices.SortFunc(s.items, func(a, b pairItem) int {
-		if c := cmpFloat(a.time, b.time); c != 0 {
+		if c := compareOrder(a.time, b.time); c != 0 {
 			return c
 		}
 		return strings.Compare(a.left, b.left)
@@ -586,7 +586,10 @@ func screenItems(items []pairItem, maxSpan float64, inFileOrder bool, log *skipL
 	return kept
 }
 
-func cmpFloat(a, b float64) int {
+// compareOrder orders a before b (−1), after (1) or neither (0); unlike
+// cmp.Compare it treats a NaN as equal to everything, as the sorts of
+// timestamp rows always have.
+func compareOrder[T int | float64](a, b T) int {
 	switch {
 	case a < b:
 		return -1
@@ -626,7 +629,7 @@ func (s *PairSource) pairFromTable(tab *tsTable, left, right []string, maxSpan f
 		}
 	}
 	rows := tab.rows
-	slices.SortStableFunc(rows, func(a, b tsRow) int { return cmpInt(a.frame, b.frame) })
+	slices.SortStableFunc(rows, func(a, b tsRow) int { return compareOrder(a.frame, b.frame) })
 	seen := map[int]bool{}
 	for _, r := range rows {
 		l, rr := r.files[0], r.files[1]
@@ -690,16 +693,6 @@ func (s *PairSource) pairFromTable(tab *tsTable, left, right []string, maxSpan f
 		s.origin, s.hasOrigin = TimeOrigin{UTC: t0, From: from}, true
 	}
 	s.rule = fmt.Sprintf("times read from the %s column of timestamps file %s", col, path)
-}
-
-func cmpInt(a, b int) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 func setOf(paths []string) map[string]bool {

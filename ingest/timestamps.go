@@ -149,40 +149,11 @@ func parseTimestamps(r io.Reader, name, base string, fileCols []string) (*tsTabl
 		}
 	}
 	t := &tsTable{path: name, fileCols: fileCols}
-	col := map[string]int{colFrame: -1, colTime: -1, colUTC: -1}
-	for _, c := range fileCols {
-		col[c] = -1
-	}
-	for i, h := range head {
-		h = strings.ToLower(strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")))
-		if j, ok := col[h]; ok && j < 0 {
-			col[h] = i
-		}
-	}
-	headText := strings.Join(head, ",")
-	if len(headText) > 200 {
-		headText = headText[:200] + "..."
-	}
-	headText = oneLineText(headText)
-	for _, c := range append([]string{colFrame}, fileCols...) {
-		if col[c] < 0 {
-			return nil, fmt.Errorf("ingest: timestamps file %s has no %q column in its header (%s); the header must name %s", name, c, headText, hint)
-		}
+	col, err := headerColumns(head, fileCols, name, hint)
+	if err != nil {
+		return nil, err
 	}
 	t.haveTime, t.haveUTC = col[colTime] >= 0, col[colUTC] >= 0
-	if !t.haveTime && !t.haveUTC {
-		return nil, fmt.Errorf("ingest: timestamps file %s has neither a \"time_s\" nor a \"utc\" column in its header (%s); the header must name %s (or utc in place of time_s)", name, headText, hint)
-	}
-	resolve := func(p string) string {
-		p = strings.TrimSpace(p)
-		if p == "" {
-			return ""
-		}
-		if !filepath.IsAbs(p) {
-			p = filepath.Join(base, p)
-		}
-		return filepath.Clean(p)
-	}
 	cell := func(rec []string, c string) string {
 		if i := col[c]; i >= 0 && i < len(rec) {
 			return strings.TrimSpace(rec[i])
@@ -192,7 +163,7 @@ func parseTimestamps(r io.Reader, name, base string, fileCols []string) (*tsTabl
 	filesOf := func(rec []string) []string {
 		fs := make([]string, len(fileCols))
 		for i, c := range fileCols {
-			fs[i] = resolve(cell(rec, c))
+			fs[i] = resolvePath(base, cell(rec, c))
 		}
 		return fs
 	}
@@ -230,32 +201,9 @@ func parseTimestamps(r io.Reader, name, base string, fileCols []string) (*tsTabl
 			continue
 		}
 		row := tsRow{line: line, frame: fr, files: filesOf(rec)}
-		if t.haveUTC {
-			if s := cell(rec, colUTC); s != "" {
-				u, err := ParseInstant(s)
-				if err != nil {
-					skip(line, rec, SkipBadRow, "utc "+err.Error())
-					continue
-				}
-				row.utc, row.hasUTC = u, true
-			} else if !t.haveTime {
-				skip(line, rec, SkipBadRow, "no utc instant")
-				continue
-			}
-		}
-		if t.haveTime {
-			s := cell(rec, colTime)
-			v, err := strconv.ParseFloat(s, 64)
-			var ne *strconv.NumError
-			switch {
-			case err != nil && !(errors.As(err, &ne) && ne.Err == strconv.ErrRange):
-				skip(line, rec, SkipBadRow, fmt.Sprintf("time_s %q is not a number", clip(s)))
-				continue
-			case math.IsNaN(v) || math.IsInf(v, 0):
-				skip(line, rec, SkipBadTime, fmt.Sprintf("time_s %s", clip(s)))
-				continue
-			}
-			row.time = v
+		if reason, detail := t.rowTimes(&row, cell(rec, colUTC), cell(rec, colTime)); reason != "" {
+			skip(line, rec, reason, detail)
+			continue
 		}
 		t.rows = append(t.rows, row)
 	}
@@ -263,22 +211,98 @@ func parseTimestamps(r io.Reader, name, base string, fileCols []string) (*tsTabl
 		return nil, fmt.Errorf("ingest: timestamps file %s has a header but no rows; it needs one row per frame", name)
 	}
 	if !t.haveTime {
-		// Times from the utc column alone: seconds from a provisional
-		// reference, the median instant, until the source picks its
-		// time 0.
-		if len(t.rows) > 0 {
-			us := make([]time.Time, len(t.rows))
-			for i, r := range t.rows {
-				us[i] = r.utc
-			}
-			slices.SortFunc(us, func(a, b time.Time) int { return a.Compare(b) })
-			t.ref = us[(len(us)-1)/2].Truncate(time.Second)
-			for i := range t.rows {
-				t.rows[i].time = t.rows[i].utc.Sub(t.ref).Seconds()
-			}
-		}
+		t.timesFromUTC()
 	}
 	return t, nil
+}
+
+// headerColumns maps each known column (frame, time_s, utc and the file
+// columns) to its index in the header, -1 when absent, and checks that the
+// columns needed are there.
+func headerColumns(head, fileCols []string, name, hint string) (map[string]int, error) {
+	col := map[string]int{colFrame: -1, colTime: -1, colUTC: -1}
+	for _, c := range fileCols {
+		col[c] = -1
+	}
+	for i, h := range head {
+		h = strings.ToLower(strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")))
+		if j, ok := col[h]; ok && j < 0 {
+			col[h] = i
+		}
+	}
+	headText := strings.Join(head, ",")
+	if len(headText) > 200 {
+		headText = headText[:200] + "..."
+	}
+	headText = oneLineText(headText)
+	for _, c := range append([]string{colFrame}, fileCols...) {
+		if col[c] < 0 {
+			return nil, fmt.Errorf("ingest: timestamps file %s has no %q column in its header (%s); the header must name %s", name, c, headText, hint)
+		}
+	}
+	if col[colTime] < 0 && col[colUTC] < 0 {
+		return nil, fmt.Errorf("ingest: timestamps file %s has neither a \"time_s\" nor a \"utc\" column in its header (%s); the header must name %s (or utc in place of time_s)", name, headText, hint)
+	}
+	return col, nil
+}
+
+// resolvePath makes a file cell absolute against base and cleans it; an
+// empty cell stays empty.
+func resolvePath(base, p string) string {
+	p = strings.TrimSpace(p)
+	if p == "" {
+		return ""
+	}
+	if !filepath.IsAbs(p) {
+		p = filepath.Join(base, p)
+	}
+	return filepath.Clean(p)
+}
+
+// rowTimes parses a row's utc instant and time_s cells into row, as the
+// table's columns require; it returns the skip reason and detail when the
+// row cannot be used, empty strings when it can.
+func (t *tsTable) rowTimes(row *tsRow, utc, ts string) (reason, detail string) {
+	if t.haveUTC {
+		if utc != "" {
+			u, err := ParseInstant(utc)
+			if err != nil {
+				return SkipBadRow, "utc " + err.Error()
+			}
+			row.utc, row.hasUTC = u, true
+		} else if !t.haveTime {
+			return SkipBadRow, "no utc instant"
+		}
+	}
+	if t.haveTime {
+		v, err := strconv.ParseFloat(ts, 64)
+		var ne *strconv.NumError
+		switch {
+		case err != nil && !(errors.As(err, &ne) && ne.Err == strconv.ErrRange):
+			return SkipBadRow, fmt.Sprintf("time_s %q is not a number", clip(ts))
+		case math.IsNaN(v) || math.IsInf(v, 0):
+			return SkipBadTime, fmt.Sprintf("time_s %s", clip(ts))
+		}
+		row.time = v
+	}
+	return "", ""
+}
+
+// timesFromUTC gives the rows times from the utc column alone: seconds
+// from a provisional reference, the median instant, until the source picks
+// its time 0.
+func (t *tsTable) timesFromUTC() {
+	if len(t.rows) > 0 {
+		us := make([]time.Time, len(t.rows))
+		for i, r := range t.rows {
+			us[i] = r.utc
+		}
+		slices.SortFunc(us, func(a, b time.Time) int { return a.Compare(b) })
+		t.ref = us[(len(us)-1)/2].Truncate(time.Second)
+		for i := range t.rows {
+			t.rows[i].time = t.rows[i].utc.Sub(t.ref).Seconds()
+		}
+	}
 }
 
 // fieldError describes a CSV parse error of one row in words.

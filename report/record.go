@@ -61,13 +61,6 @@ func fill[R any](s *table.Schema, rows []R, fields []field[R]) *table.Table {
 	return t
 }
 
-func b2f(b bool) float64 {
-	if b {
-		return 1
-	}
-	return 0
-}
-
 // crestFields map crest rows onto crests.csv.
 var crestFields = []field[speed.CrestRow]{
 	{"track_id", func(r *speed.CrestRow) float64 { return float64(r.TrackID) }},
@@ -89,7 +82,7 @@ var crestFields = []field[speed.CrestRow]{
 	{"crest_length_m", func(r *speed.CrestRow) float64 { return r.Length }},
 	{"surface_speed_mps", func(r *speed.CrestRow) float64 { return r.SurfaceSpeed }},
 	{"bx", func(r *speed.CrestRow) float64 { return r.BreakingIndex }},
-	{"foam", func(r *speed.CrestRow) float64 { return b2f(r.Foam) }},
+	{"foam", func(r *speed.CrestRow) float64 { return table.FlagValue(r.Foam) }},
 }
 
 // whitecapFields map whitecap rows onto whitecaps.csv.

@@ -304,36 +304,8 @@ func NewRenderer(rig *calib.Rig, sea *LinearSea, opt RenderOptions, workers int)
 	if !(rig.SeaPlane.OffsetM > 0.5) {
 		return nil, fmt.Errorf("left camera is %g m above the sea; it must be at least 0.5 m above the water", rig.SeaPlane.OffsetM)
 	}
-	if err := opt.Roughness.Validate(); err != nil {
+	if err := opt.settle(sea); err != nil {
 		return nil, err
-	}
-	if err := opt.Shading.Validate(); err != nil {
-		return nil, err
-	}
-	opt.Roughness.defaults()
-	opt.Shading.defaults()
-	if opt.MaxRangeM == 0 {
-		opt.MaxRangeM = 200
-	}
-	if !(opt.MaxRangeM > 1 && opt.MaxRangeM <= 5000) {
-		return nil, fmt.Errorf("maximum range %g m is outside (1, 5000]", opt.MaxRangeM)
-	}
-	for i, c := range sea.Components {
-		if math.IsNaN(c.Amp+c.K+c.Omega+c.Dir+c.Phase) || math.IsInf(c.Amp+c.K+c.Omega+c.Dir+c.Phase, 0) || c.K < 0 {
-			return nil, fmt.Errorf("sea component %d has a non-finite or negative value", i)
-		}
-	}
-	if opt.GridSpacingM == 0 {
-		opt.GridSpacingM = 0.25
-		if k := sea.MaxWavenumber(); k > 0 {
-			opt.GridSpacingM = math.Max(0.05, math.Min(0.5, 2*math.Pi/k/16))
-		}
-	}
-	if !(opt.GridSpacingM >= 0.005 && opt.GridSpacingM <= 5) {
-		return nil, fmt.Errorf("sea grid spacing %g m is outside 0.005–5 m", opt.GridSpacingM)
-	}
-	if k := sea.MaxWavenumber(); k*opt.GridSpacingM > math.Pi/4 {
-		return nil, fmt.Errorf("sea grid spacing %g m is too coarse for the sea's shortest waves (%.3g m); use at most an eighth of them", opt.GridSpacingM, 2*math.Pi/k)
 	}
 	world, err := rig.SeaPlane.World()
 	if err != nil {
@@ -380,17 +352,60 @@ func NewRenderer(rig *calib.Rig, sea *LinearSea, opt RenderOptions, workers int)
 		nt = 2
 	}
 	r.tile = newGridEval(rough, 0, 0, opt.Roughness.TileM/float64(nt), nt, nt, true)
+	r.buildTables()
+	return r, nil
+}
+
+// settle validates the render options against the sea and fills in the
+// defaults (range, grid spacing) the caller left at zero.
+func (opt *RenderOptions) settle(sea *LinearSea) error {
+	if err := opt.Roughness.Validate(); err != nil {
+		return err
+	}
+	if err := opt.Shading.Validate(); err != nil {
+		return err
+	}
+	opt.Roughness.defaults()
+	opt.Shading.defaults()
+	if opt.MaxRangeM == 0 {
+		opt.MaxRangeM = 200
+	}
+	if !(opt.MaxRangeM > 1 && opt.MaxRangeM <= 5000) {
+		return fmt.Errorf("maximum range %g m is outside (1, 5000]", opt.MaxRangeM)
+	}
+	for i, c := range sea.Components {
+		if math.IsNaN(c.Amp+c.K+c.Omega+c.Dir+c.Phase) || math.IsInf(c.Amp+c.K+c.Omega+c.Dir+c.Phase, 0) || c.K < 0 {
+			return fmt.Errorf("sea component %d has a non-finite or negative value", i)
+		}
+	}
+	if opt.GridSpacingM == 0 {
+		opt.GridSpacingM = 0.25
+		if k := sea.MaxWavenumber(); k > 0 {
+			opt.GridSpacingM = math.Max(0.05, math.Min(0.5, 2*math.Pi/k/16))
+		}
+	}
+	if !(opt.GridSpacingM >= 0.005 && opt.GridSpacingM <= 5) {
+		return fmt.Errorf("sea grid spacing %g m is outside 0.005–5 m", opt.GridSpacingM)
+	}
+	if k := sea.MaxWavenumber(); k*opt.GridSpacingM > math.Pi/4 {
+		return fmt.Errorf("sea grid spacing %g m is too coarse for the sea's shortest waves (%.3g m); use at most an eighth of them", opt.GridSpacingM, 2*math.Pi/k)
+	}
+	return nil
+}
+
+// buildTables fills the renderer's lookup tables: the Fresnel reflectance,
+// the sky gradation and the gamma encoding.
+func (r *Renderer) buildTables() {
 	// Tables of the shading functions (smooth on [0, 1]; linear
 	// interpolation between 4097 samples is exact to about 1e-6).
-	nw := opt.Shading.RefractiveIndex
+	nw := r.opt.Shading.RefractiveIndex
 	r.fresnel = tabulate(func(c float64) float64 { return FresnelReflectance(c, nw) })
 	r.sky = tabulate(SkyGradation)
 	// Gamma-encoding table over linear radiance [0, 1].
 	r.gamma = make([]float32, gammaTable+2)
 	for i := range r.gamma {
-		r.gamma[i] = float32(255 * math.Pow(math.Min(1, float64(i)/gammaTable), 1/opt.Shading.Gamma))
+		r.gamma[i] = float32(255 * math.Pow(math.Min(1, float64(i)/gammaTable), 1/r.opt.Shading.Gamma))
 	}
-	return r, nil
 }
 
 // World returns the world frame the renderer works in.

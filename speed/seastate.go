@@ -648,6 +648,10 @@ func SeriesSeaState(series []float32, dt float64) (SeaState, error) {
 	return e.frequencySpectrum()
 }
 
+// errNoEnergy is the error of a spectrum with no energy above zero
+// frequency.
+var errNoEnergy = errors.New("speed: spectrum has no energy above zero frequency; check that the elevation record is not constant")
+
 // frequencySpectrum is the part of Result that needs only the probes'
 // series: spectrum, noise floor, band, Hm0 and F_p with its uncertainty.
 func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
@@ -665,45 +669,16 @@ func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
 		}
 	}
 
-	use := make([]bool, len(e.series))
-	for p, s := range e.series {
-		missing := 0
-		for _, v := range s {
-			if v != v {
-				missing++
-			}
-		}
-		if float64(missing) > maxMissingFraction*float64(n) {
-			st.DroppedProbes++
-			continue
-		}
-		use[p] = true
-		st.NProbes++
-		st.FilledSamples += missing
-	}
-	if st.NProbes == 0 {
-		return st, fmt.Errorf("speed: all %d elevation probes have more than %.0f %% missing samples; check the validity mask or the reconstruction coverage", st.DroppedProbes, 100*maxMissingFraction)
+	use, err := e.chooseProbes(&st)
+	if err != nil {
+		return st, err
 	}
 	x := make([]float64, n)
 	fs := 1 / e.dt
-	noEnergy := errors.New("speed: spectrum has no energy above zero frequency; check that the elevation record is not constant")
 
-	// Segment length: at least minPeriodsPerSegment periods of the peak
-	// found with the current length (a few rounds at most: the peak of a
-	// spectrum with too short segments is itself rough).
-	var fp float64
-	for round := 0; ; round++ {
-		ps := e.spectra(use, x, nper, 1)
-		freqs := welchFreqs(nper, fs, 1)
-		var ok bool
-		if fp, ok = youngPeak(freqs, ps.native, 1, len(freqs)); !ok {
-			return st, noEnergy
-		}
-		need := int(math.Ceil(minPeriodsPerSegment / (fp * e.dt)))
-		if !auto || round == 3 || need <= nper || nper == n {
-			break
-		}
-		nper = smoothLength(min(need, n), n)
+	nper, fp, err := e.segmentLength(use, x, nper, auto)
+	if err != nil {
+		return st, err
 	}
 	pad := min(64, max(1, int(math.Ceil(peakSamplesPerPeriod/(float64(nper)*e.dt*fp)))))
 	for pad > 1 && pad*nper > 1<<22 {
@@ -717,9 +692,8 @@ func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
 	df := st.Freqs[1] - st.Freqs[0]
 	fpad := welchFreqs(nper, fs, pad)
 	if fp, _ = youngPeak(fpad, ps.psd, pad, len(fpad)); !(fp > 0) {
-		return st, noEnergy
+		return st, errNoEnergy
 	}
-	var err error
 	if st.FpParabola, err = PeakParabola(st.Freqs, st.PSD); err != nil {
 		return st, err
 	}
@@ -748,18 +722,80 @@ func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
 	st.Hm0 = 4 * math.Sqrt(math.Max(m0, 0))
 	st.Hm0Total = 4 * math.Sqrt(ps.variance)
 
+	if err := st.peakFrequency(ps, fpad, lo, hi, pad, nuWelch); err != nil {
+		return st, err
+	}
+	return st, nil
+}
+
+// chooseProbes marks the probes whose series miss at most
+// maxMissingFraction of the samples, counting used and dropped probes and
+// the samples to fill in st.
+func (e *SeaStateEstimator) chooseProbes(st *SeaState) ([]bool, error) {
+	n := e.n
+	use := make([]bool, len(e.series))
+	for p, s := range e.series {
+		missing := 0
+		for _, v := range s {
+			if v != v {
+				missing++
+			}
+		}
+		if float64(missing) > maxMissingFraction*float64(n) {
+			st.DroppedProbes++
+			continue
+		}
+		use[p] = true
+		st.NProbes++
+		st.FilledSamples += missing
+	}
+	if st.NProbes == 0 {
+		return nil, fmt.Errorf("speed: all %d elevation probes have more than %.0f %% missing samples; check the validity mask or the reconstruction coverage", st.DroppedProbes, 100*maxMissingFraction)
+	}
+	return use, nil
+}
+
+// segmentLength chooses the Welch segment length, starting from nper:
+// automatically, at least minPeriodsPerSegment periods of the peak
+// found with the current length (a few rounds at most: the peak of a
+// spectrum with too short segments is itself rough).
+// It returns the length and the peak frequency found with it.
+func (e *SeaStateEstimator) segmentLength(use []bool, x []float64, nper int, auto bool) (int, float64, error) {
+	n := e.n
+	var fp float64
+	fs := 1 / e.dt
+	for round := 0; ; round++ {
+		ps := e.spectra(use, x, nper, 1)
+		freqs := welchFreqs(nper, fs, 1)
+		var ok bool
+		if fp, ok = youngPeak(freqs, ps.native, 1, len(freqs)); !ok {
+			return 0, 0, errNoEnergy
+		}
+		need := int(math.Ceil(minPeriodsPerSegment / (fp * e.dt)))
+		if !auto || round == 3 || need <= nper || nper == n {
+			break
+		}
+		nper = smoothLength(min(need, n), n)
+	}
+	return nper, fp, nil
+}
+
+// peakFrequency estimates F_p in the band lo–hi (native bins) of the
+// floor-removed padded spectrum, with its Richardson correction,
+// uncertainty and interval, and T_p from it.
+func (st *SeaState) peakFrequency(ps *probeSpectra, fpad []float64, lo, hi, pad int, nuWelch float64) error {
 	// Peak frequency of the band, floor removed, on the padded grid.
 	clean := make([]float64, len(ps.psd))
 	for i, v := range ps.psd {
 		clean[i] = v - st.NoiseFloorPSD
 	}
 	plo, phi := lo*pad, min(len(clean), (hi-1)*pad+1)
-	if hi == nf {
+	if hi == len(st.PSD) {
 		phi = len(clean)
 	}
 	fw, ok := youngPeak(fpad, clean, plo, phi)
 	if !ok {
-		return st, noEnergy
+		return errNoEnergy
 	}
 	st.FpWelch = fw
 	st.FpSmoothed, _ = youngPeak(fpad, smoothWithWindow(clean, plo, phi, pad), plo, phi)
@@ -785,7 +821,7 @@ func (e *SeaStateEstimator) frequencySpectrum() (SeaState, error) {
 	if st.FpLow > 0 {
 		st.TpHigh = 1 / st.FpLow
 	}
-	return st, nil
+	return nil
 }
 
 // welchFreqs returns the frequencies k·fs/(pad·nper), k = 0 … pad·nper/2.

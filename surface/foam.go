@@ -36,6 +36,7 @@ package surface
 // votes are foam pixels.
 
 import (
+	"crestspeed/internal/selectk"
 	"errors"
 	"fmt"
 	"math"
@@ -209,21 +210,24 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 	// survive): OpenPx 3×3 erosions, then as many dilations.
 	if o.OpenPx > 0 {
 		d.orig = append(d.orig[:0], low...)
-		for range o.OpenPx {
-			erode3(low, d.tmp, w, h)
-			copy(low, d.tmp)
-		}
-		for range o.OpenPx {
-			dilate3(low, d.tmp, w, h)
-			copy(low, d.tmp)
-		}
+		d.repeatMorph(erode3, low, w, h, o.OpenPx)
+		d.repeatMorph(dilate3, low, w, h, o.OpenPx)
 		for i, v := range low {
 			if v != 0 {
 				low[i] = d.orig[i]
 			}
 		}
 	}
-	// Hysteresis: flood the growth mask from the seeds (8-connected).
+	d.flood(low, mask, w, h)
+	// Closing, then the minimum area.
+	d.repeatMorph(dilate3, mask, w, h, o.ClosePx)
+	d.repeatMorph(erode3, mask, w, h, o.ClosePx)
+	return d.dropSmall(mask, w, h), nil
+}
+
+// flood marks in mask every pixel of the growth mask low connected
+// (8-connected) to a seed (low value 2): the hysteresis step.
+func (d *FoamDetector) flood(low, mask []uint8, w, h int) {
 	d.stack = d.stack[:0]
 	for i, v := range low {
 		if v == 2 {
@@ -231,38 +235,7 @@ func (d *FoamDetector) Detect(pix []uint8, w, h int, mask []uint8) (int, error) 
 			d.stack = append(d.stack, int32(i))
 		}
 	}
-	for len(d.stack) > 0 {
-		i := int(d.stack[len(d.stack)-1])
-		d.stack = d.stack[:len(d.stack)-1]
-		x, y := i%w, i/w
-		for dy := -1; dy <= 1; dy++ {
-			yy := y + dy
-			if yy < 0 || yy >= h {
-				continue
-			}
-			for dx := -1; dx <= 1; dx++ {
-				xx := x + dx
-				if xx < 0 || xx >= w {
-					continue
-				}
-				j := yy*w + xx
-				if low[j] != 0 && mask[j] == 0 {
-					mask[j] = 1
-					d.stack = append(d.stack, int32(j))
-				}
-			}
-		}
-	}
-	// Closing, then the minimum area.
-	for range o.ClosePx {
-		dilate3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
-	for range o.ClosePx {
-		erode3(mask, d.tmp, w, h)
-		copy(mask, d.tmp)
-	}
-	return d.dropSmall(mask, w, h), nil
+	d.stack = floodFrom(d.stack, low, mask, w, h, nil)
 }
 
 // background fills d.bg with the median-of-block-means background.
@@ -291,7 +264,7 @@ func (d *FoamDetector) background(pix []uint8, w, h int) {
 			for y := max(by-r, 0); y <= min(by+r, bh-1); y++ {
 				d.win = append(d.win, d.blocks[y*bw+max(bx-r, 0):y*bw+min(bx+r, bw-1)+1]...)
 			}
-			d.med[by*bw+bx] = selectKth(d.win, len(d.win)/2)
+			d.med[by*bw+bx] = selectk.Kth(d.win, len(d.win)/2)
 		}
 	}
 	// Bilinear interpolation between block centres.
@@ -361,6 +334,48 @@ func dilate3(src, dst []uint8, w, h int) {
 	}
 }
 
+// repeatMorph applies the 3×3 operation op (erode3 or dilate3) n times to
+// m in place, through d.tmp.
+func (d *FoamDetector) repeatMorph(op func(src, dst []uint8, w, h int), m []uint8, w, h, n int) {
+	for range n {
+		op(m, d.tmp, w, h)
+		copy(m, d.tmp)
+	}
+}
+
+// floodFrom grows from the pixels on stack until it is empty: each
+// 8-connected neighbour j with grow[j] set and mark[j] clear is marked and
+// pushed. visit, when not nil, is called with every pixel popped. It
+// returns the emptied stack, for its storage to be reused.
+func floodFrom[G, M uint8 | int32](stack []int32, grow []G, mark []M, w, h int, visit func(i int)) []int32 {
+	for len(stack) > 0 {
+		i := int(stack[len(stack)-1])
+		stack = stack[:len(stack)-1]
+		if visit != nil {
+			visit(i)
+		}
+		x, y := i%w, i/w
+		for dy := -1; dy <= 1; dy++ {
+			yy := y + dy
+			if yy < 0 || yy >= h {
+				continue
+			}
+			for dx := -1; dx <= 1; dx++ {
+				xx := x + dx
+				if xx < 0 || xx >= w {
+					continue
+				}
+				j := yy*w + xx
+				if grow[j] != 0 && mark[j] == 0 {
+					mark[j] = 1
+					stack = append(stack, int32(j))
+				}
+			}
+		}
+	}
+	return stack
+}
+
 // dropSmall clears the 8-connected regions of mask smaller than MinAreaPx
 // and returns the number of foam pixels left.
 func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
@@ -370,6 +385,7 @@ func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
 	total := 0
 	region := d.region[:0]
 	defer func() { d.region = region[:0] }()
+	visit := func(i int) { region = append(region, int32(i)) }
 	for s := range mask[:n] {
 		if mask[s] == 0 || d.label[s] != 0 {
 			continue
@@ -377,29 +393,7 @@ func (d *FoamDetector) dropSmall(mask []uint8, w, h int) int {
 		region = region[:0]
 		d.stack = append(d.stack[:0], int32(s))
 		d.label[s] = 1
-		for len(d.stack) > 0 {
-			i := int(d.stack[len(d.stack)-1])
-			d.stack = d.stack[:len(d.stack)-1]
-			region = append(region, int32(i))
-			x, y := i%w, i/w
-			for dy := -1; dy <= 1; dy++ {
-				yy := y + dy
-				if yy < 0 || yy >= h {
-					continue
-				}
-				for dx := -1; dx <= 1; dx++ {
-					xx := x + dx
-					if xx < 0 || xx >= w {
-						continue
-					}
-					j := yy*w + xx
-					if mask[j] != 0 && d.label[j] == 0 {
-						d.label[j] = 1
-						d.stack = append(d.stack, int32(j))
-					}
-				}
-			}
-		}
+		d.stack = floodFrom(d.stack, mask, d.label, w, h, visit)
 		if len(region) < d.opt.MinAreaPx {
 			for _, i := range region {
 				mask[i] = 0
@@ -554,37 +548,4 @@ func (w *Worker) stereoCheck(d *FoamDetector, mask []uint8, st *FoamStats) error
 		}
 	}
 	return nil
-}
-
-// selectKth returns the k-th smallest value of a (reordering it), by
-// Hoare's selection with a middle pivot (Hoare 1961, CACM 4, 321–322,
-// Algorithm 65 "FIND").
-func selectKth(a []float32, k int) float32 {
-	lo, hi := 0, len(a)-1
-	for lo < hi {
-		p := a[lo+(hi-lo)/2]
-		i, j := lo, hi
-		for i <= j {
-			for a[i] < p {
-				i++
-			}
-			for a[j] > p {
-				j--
-			}
-			if i <= j {
-				a[i], a[j] = a[j], a[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return a[k]
-		}
-	}
-	return a[k]
 }

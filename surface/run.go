@@ -282,28 +282,15 @@ func (r *Reconstructor) reconstructRange(ctx context.Context, open Opener, g *Ge
 		return nil, err
 	}
 	defer src.Close()
-	n := src.Len()
-	if n != g.RecordPairs {
-		return nil, fmt.Errorf("surface: the record has %d image pairs but the geometry was settled on %d; settle this record again", n, g.RecordPairs)
-	}
-	if first < 0 || last > n || first >= last {
-		return nil, fmt.Errorf("surface: the pair range %d–%d is not within the record's %d pairs (give 0 ≤ first < last ≤ %d)", first, last, n, n)
-	}
-	if sk, ok := src.(IndexSeeker); ok && first > 0 {
-		if err := sk.SeekIndex(first); err != nil {
-			return nil, fmt.Errorf("surface: cannot move to pair %d of the record: %v", first, err)
-		}
+	if err := seekRange(src, g, first, last); err != nil {
+		return nil, err
 	}
 	setup := r.setupOf(g, first, last, workers, threads)
 	res := &Result{Setup: setup, Skipped: ingest.SkipCounts{}, FoamSkipped: ingest.SkipCounts{}, Pass: map[string]time.Duration{}, CoverageMin: math.NaN()}
 	if err := sink.Start(setup); err != nil {
 		return nil, err
 	}
-	supported := len(r.grid.X) * len(r.grid.Y)
-	if g.GridChoice != nil && g.GridChoice.SupportedCells > 0 {
-		supported = g.GridChoice.SupportedCells
-	}
-	minCells := max(1, int(math.Ceil(r.opt.MinFrameCoverage*float64(supported)-1e-9)))
+	minCells := r.minFrameCells(g)
 
 	t0 := time.Now()
 	slots := 2 * workers
@@ -387,6 +374,35 @@ func (r *Reconstructor) reconstructRange(ctx context.Context, open Opener, g *Ge
 		res.CoverageMean = sumCov / float64(res.Frames)
 	}
 	return res, nil
+}
+
+// seekRange checks that the record matches the settled geometry and that
+// the pair range first–last lies within it, and moves a seekable source to
+// the first pair.
+func seekRange(src ingest.StereoSource, g *Geometry, first, last int) error {
+	n := src.Len()
+	if n != g.RecordPairs {
+		return fmt.Errorf("surface: the record has %d image pairs but the geometry was settled on %d; settle this record again", n, g.RecordPairs)
+	}
+	if first < 0 || last > n || first >= last {
+		return fmt.Errorf("surface: the pair range %d–%d is not within the record's %d pairs (give 0 ≤ first < last ≤ %d)", first, last, n, n)
+	}
+	if sk, ok := src.(IndexSeeker); ok && first > 0 {
+		if err := sk.SeekIndex(first); err != nil {
+			return fmt.Errorf("surface: cannot move to pair %d of the record: %v", first, err)
+		}
+	}
+	return nil
+}
+
+// minFrameCells is the fewest valid cells a map may have and still be kept:
+// MinFrameCoverage of the cells the settled grid supports (at least one).
+func (r *Reconstructor) minFrameCells(g *Geometry) int {
+	supported := len(r.grid.X) * len(r.grid.Y)
+	if g.GridChoice != nil && g.GridChoice.SupportedCells > 0 {
+		supported = g.GridChoice.SupportedCells
+	}
+	return max(1, int(math.Ceil(r.opt.MinFrameCoverage*float64(supported)-1e-9)))
 }
 
 // describeSkips lists skip counts in a sentence fragment.
@@ -593,11 +609,72 @@ func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) 
 	if err != nil {
 		return ingest.Grid{}, "", nil, err
 	}
+	lats, err := r.candidateLattices(fp)
+	if err != nil {
+		return ingest.Grid{}, "", nil, err
+	}
+	covered, frames, err := r.countCoverage(ctx, smp, workers, lats)
+	if err != nil {
+		return ingest.Grid{}, "", nil, err
+	}
+	need := int32(math.Ceil(gs.Coverage*float64(frames) - 1e-9))
+	choices, cands, err := r.gridChoices(lats, covered, need, extent)
+	if err != nil {
+		return ingest.Grid{}, "", nil, err
+	}
+	// The largest area wins; of areas within 10 % of it, the finest
+	// spacing (choices run from coarse to fine).
+	best := -1
+	maxArea := 0.0
+	for _, c := range choices {
+		maxArea = math.Max(maxArea, c.area)
+	}
+	for i, c := range choices {
+		if c.area >= 0.9*maxArea {
+			best = i
+		}
+	}
+	if best < 0 {
+		return ingest.Grid{}, "", nil, fmt.Errorf("surface: no rectangle of at least 4 × 4 cells of %g m is covered in %.0f %% of the %d pairs examined; check the images and the sea plane, or configure the grid", lats[0].d, 100*gs.Coverage, frames)
+	}
+	c := choices[best]
+	vx, vy := r.bothViews(4)
+	gc := &GridChoice{Extent: extent, SpacingM: c.lat.d, ViewXM: vx, ViewYM: vy, SupportedCells: c.supported,
+		SupportedFraction: float64(c.supported) / float64(len(c.keep)), Pairs: frames, Candidates: cands}
+	gc.SupportedXM = [2]float64{math.Inf(1), math.Inf(-1)}
+	gc.SupportedYM = gc.SupportedXM
+	nx := len(c.g.X)
+	for i, k := range c.keep {
+		if k {
+			x, y := c.g.X[i%nx], c.g.Y[i/nx]
+			gc.SupportedXM = [2]float64{math.Min(gc.SupportedXM[0], x), math.Max(gc.SupportedXM[1], x)}
+			gc.SupportedYM = [2]float64{math.Min(gc.SupportedYM[0], y), math.Max(gc.SupportedYM[1], y)}
+		}
+	}
+	what := "the rectangle around the largest connected set of cells"
+	if extent == ExtentInscribed {
+		what = "the largest x-aligned rectangle of cells"
+	}
+	spacing := "configured spacing"
+	if gs.D == 0 {
+		spacing = fmt.Sprintf("spacing %g m ≥ %g × the largest pixel footprint on the sea among them (%.3f m, at x = %.1f m), rounded up", c.lat.d, gs.GSDFactor, c.farPixel, c.farX)
+	}
+	note := fmt.Sprintf("automatic (%s): %s whose %g m cells hold at least %d points in at least %.0f %% of %d sampled pairs (%s); %d of its %d cells supported, x %.1f–%.1f m of the %.1f–%.1f m both cameras see",
+		extent, what, c.lat.d, r.opt.MinPoints, 100*gs.Coverage, frames, spacing, c.supported, len(c.keep),
+		gc.SupportedXM[0], gc.SupportedXM[1], vx[0], vx[1])
+	return c.g, note, gc, nil
+}
+
+// candidateLattices lists the lattices the automatic grid may use: the
+// configured spacing alone, or spacings from the ground-pixel size times
+// GSDFactor downward through gridCandidates, coarse to fine.
+func (r *Reconstructor) candidateLattices(fp footprint) ([]lattice, error) {
+	gs := r.opt.Grid
 	var lats []lattice
 	if gs.D != 0 {
 		l, err := coverageLattice(fp, gs.D)
 		if err != nil {
-			return ingest.Grid{}, "", nil, err
+			return nil, err
 		}
 		lats = append(lats, l)
 	} else {
@@ -613,21 +690,28 @@ func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) 
 			l, err := coverageLattice(fp, d)
 			if err != nil {
 				if len(lats) == 0 {
-					return ingest.Grid{}, "", nil, err
+					return nil, err
 				}
 				break
 			}
 			lats = append(lats, l)
 		}
 	}
+	return lats, nil
+}
+
+// countCoverage reconstructs the sampled pairs and counts, for each lattice
+// cell, in how many pairs it holds at least MinPoints points; it returns the
+// counts and the number of pairs read.
+func (r *Reconstructor) countCoverage(ctx context.Context, smp *sample, workers int, lats []lattice) ([][]int32, int, error) {
 	src, err := smp.source(smp.all())
 	if err != nil {
-		return ingest.Grid{}, "", nil, err
+		return nil, 0, err
 	}
 	defer src.Close()
 	ws, err := r.newWorkers(workers)
 	if err != nil {
-		return ingest.Grid{}, "", nil, err
+		return nil, 0, err
 	}
 	defer closeWorkers(ws)
 	slots := 2 * workers
@@ -677,25 +761,35 @@ func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) 
 		},
 	})
 	if err != nil {
-		return ingest.Grid{}, "", nil, err
+		return nil, 0, err
 	}
 	if frames == 0 {
-		return ingest.Grid{}, "", nil, fmt.Errorf("surface: no sampled pair could be read to choose the grid")
+		return nil, 0, fmt.Errorf("surface: no sampled pair could be read to choose the grid")
 	}
-	need := int32(math.Ceil(gs.Coverage*float64(frames) - 1e-9))
-	type choice struct {
-		g         ingest.Grid
-		area      float64
-		keep      []bool // supported cells of the grid, row-major
-		lat       lattice
-		i0, j0    int
-		asked     float64
-		farPixel  float64
-		farX      float64
-		supported int
-	}
-	var choices []choice
-	choiceOf := map[int]int{} // lattice → index in choices
+	return covered, frames, nil
+}
+
+// gridOption is one lattice's supported grid, a candidate for the automatic
+// grid.
+type gridOption struct {
+	g         ingest.Grid
+	area      float64
+	keep      []bool // supported cells of the grid, row-major
+	lat       lattice
+	i0, j0    int
+	asked     float64
+	farPixel  float64
+	farX      float64
+	supported int
+}
+
+// gridChoices finds on each lattice the cells covered in at least need
+// pairs and the rectangle they span, and keeps the lattices whose spacing
+// the far edge of that rectangle allows; it returns those choices and the
+// record of every candidate.
+func (r *Reconstructor) gridChoices(lats []lattice, covered [][]int32, need int32, extent string) ([]gridOption, []GridCandidate, error) {
+	gs := r.opt.Grid
+	var choices []gridOption
 	cands := make([]GridCandidate, len(lats))
 	for k, l := range lats {
 		cands[k].SpacingM = l.d
@@ -728,7 +822,7 @@ func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) 
 		ya, yb := l.y0+float64(j0)*l.d, l.y0+float64(j1-1)*l.d
 		g := ingest.Grid{X: axis(xa, xb, l.d), Y: axis(ya, yb, l.d)}
 		if len(g.X) != i1-i0 || len(g.Y) != j1-j0 {
-			return ingest.Grid{}, "", nil, fmt.Errorf("surface: internal error: the automatic grid's axes do not match its lattice")
+			return nil, nil, fmt.Errorf("surface: internal error: the automatic grid's axes do not match its lattice")
 		}
 		area := float64(cnt) * l.d * l.d
 		cands[k].SupportedCells, cands[k].SupportedAreaM2 = cnt, area
@@ -751,53 +845,12 @@ func (r *Reconstructor) autoGrid(ctx context.Context, smp *sample, workers int) 
 			continue
 		}
 		cands[k].Eligible = true
-		choiceOf[k] = len(choices)
-		choices = append(choices, choice{g: g, area: area, keep: sub, lat: l, i0: i0, j0: j0, asked: req, farPixel: rf.maxPixelM, farX: rf.farX, supported: cnt})
+		choices = append(choices, gridOption{g: g, area: area, keep: sub, lat: l, i0: i0, j0: j0, asked: req, farPixel: rf.maxPixelM, farX: rf.farX, supported: cnt})
 		if gs.D != 0 {
 			break
 		}
 	}
-	// The largest area wins; of areas within 10 % of it, the finest
-	// spacing (choices run from coarse to fine).
-	best := -1
-	maxArea := 0.0
-	for _, c := range choices {
-		maxArea = math.Max(maxArea, c.area)
-	}
-	for i, c := range choices {
-		if c.area >= 0.9*maxArea {
-			best = i
-		}
-	}
-	if best < 0 {
-		return ingest.Grid{}, "", nil, fmt.Errorf("surface: no rectangle of at least 4 × 4 cells of %g m is covered in %.0f %% of the %d pairs examined; check the images and the sea plane, or configure the grid", lats[0].d, 100*gs.Coverage, frames)
-	}
-	c := choices[best]
-	vx, vy := r.bothViews(4)
-	gc := &GridChoice{Extent: extent, SpacingM: c.lat.d, ViewXM: vx, ViewYM: vy, SupportedCells: c.supported,
-		SupportedFraction: float64(c.supported) / float64(len(c.keep)), Pairs: frames, Candidates: cands}
-	gc.SupportedXM = [2]float64{math.Inf(1), math.Inf(-1)}
-	gc.SupportedYM = gc.SupportedXM
-	nx := len(c.g.X)
-	for i, k := range c.keep {
-		if k {
-			x, y := c.g.X[i%nx], c.g.Y[i/nx]
-			gc.SupportedXM = [2]float64{math.Min(gc.SupportedXM[0], x), math.Max(gc.SupportedXM[1], x)}
-			gc.SupportedYM = [2]float64{math.Min(gc.SupportedYM[0], y), math.Max(gc.SupportedYM[1], y)}
-		}
-	}
-	what := "the rectangle around the largest connected set of cells"
-	if extent == ExtentInscribed {
-		what = "the largest x-aligned rectangle of cells"
-	}
-	spacing := "configured spacing"
-	if gs.D == 0 {
-		spacing = fmt.Sprintf("spacing %g m ≥ %g × the largest pixel footprint on the sea among them (%.3f m, at x = %.1f m), rounded up", c.lat.d, gs.GSDFactor, c.farPixel, c.farX)
-	}
-	note := fmt.Sprintf("automatic (%s): %s whose %g m cells hold at least %d points in at least %.0f %% of %d sampled pairs (%s); %d of its %d cells supported, x %.1f–%.1f m of the %.1f–%.1f m both cameras see",
-		extent, what, c.lat.d, r.opt.MinPoints, 100*gs.Coverage, frames, spacing, c.supported, len(c.keep),
-		gc.SupportedXM[0], gc.SupportedXM[1], vx[0], vx[1])
-	return c.g, note, gc, nil
+	return choices, cands, nil
 }
 
 // passFuncs are the three steps of a pass over a record. accept runs on the
@@ -810,26 +863,73 @@ type passFuncs struct {
 	consume func(f *ingest.StereoFrame, slot, seq int) error
 }
 
+// passJob is one accepted frame handed to a worker, with its place in the
+// record (seq) and the result slot it owns.
+type passJob struct {
+	seq, slot int
+	f         ingest.StereoFrame
+}
+
+// passDone is a worker's finished job with the error it met, if any.
+type passDone struct {
+	passJob
+	err error
+}
+
+// feedFrames reads the source, keeps the frames accept takes and sends each,
+// once a result slot is free, to the workers as a job; it closes jobs when
+// the source, accept or the context ends the pass, and returns the source's
+// read error, if any.
+func feedFrames(ctx context.Context, src ingest.StereoSource, accept func(*ingest.StereoFrame) (bool, bool), free <-chan int, jobs chan<- passJob) error {
+	defer close(jobs)
+	var f ingest.StereoFrame
+	defer releaseFrame(&f)
+	for seq := 0; ; seq++ {
+		var slot int
+		select {
+		case <-ctx.Done():
+			return nil
+		case slot = <-free:
+		}
+		for {
+			err := src.Next(&f)
+			if errors.Is(err, io.EOF) {
+				return nil
+			}
+			if err != nil {
+				return err
+			}
+			use, stop := accept(&f)
+			if stop {
+				return nil
+			}
+			if use {
+				break
+			}
+		}
+		j := passJob{seq: seq, slot: slot, f: f}
+		f.Left, f.Right = gocv.Mat{}, gocv.Mat{}
+		select {
+		case jobs <- j:
+		case <-ctx.Done():
+			releaseFrame(&j.f)
+			return nil
+		}
+	}
+}
+
 // runPass reads src on one goroutine, processes accepted pairs on the
 // workers and consumes the results in reading order. At most slots pairs
 // are in flight. The first error stops the pass.
 func runPass(ctx context.Context, src ingest.StereoSource, ws []*Worker, slots int, pf passFuncs) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	type job struct {
-		seq, slot int
-		f         ingest.StereoFrame
-	}
-	type done struct {
-		job
-		err error
-	}
 	free := make(chan int, slots)
 	for i := 0; i < slots; i++ {
 		free <- i
 	}
-	jobs := make(chan job)
-	results := make(chan done, slots)
+	jobs := make(chan passJob)
+	results := make(chan passDone, slots)
 	var wg sync.WaitGroup
 	for _, w := range ws {
 		wg.Add(1)
@@ -842,58 +942,17 @@ func runPass(ctx context.Context, src ingest.StereoSource, ws []*Worker, slots i
 				} else {
 					err = ctx.Err()
 				}
-				results <- done{job: j, err: err}
+				results <- passDone{passJob: j, err: err}
 			}
 		}()
 	}
 	readErr := make(chan error, 1)
-	go func() {
-		defer close(jobs)
-		var f ingest.StereoFrame
-		defer releaseFrame(&f)
-		for seq := 0; ; seq++ {
-			var slot int
-			select {
-			case <-ctx.Done():
-				readErr <- nil
-				return
-			case slot = <-free:
-			}
-			for {
-				err := src.Next(&f)
-				if errors.Is(err, io.EOF) {
-					readErr <- nil
-					return
-				}
-				if err != nil {
-					readErr <- err
-					return
-				}
-				use, stop := pf.accept(&f)
-				if stop {
-					readErr <- nil
-					return
-				}
-				if use {
-					break
-				}
-			}
-			j := job{seq: seq, slot: slot, f: f}
-			f.Left, f.Right = gocv.Mat{}, gocv.Mat{}
-			select {
-			case jobs <- j:
-			case <-ctx.Done():
-				releaseFrame(&j.f)
-				readErr <- nil
-				return
-			}
-		}
-	}()
+	go func() { readErr <- feedFrames(ctx, src, pf.accept, free, jobs) }()
 	go func() {
 		wg.Wait()
 		close(results)
 	}()
-	pending := map[int]done{}
+	pending := map[int]passDone{}
 	next := 0
 	var firstErr error
 	for d := range results {

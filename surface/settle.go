@@ -450,62 +450,12 @@ func gatherSample(ctx context.Context, open Opener, opt Options, size image.Poin
 		}
 	}
 	if seeks {
-		lastIndex := -1
-		for _, t := range targets {
-			if err := ctx.Err(); err != nil {
-				return nil, err
-			}
-			report()
-			if t <= lastIndex {
-				continue // the pair delivered for the previous target
-			}
-			if err := sk.SeekIndex(t); err != nil {
-				return nil, fmt.Errorf("surface: cannot move to pair %d of the record: %v", t, err)
-			}
-			err := src.Next(&f)
-			if errors.Is(err, io.EOF) {
-				break
-			}
-			if err != nil {
-				return nil, err
-			}
-			lastIndex = f.Index
-			if _, err := keep(&f); err != nil {
-				return nil, err
-			}
-		}
+		err = seekTargets(ctx, src, sk, targets, &f, keep, report)
 	} else {
-		next := 0
-		for next < len(targets) {
-			if err := ctx.Err(); err != nil {
-				s.Close()
-				return nil, err
-			}
-			err := src.Next(&f)
-			if errors.Is(err, io.EOF) {
-				break
-			}
-			if err != nil {
-				s.Close()
-				return nil, err
-			}
-			if f.Index < targets[next] {
-				continue
-			}
-			for next < len(targets) && targets[next] <= f.Index {
-				next++
-				report()
-			}
-			ok, err := keep(&f)
-			if err != nil {
-				s.Close()
-				return nil, err
-			}
-			if ok {
-				s.frames = append(s.frames, f)
-				f = ingest.StereoFrame{}
-			}
-		}
+		err = streamTargets(ctx, src, targets, &f, keep, report, s)
+	}
+	if err != nil {
+		return nil, err
 	}
 	if len(s.pairs) == 0 {
 		s.Close()
@@ -519,4 +469,72 @@ func gatherSample(ctx context.Context, open Opener, opt Options, size image.Poin
 		s.open = nil
 	}
 	return s, nil
+}
+
+// seekTargets reads the target pairs of a seekable source, moving to each
+// in turn, into f and hands each to keep; report counts a target done.
+func seekTargets(ctx context.Context, src ingest.StereoSource, sk IndexSeeker, targets []int, f *ingest.StereoFrame, keep func(*ingest.StereoFrame) (bool, error), report func()) error {
+	lastIndex := -1
+	for _, t := range targets {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		report()
+		if t <= lastIndex {
+			continue // the pair delivered for the previous target
+		}
+		if err := sk.SeekIndex(t); err != nil {
+			return fmt.Errorf("surface: cannot move to pair %d of the record: %v", t, err)
+		}
+		err := src.Next(f)
+		if errors.Is(err, io.EOF) {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+		lastIndex = f.Index
+		if _, err := keep(f); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// streamTargets reads a source that cannot seek from the start, hands the
+// first pair at or after each target to keep and holds the kept frames in
+// s; on an error it closes s.
+func streamTargets(ctx context.Context, src ingest.StereoSource, targets []int, f *ingest.StereoFrame, keep func(*ingest.StereoFrame) (bool, error), report func(), s *sample) error {
+	next := 0
+	for next < len(targets) {
+		if err := ctx.Err(); err != nil {
+			s.Close()
+			return err
+		}
+		err := src.Next(f)
+		if errors.Is(err, io.EOF) {
+			return nil
+		}
+		if err != nil {
+			s.Close()
+			return err
+		}
+		if f.Index < targets[next] {
+			continue
+		}
+		for next < len(targets) && targets[next] <= f.Index {
+			next++
+			report()
+		}
+		ok, err := keep(f)
+		if err != nil {
+			s.Close()
+			return err
+		}
+		if ok {
+			s.frames = append(s.frames, *f)
+			*f = ingest.StereoFrame{}
+		}
+	}
+	return nil
 }

@@ -217,49 +217,47 @@ func (c *cursor) u32(what string) (uint32, error) {
 // in CDF-5.
 func (c *cursor) nonNeg(what string) (int64, error) {
 	at := c.off
-	if c.wide {
-		b, err := c.bytes(8, what)
-		if err != nil {
-			return 0, err
-		}
-		v := int64(binary.BigEndian.Uint64(b))
-		if v < 0 {
-			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
-		}
-		return v, nil
-	}
-	v, err := c.u32(what)
+	v, err := c.int4or8(what, c.wide)
 	if err != nil {
 		return 0, err
 	}
-	if int32(v) < 0 {
-		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, int32(v))}
+	if v < 0 {
+		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
 	}
-	return int64(v), nil
+	return v, nil
 }
 
 // offset reads an OFFSET field: 4 bytes in CDF-1, 8 bytes in CDF-2 and CDF-5.
 func (c *cursor) offset(version int, what string) (int64, error) {
 	at := c.off
-	if version == 1 {
-		v, err := c.u32(what)
-		if err != nil {
-			return 0, err
-		}
-		if int32(v) < 0 {
-			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, int32(v))}
-		}
-		return int64(v), nil
-	}
-	b, err := c.bytes(8, what)
+	v, err := c.int4or8(what, version != 1)
 	if err != nil {
 		return 0, err
 	}
-	v := int64(binary.BigEndian.Uint64(b))
 	if v < 0 {
+		if version == 1 {
+			return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative (%d)", what, v)}
+		}
 		return 0, &headerError{off: at, msg: fmt.Sprintf("%s is negative", what)}
 	}
 	return v, nil
+}
+
+// int4or8 reads a big-endian signed integer field of 8 bytes when wide,
+// of 4 otherwise.
+func (c *cursor) int4or8(what string, wide bool) (int64, error) {
+	if wide {
+		b, err := c.bytes(8, what)
+		if err != nil {
+			return 0, err
+		}
+		return int64(binary.BigEndian.Uint64(b)), nil
+	}
+	v, err := c.u32(what)
+	if err != nil {
+		return 0, err
+	}
+	return int64(int32(v)), nil
 }
 
 // pad4 rounds n up to a multiple of 4.
@@ -355,6 +353,24 @@ func (c *cursor) listHeader(tag uint32, what string) (int64, error) {
 	return 0, &headerError{off: at, msg: fmt.Sprintf("the %s list has tag 0x%x; expected 0x%x or 0 (absent)", what, t, tag)}
 }
 
+// uniqueName reads the name of what and checks that seen, the names of
+// its list so far, does not hold it yet; kinds names the list's items, and
+// owner, when not empty, what the list belongs to.
+func (c *cursor) uniqueName(what, kinds, owner string, seen map[string]bool) (string, error) {
+	name, err := c.name(what)
+	if err != nil {
+		return "", err
+	}
+	if seen[name] {
+		if owner != "" {
+			return "", c.fail("%s has two %s named %q", owner, kinds, name)
+		}
+		return "", c.fail("two %s are named %q", kinds, name)
+	}
+	seen[name] = true
+	return name, nil
+}
+
 // attrs reads an attribute list.
 func (c *cursor) attrs(version int, owner string) ([]ClassicAttr, error) {
 	n, err := c.listHeader(tagAttribute, "attribute")
@@ -370,14 +386,10 @@ func (c *cursor) attrs(version int, owner string) ([]ClassicAttr, error) {
 	seen := make(map[string]bool, n)
 	for i := range n {
 		what := fmt.Sprintf("attribute %d of %s", i, owner)
-		name, err := c.name(what)
+		name, err := c.uniqueName(what, "attributes", owner, seen)
 		if err != nil {
 			return nil, err
 		}
-		if seen[name] {
-			return nil, c.fail("%s has two attributes named %q", owner, name)
-		}
-		seen[name] = true
 		at := c.off
 		tc, err := c.u32("the type of attribute " + name)
 		if err != nil {
@@ -451,14 +463,10 @@ func ParseClassicHeader(r io.ReaderAt, size int64) (*ClassicHeader, error) {
 	recDim := -1
 	seen := map[string]bool{}
 	for i := range nd {
-		name, err := c.name(fmt.Sprintf("dimension %d", i))
+		name, err := c.uniqueName(fmt.Sprintf("dimension %d", i), "dimensions", "", seen)
 		if err != nil {
 			return nil, err
 		}
-		if seen[name] {
-			return nil, c.fail("two dimensions are named %q", name)
-		}
-		seen[name] = true
 		n, err := c.nonNeg("the length of dimension " + name)
 		if err != nil {
 			return nil, err
@@ -487,14 +495,10 @@ func ParseClassicHeader(r io.ReaderAt, size int64) (*ClassicHeader, error) {
 	h.Vars = make([]ClassicVar, 0, nv)
 	seen = map[string]bool{}
 	for i := range nv {
-		name, err := c.name(fmt.Sprintf("variable %d", i))
+		name, err := c.uniqueName(fmt.Sprintf("variable %d", i), "variables", "", seen)
 		if err != nil {
 			return nil, err
 		}
-		if seen[name] {
-			return nil, c.fail("two variables are named %q", name)
-		}
-		seen[name] = true
 		v := ClassicVar{Name: name}
 		at := c.off
 		rank, err := c.nonNeg("the rank of variable " + name)

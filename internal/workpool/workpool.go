@@ -49,6 +49,12 @@ type Pool[In, Out any] struct {
 	Release func(in In, out Out)
 }
 
+// job is one produced item with its place in production order.
+type job[In any] struct {
+	seq int
+	in  In
+}
+
 type result[In, Out any] struct {
 	seq    int
 	in     In
@@ -70,55 +76,21 @@ func (p Pool[In, Out]) Run(ctx context.Context) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 
-	type job struct {
-		seq int
-		in  In
-	}
 	tokens := make(chan struct{}, inflight)
-	jobs := make(chan job)
+	jobs := make(chan job[In])
 	results := make(chan result[In, Out], inflight+1)
 	var wg sync.WaitGroup
 
-	// Producer: an error from Next travels as the result of its own
-	// sequence number, so it is reported after every earlier item.
 	wg.Add(1)
 	go func() {
 		defer wg.Done()
-		defer close(jobs)
-		for seq := 0; ; seq++ {
-			select {
-			case tokens <- struct{}{}:
-			case <-ctx.Done():
-				return
-			}
-			in, err := p.Next()
-			if errors.Is(err, io.EOF) {
-				return
-			}
-			if err != nil {
-				results <- result[In, Out]{seq: seq, err: err}
-				return
-			}
-			select {
-			case jobs <- job{seq, in}:
-			case <-ctx.Done():
-				results <- result[In, Out]{seq: seq, in: in}
-				return
-			}
-		}
+		p.produce(ctx, tokens, jobs, results)
 	}()
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for j := range jobs {
-				r := result[In, Out]{seq: j.seq, in: j.in}
-				if ctx.Err() == nil {
-					r.out, r.err = p.Work(w, j.in)
-					r.worked = true
-				}
-				results <- r
-			}
+			p.work(ctx, w, jobs, results)
 		}()
 	}
 	go func() {
@@ -175,4 +147,46 @@ func (p Pool[In, Out]) Run(ctx context.Context) error {
 		firstErr = ctx.Err() // cancelled from outside before anything failed
 	}
 	return firstErr
+}
+
+// produce calls Next for each item a token allows and hands the items to
+// the workers, closing jobs at the end. An error from Next travels as the
+// result of its own sequence number, so it is reported after every earlier
+// item; an item produced after cancellation goes back unworked.
+func (p Pool[In, Out]) produce(ctx context.Context, tokens chan<- struct{}, jobs chan<- job[In], results chan<- result[In, Out]) {
+	defer close(jobs)
+	for seq := 0; ; seq++ {
+		select {
+		case tokens <- struct{}{}:
+		case <-ctx.Done():
+			return
+		}
+		in, err := p.Next()
+		if errors.Is(err, io.EOF) {
+			return
+		}
+		if err != nil {
+			results <- result[In, Out]{seq: seq, err: err}
+			return
+		}
+		select {
+		case jobs <- job[In]{seq, in}:
+		case <-ctx.Done():
+			results <- result[In, Out]{seq: seq, in: in}
+			return
+		}
+	}
+}
+
+// work is worker w: it runs Work on each job unless the pass was cancelled
+// and sends every job on as a result.
+func (p Pool[In, Out]) work(ctx context.Context, w int, jobs <-chan job[In], results chan<- result[In, Out]) {
+	for j := range jobs {
+		r := result[In, Out]{seq: j.seq, in: j.in}
+		if ctx.Err() == nil {
+			r.out, r.err = p.Work(w, j.in)
+			r.worked = true
+		}
+		results <- r
+	}
 }

@@ -406,6 +406,15 @@ func deploymentsTable(ds []summary.DeploymentSummary, bounds []float64) *table.T
 		}
 		col[i] = v
 	}
+	// setGroup fills the five columns c (rows, tracks, median and its
+	// interval) of row i from one class's statistics.
+	setGroup := func(c []string, i int, s stats.Stats) {
+		set(c[0], i, float64(s.N))
+		set(c[1], i, float64(s.Tracks))
+		set(c[2], i, s.Median)
+		set(c[3], i, s.MedianCI.Lo)
+		set(c[4], i, s.MedianCI.Hi)
+	}
 	for i, d := range ds {
 		t.TextCol("site")[i] = d.Site
 		t.TextCol("track_folder")[i] = d.Folder
@@ -417,7 +426,7 @@ func deploymentsTable(ds []summary.DeploymentSummary, bounds []float64) *table.T
 			"mean_direction_deg": d.MeanDirection, "depth_m": d.Depth, "peak_steepness": d.PeakSteepness,
 			"wind_speed_mps": d.WindSpeed, "wave_age": d.WaveAge, "crest_tracks": float64(d.CrestTracks),
 			"crest_rows": float64(d.CrestRows), "crest_rows_with_speed": float64(d.CrestRowsWithSpeed),
-			"has_whitecaps": b2f(d.HasWhitecaps), "whitecap_tracks": float64(d.WhitecapTracks), "whitecap_rows": float64(d.WhitecapRows),
+			"has_whitecaps": table.FlagValue(d.HasWhitecaps), "whitecap_tracks": float64(d.WhitecapTracks), "whitecap_rows": float64(d.WhitecapRows),
 		} {
 			set(name, i, v)
 		}
@@ -428,33 +437,16 @@ func deploymentsTable(ds []summary.DeploymentSummary, bounds []float64) *table.T
 		}
 		for g, name := range table.DeploymentGroups(len(cb)) {
 			c := table.DeploymentClassColumns(name)
-			s := crest[g]
-			set(c[0], i, float64(s.N))
-			set(c[1], i, float64(s.Tracks))
-			set(c[2], i, s.Median)
-			set(c[3], i, s.MedianCI.Lo)
-			set(c[4], i, s.MedianCI.Hi)
+			setGroup(c[:5], i, crest[g])
 			set(c[5], i, 0)
 			set(c[6], i, 0)
 			if front != nil {
-				f := front[g]
-				set(c[5], i, float64(f.N))
-				set(c[6], i, float64(f.Tracks))
-				set(c[7], i, f.Median)
-				set(c[8], i, f.MedianCI.Lo)
-				set(c[9], i, f.MedianCI.Hi)
+				setGroup(c[5:], i, front[g])
 			}
 		}
 	}
 	t.Round()
 	return t
-}
-
-func b2f(b bool) float64 {
-	if b {
-		return 1
-	}
-	return 0
 }
 
 // lambdaBins adds to conversions a sentence for each deployment whose

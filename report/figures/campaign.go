@@ -223,43 +223,11 @@ func (in *figureInput) mediansFigure(ci CampaignInput, x func(CampaignPoint) flo
 					ylo, yhi = math.Min(ylo, s.MedianCI.Lo), math.Max(yhi, s.MedianCI.Hi)
 				}
 			}
-			if len(bars) > 0 {
-				eb, err := plotter.NewYErrorBars(struct {
-					plotter.XYer
-					plotter.YErrorer
-				}{bars, errs})
-				if err != nil {
-					return nil, err
-				}
-				eb.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1)}
-				eb.CapWidth = vg.Points(4)
-				panels[r].Add(eb)
+			if err := addErrorBars(panels[r], bars, errs, col); err != nil {
+				return nil, err
 			}
-			glyph := classGlyphs[g%len(classGlyphs)]
-			if g == nGroups-1 {
-				glyph = [2]draw.GlyphDrawer{draw.CircleGlyph{}, draw.RingGlyph{}}
-			}
-			var key []plot.Thumbnailer
-			if len(full) > 0 {
-				s, err := scatter(full, col, 3.2, glyph[0])
-				if err != nil {
-					return nil, err
-				}
-				panels[r].Add(s)
-				key = append(key, s)
-			}
-			if len(few) > 0 {
-				s, err := scatter(few, col, 3.2, glyph[1])
-				if err != nil {
-					return nil, err
-				}
-				panels[r].Add(s)
-				if len(key) == 0 {
-					key = append(key, s)
-				}
-			}
-			if len(key) > 0 {
-				panels[r].Legend.Add(label, key...)
+			if err := addClassPoints(panels[r], full, few, col, classGlyph(g, nGroups), label); err != nil {
+				return nil, err
 			}
 		}
 	}
@@ -287,6 +255,64 @@ func (in *figureInput) mediansFigure(ci CampaignInput, x func(CampaignPoint) flo
 			plots[r][0].Draw(cs[r][0])
 		}
 	}, nil
+}
+
+// classGlyph is the pair of glyphs (enough tracks, too few) of class group
+// g of nGroups; the last group, all classes together, has circles.
+func classGlyph(g, nGroups int) [2]draw.GlyphDrawer {
+	glyph := classGlyphs[g%len(classGlyphs)]
+	if g == nGroups-1 {
+		glyph = [2]draw.GlyphDrawer{draw.CircleGlyph{}, draw.RingGlyph{}}
+	}
+	return glyph
+}
+
+// addErrorBars adds vertical interval bars (errs about bars) in col to p;
+// nothing when there are none.
+func addErrorBars(p *plot.Plot, bars plotter.XYs, errs plotter.YErrors, col color.Color) error {
+	if len(bars) == 0 {
+		return nil
+	}
+	eb, err := plotter.NewYErrorBars(struct {
+		plotter.XYer
+		plotter.YErrorer
+	}{bars, errs})
+	if err != nil {
+		return err
+	}
+	eb.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1)}
+	eb.CapWidth = vg.Points(4)
+	p.Add(eb)
+	return nil
+}
+
+// addClassPoints adds one class's medians to p: those from enough tracks
+// (full) with the first glyph, the others (few) with the second, and one
+// legend entry named label.
+func addClassPoints(p *plot.Plot, full, few plotter.XYs, col color.Color, glyph [2]draw.GlyphDrawer, label string) error {
+	var key []plot.Thumbnailer
+	if len(full) > 0 {
+		s, err := scatter(full, col, 3.2, glyph[0])
+		if err != nil {
+			return err
+		}
+		p.Add(s)
+		key = append(key, s)
+	}
+	if len(few) > 0 {
+		s, err := scatter(few, col, 3.2, glyph[1])
+		if err != nil {
+			return err
+		}
+		p.Add(s)
+		if len(key) == 0 {
+			key = append(key, s)
+		}
+	}
+	if len(key) > 0 {
+		p.Legend.Add(label, key...)
+	}
+	return nil
 }
 
 // lambdaRatioFigure draws Λ(c/c_p) of every deployment and the pooled

@@ -34,11 +34,7 @@ func Classify(values, by, ids []float64, inner []float64) Sample {
 	s := Sample{Values: values, Unit: make([]int32, len(values)), Class: make([]int8, len(values)), Bounds: ClassBounds(inner)}
 	index := map[float64]int32{}
 	for i := range values {
-		u, ok := index[ids[i]]
-		if !ok {
-			u = int32(len(index))
-			index[ids[i]] = u
-		}
+		u, _ := appearanceIndex(index, ids[i])
 		s.Unit[i] = u
 		s.Class[i] = int8(ClassOf(s.Bounds, by[i]))
 	}
@@ -57,16 +53,9 @@ func ClassifyStratified(values, by, ids, strata []float64, inner []float64) Samp
 	units := map[key]int32{}
 	strataIndex := map[float64]int32{}
 	for i := range values {
-		st, ok := strataIndex[strata[i]]
-		if !ok {
-			st = int32(len(strataIndex))
-			strataIndex[strata[i]] = st
-		}
-		k := key{strata[i], ids[i]}
-		u, ok := units[k]
-		if !ok {
-			u = int32(len(units))
-			units[k] = u
+		st, _ := appearanceIndex(strataIndex, strata[i])
+		u, isNew := appearanceIndex(units, key{strata[i], ids[i]})
+		if isNew {
 			s.Stratum = append(s.Stratum, st)
 		}
 		s.Unit[i] = u
@@ -74,6 +63,17 @@ func ClassifyStratified(values, by, ids, strata []float64, inner []float64) Samp
 	}
 	s.Units = len(units)
 	return s
+}
+
+// appearanceIndex returns the number of k in index, numbering keys in
+// order of appearance: a key not seen yet gets the next number (and isNew).
+func appearanceIndex[K comparable](index map[K]int32, k K) (n int32, isNew bool) {
+	n, ok := index[k]
+	if !ok {
+		n = int32(len(index))
+		index[k] = n
+	}
+	return n, !ok
 }
 
 // Distribution is the estimated distribution of the values of one class

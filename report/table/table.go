@@ -324,3 +324,11 @@ func (t *Table) Permute(perm []int) {
 		copy(col, txt)
 	}
 }
+
+// FlagValue is the number a yes/no column holds: 1 for true, 0 for false.
+func FlagValue(b bool) float64 {
+	if b {
+		return 1
+	}
+	return 0
+}
