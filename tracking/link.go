@@ -86,50 +86,8 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 		keep = append(keep, tr)
 	}
 	l.active = keep
-	nt, nc := len(l.active), len(crests)
-	assigned := make([]int, nc) // track index per crest, or -1
-	for i := range assigned {
-		assigned[i] = -1
-	}
-	if nt > 0 && nc > 0 {
-		n := max(nt, nc)
-		if cap(l.cost) < n*n {
-			l.cost = make([]float64, n*n)
-		}
-		cost := l.cost[:n*n]
-		// Costs inside the gates are at most 8; an assignment outside them
-		// costs more than any set of n gated ones, so the optimum first
-		// maximises the number of gated matches, then minimises their cost,
-		// without the loss of precision a huge constant would bring.
-		forbidden := 16*float64(n) + 1000
-		for i := range cost {
-			cost[i] = forbidden
-		}
-		sigS, sigN := l.opt.GateS/2, l.opt.GateN/2
-		for i, tr := range l.active {
-			last := tr.Crests[len(tr.Crests)-1]
-			adv := l.opt.Speed(last) * (t - last.Time)
-			for j, c := range crests {
-				// along θ0: the detection's tip against the track's crest
-				// line at the same cross-position, advanced by the speed;
-				// across: the gap between the two segments' extents (the
-				// tip of a long crest may move along it from frame to frame).
-				ds := c.S - (last.SOnLine(c.N) + adv)
-				dn := math.Max(0, math.Max(c.NMin-last.NMax, last.NMin-c.NMax))
-				if math.Abs(ds) > l.opt.GateS || dn > l.opt.GateN {
-					continue
-				}
-				cost[i*n+j] = (ds/sigS)*(ds/sigS) + (dn/sigN)*(dn/sigN)
-			}
-		}
-		rowToCol := hungarian(cost, n)
-		for i := 0; i < nt; i++ {
-			j := rowToCol[i]
-			if j < nc && cost[i*n+j] < forbidden {
-				assigned[j] = i
-			}
-		}
-	}
+	nt := len(l.active)
+	assigned := l.assign(t, crests)
 	split := map[*Track]string{}
 	refused := map[int]bool{}
 	for j, c := range crests {
@@ -184,6 +142,57 @@ func (l *Linker) Push(frame int, t float64, crests []Crest) {
 		l.active = append(l.active, tr)
 		l.lastSeen[tr] = frame
 	}
+}
+
+// assign matches the active tracks to the frame's crests by the Hungarian
+// method inside the gates; it returns the track index of every crest, or
+// -1 for a crest no track may take.
+func (l *Linker) assign(t float64, crests []Crest) []int {
+	nt, nc := len(l.active), len(crests)
+	assigned := make([]int, nc) // track index per crest, or -1
+	for i := range assigned {
+		assigned[i] = -1
+	}
+	if nt > 0 && nc > 0 {
+		n := max(nt, nc)
+		if cap(l.cost) < n*n {
+			l.cost = make([]float64, n*n)
+		}
+		cost := l.cost[:n*n]
+		// Costs inside the gates are at most 8; an assignment outside them
+		// costs more than any set of n gated ones, so the optimum first
+		// maximises the number of gated matches, then minimises their cost,
+		// without the loss of precision a huge constant would bring.
+		forbidden := 16*float64(n) + 1000
+		for i := range cost {
+			cost[i] = forbidden
+		}
+		sigS, sigN := l.opt.GateS/2, l.opt.GateN/2
+		for i, tr := range l.active {
+			last := tr.Crests[len(tr.Crests)-1]
+			adv := l.opt.Speed(last) * (t - last.Time)
+			for j, c := range crests {
+				// along θ0: the detection's tip against the track's crest
+				// line at the same cross-position, advanced by the speed;
+				// across: the gap between the two segments' extents (the
+				// tip of a long crest may move along it from frame to frame).
+				ds := c.S - (last.SOnLine(c.N) + adv)
+				dn := math.Max(0, math.Max(c.NMin-last.NMax, last.NMin-c.NMax))
+				if math.Abs(ds) > l.opt.GateS || dn > l.opt.GateN {
+					continue
+				}
+				cost[i*n+j] = (ds/sigS)*(ds/sigS) + (dn/sigN)*(dn/sigN)
+			}
+		}
+		rowToCol := hungarian(cost, n)
+		for i := 0; i < nt; i++ {
+			j := rowToCol[i]
+			if j < nc && cost[i*n+j] < forbidden {
+				assigned[j] = i
+			}
+		}
+	}
+	return assigned
 }
 
 func (l *Linker) finish(tr *Track, why string) {

@@ -206,21 +206,9 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 		return sub, err
 	}
 	if rec.Parts != 0 && rec.Parts != p.Parts && len(rec.Submissions) > 0 {
-		// The jobs of the old split would write parts of another numbering.
-		var stale []string
-		for _, st := range parts {
-			if st.Class == slurm.Queued || st.Class == slurm.Running {
-				stale = append(stale, st.Job)
-			}
-		}
-		if fin != nil && (fin.Class == slurm.Queued || fin.Class == slurm.Running) {
-			stale = append(stale, fin.Job)
-		}
-		sort.Strings(stale)
-		if err := slurm.Cancel(ctx, stale...); err != nil {
+		if err := cancelOldSplit(ctx, con, p, rec, parts, fin); err != nil {
 			return sub, err
 		}
-		con.logf("slurm: the run now has %d parts, the jobs recorded were for %d; cancelled those still in the queue (%s)", p.Parts, rec.Parts, strings.Join(stale, ", "))
 		rec.Submissions, parts, fin = nil, nil, nil
 	}
 	var missing []int
@@ -258,16 +246,8 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 	}
 	sub.Submitted = time.Now().UTC().Format(time.RFC3339)
 	if len(missing) > 0 {
-		text, err := slurm.Render(p.Opts, slurm.Script{Name: "crestspeed-parts", Tasks: missing,
+		id, err := renderSubmit(ctx, p, "parts.sbatch", slurm.Script{Name: "crestspeed-parts", Tasks: missing,
 			Log: filepath.Join(slurmDir(p.Dir), "part_%A_%a.log"), Dir: p.Dir, Body: partsScript(p)})
-		if err != nil {
-			return sub, err
-		}
-		path := filepath.Join(slurmDir(p.Dir), "parts.sbatch")
-		if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
-			return sub, err
-		}
-		id, err := slurm.Submit(ctx, path)
 		if err != nil {
 			return sub, err
 		}
@@ -277,16 +257,8 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 		}
 	}
 	sort.Strings(after)
-	text, err := slurm.Render(p.Opts, slurm.Script{Name: "crestspeed-finish", After: compactAfter(after, sub),
+	id, err := renderSubmit(ctx, p, "finish.sbatch", slurm.Script{Name: "crestspeed-finish", After: compactAfter(after, sub),
 		Log: filepath.Join(slurmDir(p.Dir), "finish_%j.log"), Dir: p.Dir, Body: finishScript(p)})
-	if err != nil {
-		return sub, err
-	}
-	path := filepath.Join(slurmDir(p.Dir), "finish.sbatch")
-	if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
-		return sub, err
-	}
-	id, err := slurm.Submit(ctx, path)
 	if err != nil {
 		if sub.ArrayJob != "" {
 			_ = slurm.Cancel(ctx, sub.ArrayJob) // no parts without their finishing job
@@ -306,6 +278,40 @@ func submitSlurm(ctx context.Context, con *console, p slurmPlan) (slurmSubmissio
 	}
 	con.logf("slurm: submitted the finishing job %s, after %s", sub.FinishJob, strings.Join(sub.After, ", "))
 	return sub, nil
+}
+
+// cancelOldSplit cancels the queued and running jobs of a run whose part
+// count has changed since they were submitted: they would write parts of
+// another numbering.
+func cancelOldSplit(ctx context.Context, con *console, p slurmPlan, rec slurmRecord, parts map[int]slurmPartState, fin *slurmPartState) error {
+	var stale []string
+	for _, st := range parts {
+		if st.Class == slurm.Queued || st.Class == slurm.Running {
+			stale = append(stale, st.Job)
+		}
+	}
+	if fin != nil && (fin.Class == slurm.Queued || fin.Class == slurm.Running) {
+		stale = append(stale, fin.Job)
+	}
+	sort.Strings(stale)
+	if err := slurm.Cancel(ctx, stale...); err != nil {
+		return err
+	}
+	con.logf("slurm: the run now has %d parts, the jobs recorded were for %d; cancelled those still in the queue (%s)", p.Parts, rec.Parts, strings.Join(stale, ", "))
+	return nil
+}
+
+// renderSubmit writes the batch script sc as DIR/slurm/name and submits it.
+func renderSubmit(ctx context.Context, p slurmPlan, name string, sc slurm.Script) (string, error) {
+	text, err := slurm.Render(p.Opts, sc)
+	if err != nil {
+		return "", err
+	}
+	path := filepath.Join(slurmDir(p.Dir), name)
+	if err := atomicfile.WriteFile(path, []byte(text)); err != nil {
+		return "", err
+	}
+	return slurm.Submit(ctx, path)
 }
 
 // compactAfter lists the jobs the finishing job waits for: the whole new
