@@ -48,41 +48,42 @@ import (
 // FoamOptions configure foam detection. Start from [DefaultFoamOptions].
 type FoamOptions struct {
 	// Enabled runs foam detection on every pair and writes the foam mask.
-	Enabled bool
+	Enabled bool `yaml:"enabled"`
 	// BlockPx is the side of the blocks averaged for the background
 	// (default 8 px); MedianBlocks the side, in blocks, of the median
 	// filter over them (default 15, odd): 120 px at the defaults, larger
 	// than a typical whitecap in a 1280-px image.
-	BlockPx, MedianBlocks int
+	BlockPx, MedianBlocks int `yaml:"-"`
 	// HighRatio and LowRatio are the hysteresis thresholds on I/B
 	// (defaults 2.5 and 1.8); MinContrastDN the least brightness excess
 	// I − B of a seed in grey levels (default 60; half of it for growth),
 	// which keeps dark-sea noise from passing the ratio tests.
-	HighRatio, LowRatio float64
-	MinContrastDN       float64
+	HighRatio     float64 `yaml:"high_ratio"`
+	LowRatio      float64 `yaml:"low_ratio"`
+	MinContrastDN float64 `yaml:"min_contrast_dn"`
 	// OpenPx is the radius of the square opening of the growth mask
 	// (default 2: a 5×5 square, which removes the thin bright streaks of
 	// sky glitter on wave faces); ClosePx the radius of the closing of the
 	// foam mask (default 1: 3×3).
-	OpenPx, ClosePx int
+	OpenPx, ClosePx int `yaml:"-"`
 	// MinAreaPx is the smallest foam region kept (default 30 px).
-	MinAreaPx int
+	MinAreaPx int `yaml:"min_area_px"`
 	// SaturatedDN and SaturatedFraction: an image with at least that
 	// fraction of pixels at or above that level is skipped as saturated
 	// (defaults 250 and 0.5). BlackMeanDN: an image of lower mean grey
 	// level is skipped as black (default 5).
-	SaturatedDN       int
-	SaturatedFraction float64
-	BlackMeanDN       float64
+	SaturatedDN       int     `yaml:"-"`
+	SaturatedFraction float64 `yaml:"-"`
+	BlackMeanDN       float64 `yaml:"-"`
 	// StereoCheck keeps a foam pixel with a disparity only when its match
 	// in the rectified right image also passes the growth thresholds
 	// (against the left background): foam is a diffuse reflector, bright
 	// from both cameras, while a specular glint of sky light on a wave
 	// face is seen by one camera at a time (default true).
-	StereoCheck bool
+	StereoCheck bool `yaml:"stereo_check"`
 	// CellFraction is the least share of a cell's pixel votes that must be
 	// foam for the cell to be foam (default 0.5).
-	CellFraction float64
+	CellFraction float64 `yaml:"cell_fraction"`
 }
 
 // DefaultFoamOptions returns the default settings (detection disabled).

@@ -17,68 +17,20 @@ import (
 	"crestspeed/surface"
 )
 
-// ReconstructConfig configures "crestspeed reconstruct".
+// ReconstructConfig configures "crestspeed reconstruct": the inputs and
+// output of the verb, and the reconstruction's own settings, which are
+// surface.Options itself (its yaml tags are the schema of the section).
 type ReconstructConfig struct {
-	Rig              string           `yaml:"rig"`        // rig file
-	Left             string           `yaml:"left"`       // glob of the left images
-	Right            string           `yaml:"right"`      // glob of the right images
-	Frames           string           `yaml:"frames"`     // record folder (instead of left/right)
-	Timestamps       string           `yaml:"timestamps"` // timestamps file
-	FPS              float64          `yaml:"fps"`        // time base for bare frame numbers
-	StartUTC         string           `yaml:"start_utc"`  // instant of time 0 in the output
-	DepthM           float64          `yaml:"depth_m"`    // water depth written to the output
-	RectifyAlpha     float64          `yaml:"rectify_alpha"`
-	ElevationMarginM float64          `yaml:"elevation_margin_m"`
-	PlanePrewarp     bool             `yaml:"plane_prewarp"`
-	MaxRangeM        float64          `yaml:"max_range_m"`
-	MinPoints        int              `yaml:"min_points"`
-	MaxAbsElevationM float64          `yaml:"max_abs_elevation_m"`
-	MinFrameCoverage float64          `yaml:"min_frame_coverage"`
-	Deflate          int              `yaml:"deflate"`
-	SGBM             ReconstructSGBM  `yaml:"sgbm"`
-	Grid             ReconstructGrid  `yaml:"grid"`
-	Plane            ReconstructPlane `yaml:"plane"`
-	Foam             ReconstructFoam  `yaml:"foam"`
-}
-
-// ReconstructSGBM holds the semi-global matcher's settings.
-type ReconstructSGBM struct {
-	MinDisparity    int     `yaml:"min_disparity"`
-	NumDisparities  int     `yaml:"num_disparities"`
-	BlockSize       int     `yaml:"block_size"`
-	P1              int     `yaml:"p1"`
-	P2              int     `yaml:"p2"`
-	Disp12MaxDiff   int     `yaml:"disp12_max_diff"`
-	PreFilterCap    int     `yaml:"pre_filter_cap"`
-	UniquenessRatio int     `yaml:"uniqueness_ratio"`
-	SpeckleWindowPx int     `yaml:"speckle_window_px"`
-	SpeckleRangePx  int     `yaml:"speckle_range_px"`
-	Mode            string  `yaml:"mode"`
-	LRCheck         bool    `yaml:"lr_check"`
-	LRMaxDiffPx     float64 `yaml:"lr_max_diff_px"`
-}
-
-// ReconstructGrid holds the output grid settings; absent bounds mean the
-// automatic rectangle and dx_m 0 the automatic spacing.
-type ReconstructGrid struct {
-	X0M       *float64 `yaml:"x0_m"`
-	X1M       *float64 `yaml:"x1_m"`
-	Y0M       *float64 `yaml:"y0_m"`
-	Y1M       *float64 `yaml:"y1_m"`
-	DxM       float64  `yaml:"dx_m"`
-	Coverage  float64  `yaml:"coverage"`
-	GSDFactor float64  `yaml:"gsd_factor"`
-}
-
-// ReconstructPlane holds the mean-sea-plane fit settings.
-type ReconstructPlane struct {
-	Frames           int     `yaml:"frames"`
-	SpanS            float64 `yaml:"span_s"`
-	RansacIterations int     `yaml:"ransac_iterations"`
-	RansacThresholdM float64 `yaml:"ransac_threshold_m"`
-	PixelStride      int     `yaml:"pixel_stride"`
-	Seed             uint64  `yaml:"seed"`
-	Refit            bool    `yaml:"refit"`
+	Rig             string  `yaml:"rig"`        // rig file
+	Left            string  `yaml:"left"`       // glob of the left images
+	Right           string  `yaml:"right"`      // glob of the right images
+	Frames          string  `yaml:"frames"`     // record folder (instead of left/right)
+	Timestamps      string  `yaml:"timestamps"` // timestamps file
+	FPS             float64 `yaml:"fps"`        // time base for bare frame numbers
+	StartUTC        string  `yaml:"start_utc"`  // instant of time 0 in the output
+	DepthM          float64 `yaml:"depth_m"`    // water depth written to the output
+	Deflate         int     `yaml:"deflate"`
+	surface.Options `yaml:",inline"`
 }
 
 func init() { extraCommands = append(extraCommands, newReconstructCmd) }
@@ -164,71 +116,24 @@ func reconstructOutputs(out string) (points, rig string) {
 	return stem + "-points.nc", stem + "-rig.yaml"
 }
 
-// ReconstructFoam configures whitecap detection on the rectified left
-// images (see surface.FoamOptions for the model).
-type ReconstructFoam struct {
-	Enabled       bool    `yaml:"enabled"`
-	HighRatio     float64 `yaml:"high_ratio"`
-	LowRatio      float64 `yaml:"low_ratio"`
-	MinContrastDN float64 `yaml:"min_contrast_dn"`
-	MinAreaPx     int     `yaml:"min_area_px"`
-	StereoCheck   bool    `yaml:"stereo_check"`
-	CellFraction  float64 `yaml:"cell_fraction"`
-}
-
-// defaultReconstructConfig holds the surface package's defaults.
+// defaultReconstructConfig holds the surface package's defaults; the verb
+// detects foam unless told not to (the library leaves it off so that its
+// callers opt in).
 func defaultReconstructConfig() ReconstructConfig {
-	o := surface.DefaultOptions()
-	m, p, g, f := o.Matcher, o.Plane, o.Grid, o.Foam
-	return ReconstructConfig{
-		RectifyAlpha: o.RectifyAlpha, ElevationMarginM: o.ElevationMarginM, PlanePrewarp: o.Prewarp,
-		MaxRangeM: o.MaxRangeM, MinPoints: o.MinPoints, MaxAbsElevationM: o.MaxAbsElevationM,
-		MinFrameCoverage: o.MinFrameCoverage, Deflate: 4,
-		SGBM: ReconstructSGBM{
-			MinDisparity: m.MinDisparity, NumDisparities: m.NumDisparities, BlockSize: m.BlockSize,
-			P1: m.P1, P2: m.P2, Disp12MaxDiff: m.Disp12MaxDiff, PreFilterCap: m.PreFilterCap,
-			UniquenessRatio: m.UniquenessRatio, SpeckleWindowPx: m.SpeckleWindowSize, SpeckleRangePx: m.SpeckleRange,
-			Mode: m.Mode, LRCheck: m.LRCheck, LRMaxDiffPx: m.LRMaxDiffPx,
-		},
-		Grid: ReconstructGrid{X0M: g.X0, X1M: g.X1, Y0M: g.Y0, Y1M: g.Y1, DxM: g.D, Coverage: g.Coverage, GSDFactor: g.GSDFactor},
-		Plane: ReconstructPlane{Frames: p.Frames, SpanS: p.SpanS, RansacIterations: p.Iterations,
-			RansacThresholdM: p.ThresholdM, PixelStride: p.Stride, Seed: p.Seed, Refit: p.Refit},
-		// The verb detects foam unless told not to; the library leaves it
-		// off so that its callers opt in.
-		Foam: ReconstructFoam{Enabled: true, HighRatio: f.HighRatio, LowRatio: f.LowRatio,
-			MinContrastDN: f.MinContrastDN, MinAreaPx: f.MinAreaPx, StereoCheck: f.StereoCheck, CellFraction: f.CellFraction},
-	}
+	c := ReconstructConfig{Deflate: 4, Options: surface.DefaultOptions()}
+	c.Foam.Enabled = true
+	return c
 }
 
-// surfaceOptions turns the configuration into surface.Options.
+// surfaceOptions are the reconstruction's options with the run's workers.
+// The foam detector's internal constants, which are not settings (no yaml
+// key), keep the package's values.
 func (c ReconstructConfig) surfaceOptions(workers int) surface.Options {
-	o := surface.DefaultOptions()
-	s := c.SGBM
-	o.Matcher = surface.Matcher{
-		MinDisparity: s.MinDisparity, NumDisparities: s.NumDisparities, BlockSize: s.BlockSize,
-		P1: s.P1, P2: s.P2, Disp12MaxDiff: s.Disp12MaxDiff, PreFilterCap: s.PreFilterCap,
-		UniquenessRatio: s.UniquenessRatio, SpeckleWindowSize: s.SpeckleWindowPx, SpeckleRange: s.SpeckleRangePx,
-		Mode: s.Mode, LRCheck: s.LRCheck, LRMaxDiffPx: s.LRMaxDiffPx,
-	}
-	p := c.Plane
-	o.Plane = surface.PlaneOptions{
-		Frames: p.Frames, SpanS: p.SpanS, Iterations: p.RansacIterations, ThresholdM: p.RansacThresholdM,
-		Stride: p.PixelStride, Seed: p.Seed, Refit: p.Refit,
-	}
-	g := c.Grid
-	o.Grid = surface.GridSpec{X0: g.X0M, X1: g.X1M, Y0: g.Y0M, Y1: g.Y1M, D: g.DxM, Coverage: g.Coverage, GSDFactor: g.GSDFactor}
-	o.RectifyAlpha = c.RectifyAlpha
-	o.ElevationMarginM = c.ElevationMarginM
-	o.Prewarp = c.PlanePrewarp
-	o.MaxRangeM = c.MaxRangeM
-	o.MinPoints = c.MinPoints
-	o.MaxAbsElevationM = c.MaxAbsElevationM
-	o.MinFrameCoverage = c.MinFrameCoverage
-	f := c.Foam
-	o.Foam.Enabled = f.Enabled
-	o.Foam.HighRatio, o.Foam.LowRatio = f.HighRatio, f.LowRatio
-	o.Foam.MinContrastDN, o.Foam.MinAreaPx = f.MinContrastDN, f.MinAreaPx
-	o.Foam.StereoCheck, o.Foam.CellFraction = f.StereoCheck, f.CellFraction
+	o := c.Options
+	d := surface.DefaultFoamOptions()
+	f := &o.Foam
+	f.BlockPx, f.MedianBlocks, f.OpenPx, f.ClosePx = d.BlockPx, d.MedianBlocks, d.OpenPx, d.ClosePx
+	f.SaturatedDN, f.SaturatedFraction, f.BlackMeanDN = d.SaturatedDN, d.SaturatedFraction, d.BlackMeanDN
 	o.Workers = workers
 	return o
 }
