@@ -39,13 +39,11 @@ func stepGate(ref speed.References, hm0, tp, step float64) func(prev, next track
 	return func(prev, next tracking.Crest, adv float64) string {
 		dt := next.Time - prev.Time
 		c := ref.Predict(prev)
-		k := 2 * math.Pi / prev.Wavelength
-		if !(prev.Wavelength > 0) {
-			k = math.NaN()
-		}
+		// c_g/c: the intrinsic ratio at the crest's local wavenumber,
+		// carried to the nominal c; deep water's 1/2 without a wavelength.
 		cg := c / 2
-		if !math.IsNaN(k) {
-			// the intrinsic ratio c_g/c at k, carried to the nominal c
+		if prev.Wavelength > 0 {
+			k := 2 * math.Pi / prev.Wavelength
 			cg = c * speed.GroupSpeed(k, ref.DepthM) / speed.PhaseSpeed(k, ref.DepthM)
 		}
 		obl := math.Sqrt(1 + prev.SlopeSN*prev.SlopeSN)

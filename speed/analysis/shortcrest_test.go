@@ -81,9 +81,10 @@ func TestShortCrestedCrestSpeedExact(t *testing.T) {
 				t.Fatal(err)
 			}
 			r, notMax := exactRatios(t, rec, sea)
-			area := 160 * 120 * 0.2 * 0.2
+			g := sc.Grid
+			area := float64(g.Nx*g.Ny) * g.DxM * g.DyM
 			t.Logf("%s: %d rows with speed (%.3f per m² s), %d without an exact maximum; measured/exact median %.3f, IQR %.3f–%.3f; ended %v",
-				c.name, len(r), float64(len(r))/(area*40), notMax, quantile(r, 0.5), quantile(r, 0.25), quantile(r, 0.75), rec.Link.Ended)
+				c.name, len(r), float64(len(r))/(area*g.Duration), notMax, quantile(r, 0.5), quantile(r, 0.25), quantile(r, 0.75), rec.Link.Ended)
 			// The tracking-quality figures: every track ended once, for a
 			// reason; one residual per step taken.
 			ended := 0
