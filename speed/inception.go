@@ -44,6 +44,12 @@ type Inception struct {
 	LeadTimeMedian float64 `json:"lead_time_median_s"`
 	LeadTimeMin    float64 `json:"lead_time_min_s"`
 	LeadTimeMax    float64 `json:"lead_time_max_s"`
+	// How u_s was computed (set by the record analysis): the window of
+	// the transform in seconds, the surface-speed band in Hz (0 = every
+	// frequency; VelocityBand) and the decimation in time (Decimation).
+	SurfaceSpeedWindowS    float64 `json:"surface_speed_window_s"`
+	SurfaceSpeedBandHz     float64 `json:"surface_speed_band_hz"`
+	SurfaceSpeedDecimation int     `json:"surface_speed_decimation"`
 }
 
 // InceptionOf flags crest tracks by B_x and compares them with whitecaps.

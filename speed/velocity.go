@@ -1,7 +1,6 @@
 package speed
 
 import (
-	"fmt"
 	"math"
 	"sync"
 
@@ -27,45 +26,18 @@ type SurfaceVelocityOptions struct {
 	Tolerance float64
 	// Workers share the one-dimensional transforms; ≤ 0 means one.
 	Workers int
+	// BandHz is the highest frequency (Hz, in the cameras' frame) that
+	// carries the waves' surface speed (see VelocityBand); components
+	// above it are left out. 0 keeps every frequency the frames resolve.
+	// When the frame rate exceeds four times BandHz the frames are also
+	// low-passed and decimated in time before the transform (see
+	// SurfaceVelocity).
+	BandHz float64
 }
 
-// SurfaceVelocity estimates the linear horizontal surface orbital speed of
-// the waves travelling with θ0 from a sequence of elevation maps (docs/methods.md, Breaking): over
-// windows of frames, η (mean removed, masked cells zero) is Hann-tapered in
-// time and Fourier-transformed in time and space; each component that lies
-// on the linear dispersion shell and travels with the waves (its direction
-// of travel within 90° of θ0) is multiplied by the linear transfer function
-// of the surface orbital speed in its own direction of travel, σ coth(|k|h)
-// with σ the bin's intrinsic frequency (Dean & Dalrymple
-// 1991: u = aσ coth(kh) cos(k·x − ωt) at the surface of a linear wave, σ the
-// intrinsic frequency, d̂ its direction of travel); all others are removed.
-// The inverse transform of each window is added into the output with the
-// same Hann weights, and the frames' weights (which sum to one in the
-// interior of the record for half-overlapping periodic Hann windows) are
-// divided out; frames in the first or last half-window of the record are
-// reported as unknown. In space a Tukey taper (25 %) limits the leakage of a field
-// that is not periodic over the grid. The filter's response to the taper
-// reaches some way into the grid, so only the central part is reported: a
-// strip of 18.75 % of the grid along each edge (the tapered 12.5 % and a
-// margin beyond it) is unknown. There the error stays within about 2 % for a
-// regular wave with five wavelengths across the grid; within the margin it
-// grows to 5–10 %. Frames whose weight is below 0.5 (the first and last
-// quarter-window of the record) are reported as unknown.
-//
-// Linear kinematics underestimate the crest velocity of steep waves, and the
-// spatial transform treats the grid as periodic, so values within a few
-// cells of the edges are less reliable; both are limits of the estimate.
-//
-// Windows are processed in pairs: the window starting half a window later
-// rides in the imaginary part of the same transform (the input is real and
-// the gain, made Hermitian-symmetric, keeps a real field real), and the
-// spatial transforms run only on the frequency planes where the gain is not
-// zero everywhere.
-//
-// Memory: one window of complex frames plus one and a half windows of
-// single-precision frames, Window·nx·ny·(16 + 6) bytes, whatever the record
-// length.
-type SurfaceVelocity struct {
+// velocityCore is the transform stage of SurfaceVelocity on frames at its
+// own (possibly decimated) rate; see SurfaceVelocity for the method.
+type velocityCore struct {
 	nx, ny, nw int
 	dx, dy, dt float64
 	opt        SurfaceVelocityOptions
@@ -83,29 +55,19 @@ type SurfaceVelocity struct {
 	acc     [][]float64  // output accumulators for frames not yet complete
 	wsum    []float64    // sum of weights per pending output frame
 	accBase int          // frame index of acc[0]
-	ready   func(frame int, u []float32, ok bool)
+	ready   func(frame int, u []float32, ok, usable bool)
 	out     []float32
 }
 
-// NewSurfaceVelocity prepares an estimator for frames of nx×ny cells spaced
-// dx, dy, dt apart. ready is called once per frame, in order, with the
-// velocity field along θ0 (m/s, row-major) and ok = false where the frame
-// is not covered well enough.
-func NewSurfaceVelocity(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions, ready func(frame int, u []float32, ok bool)) (*SurfaceVelocity, error) {
-	if opt.Window == 0 {
-		opt.Window = 64
-	}
-	if opt.Window < 8 || opt.Window%2 != 0 {
-		return nil, fmt.Errorf("surface-velocity window of %d frames must be even and at least 8", opt.Window)
-	}
-	if opt.Tolerance == 0 {
-		opt.Tolerance = 0.25
-	}
-	if opt.Workers <= 0 {
-		opt.Workers = 1
-	}
+// newVelocityCore prepares the transform stage for frames of nx×ny cells
+// spaced dx, dy, dt apart (opt checked and completed by the caller). ready
+// is called once per frame, in order, with the velocity field along θ0
+// (m/s, row-major), ok = false where the frame is not covered well
+// enough and usable = false where it is not covered at all (its field is
+// then NaN).
+func newVelocityCore(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions, ready func(frame int, u []float32, ok, usable bool)) *velocityCore {
 	nw := opt.Window
-	s := &SurfaceVelocity{nx: nx, ny: ny, nw: nw, dx: dx, dy: dy, dt: dt, opt: opt, ready: ready,
+	s := &velocityCore{nx: nx, ny: ny, nw: nw, dx: dx, dy: dy, dt: dt, opt: opt, ready: ready,
 		buf:   make([]float32, (nw+nw/2)*nx*ny),
 		limit: -1,
 		hann:  make([]float64, nw),
@@ -138,11 +100,11 @@ func NewSurfaceVelocity(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptio
 		s.acc = append(s.acc, make([]float64, nx*ny))
 		s.wsum = append(s.wsum, 0)
 	}
-	return s, nil
+	return s
 }
 
 // transfer tabulates the filter and velocity gain for every bin.
-func (s *SurfaceVelocity) transfer() []float64 {
+func (s *velocityCore) transfer() []float64 {
 	nw, ny, nx := s.nw, s.ny, s.nx
 	g := make([]float64, nw*ny*nx)
 	ft := fourier.NewCmplxFFT(nw)
@@ -154,6 +116,9 @@ func (s *SurfaceVelocity) transfer() []float64 {
 		f := ft.Freq(it) / s.dt // Hz; a bin e^{i(k·x + 2πft)}
 		if f == 0 {
 			continue
+		}
+		if s.opt.BandHz > 0 && math.Abs(f) > s.opt.BandHz+2/(float64(nw)*s.dt) {
+			continue // above the waves' band (see SurfaceVelocityOptions.BandHz)
 		}
 		omega := 2 * math.Pi * math.Abs(f)
 		for iy := 0; iy < ny; iy++ {
@@ -212,7 +177,7 @@ func (s *SurfaceVelocity) transfer() []float64 {
 // removed by the caller or not — the transform ignores the zero frequency).
 // Frames must be pushed at regular intervals; a dropped frame is pushed as
 // nil (all unknown).
-func (s *SurfaceVelocity) Push(eta []float32) {
+func (s *velocityCore) Push(eta []float32) {
 	n := s.nx * s.ny
 	plane := s.buf[s.filled*n : (s.filled+1)*n]
 	for i := range plane {
@@ -236,7 +201,7 @@ func (s *SurfaceVelocity) Push(eta []float32) {
 // window transforms, filters and adds the window starting at frame start
 // and, if pair, the one starting half a window later (in the imaginary
 // part).
-func (s *SurfaceVelocity) window(start int, pair bool) {
+func (s *velocityCore) window(start int, pair bool) {
 	nw, ny, nx := s.nw, s.ny, s.nx
 	if s.work == nil {
 		s.work = make([]complex128, nw*nx*ny)
@@ -286,7 +251,7 @@ func (s *SurfaceVelocity) window(start int, pair bool) {
 }
 
 // accum returns the output accumulator of frame fr, growing the list.
-func (s *SurfaceVelocity) accum(fr int) []float64 {
+func (s *velocityCore) accum(fr int) []float64 {
 	k := fr - s.accBase
 	for k >= len(s.acc) {
 		s.acc = append(s.acc, make([]float64, s.nx*s.ny))
@@ -296,7 +261,7 @@ func (s *SurfaceVelocity) accum(fr int) []float64 {
 }
 
 // emit hands out every pending frame before frame `upto`.
-func (s *SurfaceVelocity) emit(upto int) {
+func (s *velocityCore) emit(upto int) {
 	if s.limit >= 0 {
 		upto = min(upto, s.limit)
 	}
@@ -306,14 +271,18 @@ func (s *SurfaceVelocity) emit(upto int) {
 		// tapered window only (at the end, padded with unknowns), where the
 		// filter's response to the taper is not negligible
 		ok := w >= 0.999 && s.accBase >= s.nw/2 && (s.limit < 0 || s.accBase < s.limit-s.nw/2)
+		// a frame covered by one window only, with at least a quarter of
+		// its weight, still serves as an outer point of the interpolation
+		// between decimated frames (SurfaceVelocity.handOut)
+		usable := ok || w > 0.25
 		for i := range s.out {
-			if ok && s.valid[i] {
+			if usable && s.valid[i] {
 				s.out[i] = float32(a[i] / w)
 			} else {
 				s.out[i] = float32(math.NaN())
 			}
 		}
-		s.ready(s.accBase, s.out, ok)
+		s.ready(s.accBase, s.out, ok, usable)
 		clear(a)
 		s.acc = append(s.acc[1:], a)
 		s.wsum = append(s.wsum[1:], 0)
@@ -323,7 +292,7 @@ func (s *SurfaceVelocity) emit(upto int) {
 
 // Close flushes the end of the record: the last partial window is padded
 // with unknown frames, and every remaining frame is handed out.
-func (s *SurfaceVelocity) Close() {
+func (s *velocityCore) Close() {
 	if s.frames == 0 {
 		return
 	}
@@ -343,7 +312,7 @@ func (s *SurfaceVelocity) Close() {
 }
 
 // fft3 runs the 3-D transform in place, sharing lines among workers.
-func (s *SurfaceVelocity) fft3(a []complex128, inverse bool) {
+func (s *velocityCore) fft3(a []complex128, inverse bool) {
 	nw, ny, nx := s.nw, s.ny, s.nx
 	// lines along x: for each (t, y); along y: for each (t, x); along t: for each (y, x)
 	run := func(n int, lines int, base func(l int) int, stride int) {

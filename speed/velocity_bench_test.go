@@ -37,7 +37,7 @@ func BenchmarkSurfaceVelocityWindow(b *testing.B) {
 				}
 			}()
 			sv, err := NewSurfaceVelocity(n, n, 1, 1, 0.1, SurfaceVelocityOptions{Window: nw, Theta: 0.3, Workers: workers},
-				func(int, []float32, bool) {})
+				func(int, *VelocityFrame, bool) {})
 			if err != nil {
 				b.Fatal(err)
 			}

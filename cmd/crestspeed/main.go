@@ -16,6 +16,7 @@ import (
 	"os"
 	"os/signal"
 	"runtime"
+	"runtime/pprof"
 	"strings"
 	"syscall"
 	"time"
@@ -36,6 +37,8 @@ type App struct {
 	con      *console
 	cfg      *Config
 	bindings map[*cobra.Command][]binding
+	// stopProfile ends the CPU profile asked for with --cpu-profile.
+	stopProfile func()
 }
 
 // newApp returns a command line writing results to stdout and log lines
@@ -49,7 +52,11 @@ func main() {
 	defer stop()
 	app := newApp(os.Stdout, os.Stderr)
 	root := newRootCmd(app)
-	if err := root.ExecuteContext(ctx); err != nil {
+	err := root.ExecuteContext(ctx)
+	if app.stopProfile != nil {
+		app.stopProfile()
+	}
+	if err != nil {
 		if errors.Is(err, context.Canceled) {
 			err = errors.New("interrupted; finished outputs are kept and no partial file is left")
 			fmt.Fprintln(os.Stderr, "crestspeed: "+sentence(err))
@@ -125,6 +132,9 @@ Results are research estimates, not a safety or navigation system.`,
 		SilenceUsage:  true,
 		SilenceErrors: true,
 		PersistentPreRunE: func(cmd *cobra.Command, args []string) error {
+			if err := app.startProfile(cmd); err != nil {
+				return err
+			}
 			return app.load(cmd)
 		},
 	}
@@ -134,6 +144,7 @@ Results are research estimates, not a safety or navigation system.`,
 	pf.Int("workers", 0, "worker goroutines (0 = number of CPU cores)")
 	pf.Bool("quiet", false, "print only errors")
 	pf.Bool("force", false, "overwrite finished outputs")
+	pf.String("cpu-profile", "", "write a CPU profile of the command to this file (for `go tool pprof`)")
 	root.AddCommand(
 		newVersionCmd(app),
 		newInitCmd(app),
@@ -164,3 +175,24 @@ func newVersionCmd(app *App) *cobra.Command {
 
 // elapsed formats a duration for log lines.
 func elapsed(t0 time.Time) string { return time.Since(t0).Round(time.Millisecond).String() }
+
+// startProfile starts the CPU profile --cpu-profile asks for.
+func (app *App) startProfile(cmd *cobra.Command) error {
+	path, _ := cmd.Flags().GetString("cpu-profile")
+	if path == "" {
+		return nil
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return usageError{fmt.Errorf("--cpu-profile: %w", err)}
+	}
+	if err := pprof.StartCPUProfile(f); err != nil {
+		f.Close()
+		return fmt.Errorf("--cpu-profile: %w", err)
+	}
+	app.stopProfile = func() {
+		pprof.StopCPUProfile()
+		f.Close()
+	}
+	return nil
+}

@@ -25,24 +25,27 @@ func (rec *Record) breakingIndexPass(ctx context.Context, src Source, mean []flo
 	if winS == 0 {
 		winS = 3 * rec.SeaState.Tp
 	}
+	band := speed.VelocityBand(rec.SeaState, rec.Refs.DepthM, opt.VelocityBandLoss)
+	dec := speed.Decimation(dt, band)
 	nw := int(math.Round(winS/dt/2)) * 2
-	capFrames := int(maxVelocityBytes/(2*16*float64(nx*ny))) / 2 * 2
+	capFrames := dec * int(maxVelocityBytes/(2*16*float64(nx*ny))) / 2 * 2
 	nw = max(min(nw, capFrames), 8)
-	rec.VelocityWindowFrames = nw
 	byFrame := map[int][]int{}
 	for i, r := range rec.Rows {
 		byFrame[r.Frame] = append(byFrame[r.Frame], i)
 	}
 	sv, err := speed.NewSurfaceVelocity(nx, ny, g.Dx(), g.Dy(), dt, speed.SurfaceVelocityOptions{
 		Window: nw, Theta: rec.Refs.Theta, DepthM: rec.Refs.DepthM, Current: rec.Refs.Current, Workers: opt.Workers,
-	}, func(frame int, u []float32, ok bool) {
+		BandHz: band,
+	}, func(frame int, v *speed.VelocityFrame, ok bool) {
 		if ok {
-			rec.setBreakingIndex(u, byFrame[frame])
+			rec.setBreakingIndex(v, byFrame[frame])
 		}
 	})
 	if err != nil {
 		return err
 	}
+	rec.VelocityWindowFrames, rec.VelocityBandHz, rec.VelocityDecimation = sv.WindowFrames(), band, dec
 	src.Rewind()
 	var f ingest.Frame
 	fc := rec.frames()
@@ -77,12 +80,11 @@ func (rec *Record) breakingIndexPass(ctx context.Context, src Source, mean []flo
 
 // setBreakingIndex evaluates the surface speed field u of one frame at the
 // tips of the given rows and sets u_s and B_x on them.
-func (rec *Record) setBreakingIndex(u []float32, rows []int) {
+func (rec *Record) setBreakingIndex(v *speed.VelocityFrame, rows []int) {
 	g := rec.Meta.Grid
-	nx, ny := g.Nx(), g.Ny()
 	for _, i := range rows {
 		r := &rec.Rows[i]
-		us := bilinearAt(u, nx, ny, (r.X-g.X[0])/g.Dx(), (r.Y-g.Y[0])/g.Dy())
+		us := v.At((r.X-g.X[0])/g.Dx(), (r.Y-g.Y[0])/g.Dy())
 		if math.IsNaN(us) {
 			continue
 		}
@@ -95,16 +97,4 @@ func (rec *Record) setBreakingIndex(u []float32, rows []int) {
 			rec.RowsWithBx++
 		}
 	}
-}
-
-// bilinearAt interpolates a row-major field at fractional cell
-// coordinates; NaN outside the grid or next to an unknown cell.
-func bilinearAt(u []float32, nx, ny int, fx, fy float64) float64 {
-	if fx < 0 || fy < 0 || fx > float64(nx-1) || fy > float64(ny-1) {
-		return math.NaN()
-	}
-	ix, iy := min(int(fx), nx-2), min(int(fy), ny-2)
-	wx, wy := fx-float64(ix), fy-float64(iy)
-	i := iy*nx + ix
-	return (1-wy)*((1-wx)*float64(u[i])+wx*float64(u[i+1])) + wy*((1-wx)*float64(u[i+nx])+wx*float64(u[i+nx+1]))
 }

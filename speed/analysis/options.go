@@ -46,6 +46,13 @@ type Options struct {
 	// VelocityWindowS is the length of the 3-D FFT windows in seconds;
 	// 0 = 3 Tp (default), capped so two windows of the grid fit in 1.5 GiB.
 	VelocityWindowS float64 `yaml:"velocity_window_s"`
+	// VelocityBandLoss is the share of the waves' surface-speed variance
+	// the breaking-index pass may leave out at the top of the spectrum
+	// (speed.VelocityBand): frequencies above the band so found are not
+	// computed, and frames are decimated in time to it. Default 1e-4 (an
+	// RMS speed error of at most 1 % of the waves' RMS surface speed,
+	// √1e-4); 0 computes every frequency the frames resolve.
+	VelocityBandLoss float64 `yaml:"velocity_band_loss"`
 	// BxThreshold is the B_x at which a crest is flagged (default
 	// speed.DefaultBxThreshold, 0.855; 0 means that default).
 	BxThreshold float64 `yaml:"bx_threshold"`
@@ -72,6 +79,7 @@ func DefaultOptions() Options {
 		MaxGapFrames:     2,
 		BreakingIndex:    true,
 		BxThreshold:      speed.DefaultBxThreshold,
+		VelocityBandLoss: 1e-4,
 		Whitecaps:        true,
 		Breaking:         speed.DefaultBreakingOptions(),
 	}
@@ -115,6 +123,8 @@ func (o Options) Validate() error {
 		return settingErr("speed_window_s %g s is outside 0–600 s (0 = Tp/4)", o.SpeedWindowS)
 	case !(o.BxThreshold >= 0 && o.BxThreshold < 5):
 		return settingErr("bx_threshold %g is outside 0–5 (0 = %g)", o.BxThreshold, speed.DefaultBxThreshold)
+	case !(o.VelocityBandLoss >= 0 && o.VelocityBandLoss <= 0.1):
+		return settingErr("velocity_band_loss %g is outside 0–0.1 (0 = every frequency)", o.VelocityBandLoss)
 	case !(o.VelocityWindowS >= 0 && o.VelocityWindowS <= 3600):
 		return settingErr("velocity_window_s %g s is outside 0–3600 s (0 = 3 Tp)", o.VelocityWindowS)
 	}

@@ -31,8 +31,14 @@ type Record struct {
 	Link           tracking.LinkStats
 	Rows           []speed.CrestRow
 	// VelocityWindowFrames is the 3-D FFT window of the breaking-index
-	// pass (0 when the pass did not run); RowsWithBx counts rows with B_x.
+	// pass in frames (0 when the pass did not run); RowsWithBx counts rows
+	// with B_x.
 	VelocityWindowFrames, RowsWithBx int
+	// VelocityBandHz is the surface-speed band of that pass (0 = every
+	// frequency; speed.VelocityBand) and VelocityDecimation the factor its
+	// frames were decimated by in time.
+	VelocityBandHz     float64
+	VelocityDecimation int
 	// RowsWithoutSpeed counts crest rows whose speed window was incomplete
 	// (track ends, tracks shorter than the window).
 	RowsWithoutSpeed int

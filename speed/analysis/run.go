@@ -102,6 +102,8 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 	}
 	if opt.BreakingIndex {
 		rec.Inception = speed.InceptionOf(rec.Rows, rec.Whitecaps, opt.BxThreshold)
+		rec.Inception.SurfaceSpeedWindowS = float64(rec.VelocityWindowFrames) * rec.FrameInterval
+		rec.Inception.SurfaceSpeedBandHz, rec.Inception.SurfaceSpeedDecimation = rec.VelocityBandHz, rec.VelocityDecimation
 	}
 	rec.checkRecord()
 	return rec, nil
@@ -376,4 +378,16 @@ func (p *probe) sample(k int, eta []float32) {
 	if k >= 0 && k < len(p.series) {
 		p.series[k] = float32(bilinearAt(eta, p.nx, p.ny, p.fx, p.fy))
 	}
+}
+
+// bilinearAt interpolates a row-major field at fractional cell
+// coordinates; NaN outside the grid or next to an unknown cell.
+func bilinearAt(u []float32, nx, ny int, fx, fy float64) float64 {
+	if fx < 0 || fy < 0 || fx > float64(nx-1) || fy > float64(ny-1) {
+		return math.NaN()
+	}
+	ix, iy := min(int(fx), nx-2), min(int(fy), ny-2)
+	wx, wy := fx-float64(ix), fy-float64(iy)
+	i := iy*nx + ix
+	return (1-wy)*((1-wx)*float64(u[i])+wx*float64(u[i+1])) + wy*((1-wx)*float64(u[i+nx])+wx*float64(u[i+nx+1]))
 }
