@@ -13,7 +13,7 @@ PKGS     := ./...
 all: build
 
 deps:
-	@pkg-config --exists opencv4 netcdf 2>/dev/null && [ -x /usr/bin/ncdump ] && /usr/bin/python3 -c 'import numpy, scipy, netCDF4, xarray, cv2' 2>/dev/null \
+	@pkg-config --exists opencv4 netcdf fftw3f 2>/dev/null && [ -x /usr/bin/ncdump ] && /usr/bin/python3 -c 'import numpy, scipy, netCDF4, xarray, cv2' 2>/dev/null \
 		&& command -v sbatch >/dev/null && [ -x /usr/sbin/slurmctld ] && [ -x /usr/sbin/munged ] \
 		|| scripts/setup-deps
 

@@ -1,10 +1,14 @@
 package speed
 
 import (
+	"fmt"
 	"math"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/dsp/fourier"
+
+	"crestspeed/internal/fftw"
 )
 
 // SurfaceVelocityOptions configure a SurfaceVelocity estimator.
@@ -42,19 +46,20 @@ type velocityCore struct {
 	dx, dy, dt float64
 	opt        SurfaceVelocityOptions
 	hann       []float64
-	taper      []float64 // spatial Tukey taper, ny*nx
+	taper      []float32 // spatial Tukey taper, ny*nx
 	valid      []bool    // cells far enough from the taper to be reported
-	gain       []float64 // transfer function per (f, ky, kx), 0 where removed
+	gain       []float32 // transfer function per (f, ky, kx), 0 where removed
 	keep       []bool    // per frequency plane: some gain in it is not zero
 
-	buf     []float32    // the pending pair of windows, [t][y][x], 1.5·Window frames
-	work    []complex128 // its transform, reused from window to window
-	frames  int          // frames pushed so far
-	filled  int          // frames in buf
-	limit   int          // frames at or beyond limit are padding (set by Close)
-	acc     [][]float64  // output accumulators for frames not yet complete
-	wsum    []float64    // sum of weights per pending output frame
-	accBase int          // frame index of acc[0]
+	buf     []float32   // the pending pair of windows, [t][y][x], 1.5·Window frames
+	work    []complex64 // its transform, reused from window to window
+	plans   *corePlans  // FFTW plans for work (made with the first window)
+	frames  int         // frames pushed so far
+	filled  int         // frames in buf
+	limit   int         // frames at or beyond limit are padding (set by Close)
+	acc     [][]float64 // output accumulators for frames not yet complete
+	wsum    []float64   // sum of weights per pending output frame
+	accBase int         // frame index of acc[0]
 	ready   func(frame int, u []float32, ok, usable bool)
 	out     []float32
 }
@@ -76,7 +81,9 @@ func newVelocityCore(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions,
 	for i := range s.hann { // periodic Hann: half-overlapping copies sum to one
 		s.hann[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(nw))
 	}
-	s.gain = s.transfer()
+	for _, g := range s.transfer() {
+		s.gain = append(s.gain, float32(g))
+	}
 	s.keep = make([]bool, nw)
 	for it := range s.keep {
 		for _, g := range s.gain[it*nx*ny : (it+1)*nx*ny] {
@@ -88,11 +95,11 @@ func newVelocityCore(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions,
 	}
 	tx, ty := tukey(nx, 0.25), tukey(ny, 0.25)
 	vx, vy := tukey(nx, 0.375), tukey(ny, 0.375)
-	s.taper = make([]float64, nx*ny)
+	s.taper = make([]float32, nx*ny)
 	s.valid = make([]bool, nx*ny)
 	for iy := 0; iy < ny; iy++ {
 		for ix := 0; ix < nx; ix++ {
-			s.taper[iy*nx+ix] = tx[ix] * ty[iy]
+			s.taper[iy*nx+ix] = float32(tx[ix] * ty[iy])
 			s.valid[iy*nx+ix] = vx[ix] == 1 && vy[iy] == 1
 		}
 	}
@@ -204,50 +211,100 @@ func (s *velocityCore) Push(eta []float32) {
 func (s *velocityCore) window(start int, pair bool) {
 	nw, ny, nx := s.nw, s.ny, s.nx
 	if s.work == nil {
-		s.work = make([]complex128, nw*nx*ny)
+		s.work = make([]complex64, nw*nx*ny)
+		s.plans = newCorePlans(nw, ny, nx, s.work)
 	}
 	work := s.work
 	n, half := nx*ny, nw/2
-	for t := 0; t < nw; t++ {
+	s.eachPlane(func(t int) {
 		a := s.buf[t*n : (t+1)*n]
 		w := work[t*n : (t+1)*n]
+		ht := float32(s.hann[t])
 		if pair {
 			b := s.buf[(t+half)*n : (t+half+1)*n]
 			for i := range w {
-				h := s.hann[t] * s.taper[i]
-				w[i] = complex(float64(a[i])*h, float64(b[i])*h)
+				h := ht * s.taper[i]
+				w[i] = complex(a[i]*h, b[i]*h)
 			}
 		} else {
 			for i := range w {
-				w[i] = complex(float64(a[i])*s.hann[t]*s.taper[i], 0)
+				w[i] = complex(a[i]*ht*s.taper[i], 0)
 			}
 		}
-	}
+	})
 	s.fft3(work, false)
-	for i := range work {
-		work[i] *= complex(s.gain[i], 0)
-	}
+	s.eachPlane(func(t int) {
+		if !s.keep[t] {
+			return // zeroed by the spatial step (see fft3)
+		}
+		w, g := work[t*n:(t+1)*n], s.gain[t*n:(t+1)*n]
+		for i := range w {
+			w[i] = complex(real(w[i])*g[i], imag(w[i])*g[i])
+		}
+	})
 	s.fft3(work, true)
 	norm := 1 / float64(nw*nx*ny)
 	for t := 0; t < nw; t++ {
-		a := s.accum(start + t)
-		for i := range a {
-			a[i] += real(work[t*n+i]) * norm
+		s.accum(start + t)
+		if pair {
+			s.accum(start + half + t)
 		}
+	}
+	s.eachPlane(func(t int) {
+		w := work[t*n : (t+1)*n]
+		a := s.acc[start+t-s.accBase]
+		for i := range a {
+			a[i] += float64(real(w[i])) * norm
+		}
+	})
+	for t := 0; t < nw; t++ {
 		s.wsum[start+t-s.accBase] += s.hann[t]
 	}
 	if pair {
-		for t := 0; t < nw; t++ {
-			a := s.accum(start + half + t)
+		s.eachPlane(func(t int) {
+			w := work[t*n : (t+1)*n]
+			a := s.acc[start+half+t-s.accBase]
 			for i := range a {
-				a[i] += imag(work[t*n+i]) * norm
+				a[i] += float64(imag(w[i])) * norm
 			}
+		})
+		for t := 0; t < nw; t++ {
 			s.wsum[start+half+t-s.accBase] += s.hann[t]
 		}
 		start += half
 	}
 	// frames before start + nw/2 receive no more windows
 	s.emit(start + half)
+}
+
+// eachPlane runs f for every frame t of the window, the frames shared
+// among the workers (each frame's work is its own, so the result does not
+// depend on how they are shared).
+func (s *velocityCore) eachPlane(f func(t int)) {
+	parallel(s.opt.Workers, s.nw, f)
+}
+
+// parallel runs f(0…n−1) on up to workers goroutines, each taking the
+// next index as it finishes one.
+func parallel(workers, n int, f func(i int)) {
+	if workers <= 1 || n <= 1 {
+		for i := 0; i < n; i++ {
+			f(i)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < min(workers, n); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := int(next.Add(1) - 1); i < n; i = int(next.Add(1) - 1) {
+				f(i)
+			}
+		}()
+	}
+	wg.Wait()
 }
 
 // accum returns the output accumulator of frame fr, growing the list.
@@ -308,64 +365,101 @@ func (s *velocityCore) Close() {
 		s.window(start, false) // a last window without a partner
 	}
 	s.emit(total)
-	s.acc, s.wsum = nil, nil
+	s.acc, s.wsum, s.work = nil, nil, nil
+	if s.plans != nil {
+		s.plans.destroy()
+		s.plans = nil
+	}
 }
 
-// fft3 runs the 3-D transform in place, sharing lines among workers.
-func (s *velocityCore) fft3(a []complex128, inverse bool) {
-	nw, ny, nx := s.nw, s.ny, s.nx
-	// lines along x: for each (t, y); along y: for each (t, x); along t: for each (y, x)
-	run := func(n int, lines int, base func(l int) int, stride int) {
-		var wg sync.WaitGroup
-		per := (lines + s.opt.Workers - 1) / s.opt.Workers
-		for w := 0; w < s.opt.Workers; w++ {
-			lo, hi := w*per, min((w+1)*per, lines)
-			if lo >= hi {
-				continue
+// lineBlock is the number of neighbouring cells whose lines in time one
+// FFTW call transforms: the blocks are fixed by cell index, so every line
+// goes through the same plan whatever the number of workers.
+const lineBlock = 64
+
+// corePlans are the FFTW plans of the 3-D transform of a window: its lines
+// in time in blocks of lineBlock cells (and the last, shorter block), and
+// its frequency planes in space, forward and inverse.
+type corePlans struct {
+	lineF, lineI, restF, restI *fftw.Plan
+	planeF, planeI             *fftw.Plan
+	blocks, rest               int
+}
+
+func newCorePlans(nw, ny, nx int, work []complex64) *corePlans {
+	n := nx * ny
+	blk := min(lineBlock, n)
+	p := &corePlans{blocks: n / blk, rest: n % blk}
+	// every block and plane starts aligned when the work array does and
+	// both steps are multiples of four values (32 bytes)
+	aligned := fftw.Aligned(work) && blk%4 == 0 && n%4 == 0
+	must := func(pl *fftw.Plan, err error) *fftw.Plan {
+		if err != nil {
+			panic(fmt.Sprintf("surface velocity: %v", err)) // sizes are valid here; only memory can fail
+		}
+		return pl
+	}
+	p.lineF = must(fftw.Lines(nw, blk, n, 1, false, aligned))
+	p.lineI = must(fftw.Lines(nw, blk, n, 1, true, aligned))
+	if p.rest > 0 {
+		p.restF = must(fftw.Lines(nw, p.rest, n, 1, false, aligned))
+		p.restI = must(fftw.Lines(nw, p.rest, n, 1, true, aligned))
+	}
+	p.planeF = must(fftw.Plane(ny, nx, false, aligned))
+	p.planeI = must(fftw.Plane(ny, nx, true, aligned))
+	return p
+}
+
+func (p *corePlans) destroy() {
+	for _, pl := range []*fftw.Plan{p.lineF, p.lineI, p.restF, p.restI, p.planeF, p.planeI} {
+		if pl != nil {
+			pl.Destroy()
+		}
+	}
+}
+
+// fft3 runs the 3-D transform of the window in place (single precision,
+// FFTW), sharing blocks of lines and planes among the workers. Only the
+// frequency planes whose gain is not zero everywhere are transformed in
+// space; the others are zeroed (the gain would zero them): time first
+// going forward, last going back.
+func (s *velocityCore) fft3(a []complex64, inverse bool) {
+	n := s.nx * s.ny
+	p := s.plans
+	lines := func() {
+		line, rest := p.lineF, p.restF
+		if inverse {
+			line, rest = p.lineI, p.restI
+		}
+		blk := min(lineBlock, n)
+		parallel(s.opt.Workers, p.blocks+min(p.rest, 1), func(b int) {
+			if b < p.blocks {
+				line.Run(a[b*blk:])
+			} else {
+				rest.Run(a[b*blk:])
 			}
-			wg.Add(1)
-			go func(lo, hi int) {
-				defer wg.Done()
-				f := fourier.NewCmplxFFT(n)
-				line := make([]complex128, n)
-				for l := lo; l < hi; l++ {
-					b := base(l)
-					for i := 0; i < n; i++ {
-						line[i] = a[b+i*stride]
-					}
-					if inverse {
-						f.Sequence(line, line)
-					} else {
-						f.Coefficients(line, line)
-					}
-					for i := 0; i < n; i++ {
-						a[b+i*stride] = line[i]
-					}
-				}
-			}(lo, hi)
-		}
-		wg.Wait()
+		})
 	}
-	// the spatial transforms only on the frequency planes that are kept
-	// (the others are zeroed by the gain): time first going forward, last
-	// going back
-	var planes []int
-	for it, k := range s.keep {
-		if k {
-			planes = append(planes, it)
+	planes := func() {
+		plane := p.planeF
+		if inverse {
+			plane = p.planeI
 		}
-	}
-	np := len(planes)
-	spatial := func() {
-		run(nx, np*ny, func(l int) int { return planes[l/ny]*nx*ny + (l%ny)*nx }, 1)
-		run(ny, np*nx, func(l int) int { return planes[l/nx]*nx*ny + l%nx }, nx)
+		parallel(s.opt.Workers, s.nw, func(t int) {
+			w := a[t*n : (t+1)*n]
+			if s.keep[t] {
+				plane.Run(w)
+			} else if !inverse {
+				clear(w)
+			}
+		})
 	}
 	if !inverse {
-		run(nw, ny*nx, func(l int) int { return l }, nx*ny)
-		spatial()
+		lines()
+		planes()
 	} else {
-		spatial()
-		run(nw, ny*nx, func(l int) int { return l }, nx*ny)
+		planes()
+		lines()
 	}
 }
 
