@@ -56,6 +56,10 @@ type Options struct {
 	// Progress, when set, is told how many of the image pairs have been
 	// searched for corners. Calls are serialised.
 	Progress func(done, total int) `yaml:"-"`
+	// Created is the creation time the rig file records; zero means now.
+	// Callers give the time of the newest image, so that the same images
+	// give the same rig file whenever they are calibrated.
+	Created time.Time `yaml:"-"`
 }
 
 // DefaultOptions returns the default settings (the chessboard is left for
@@ -423,7 +427,7 @@ func measureViews(views []View, rig *Rig, rc *Rectification, objPts [][3]float32
 		SquareM:    opt.Pattern.SquareM,
 		Detector:   detectorName(opt.Detector),
 		DropFactor: opt.DropFactor,
-		CreatedUTC: time.Now().UTC().Format(time.RFC3339),
+		CreatedUTC: createdUTC(opt.Created),
 		ViewsUsed:  used,
 		RMSPx:      st.RMS,
 		LeftRMSPx:  math.Sqrt(sumL / float64(used)),
@@ -490,4 +494,12 @@ func (r *Result) WorstView() *View {
 		}
 	}
 	return worst
+}
+
+// createdUTC formats t (now when zero) as the rig file records it.
+func createdUTC(t time.Time) string {
+	if t.IsZero() {
+		t = time.Now()
+	}
+	return t.UTC().Truncate(time.Second).Format(time.RFC3339)
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -125,6 +126,17 @@ func Calibrate(ctx context.Context, con *console, c Config) error {
 	if err != nil {
 		return usageError{err}
 	}
+	// The rig file says it was made when its newest image was (or at
+	// SOURCE_DATE_EPOCH), so the same images give the same bytes.
+	epoch, haveEpoch, err := sourceDateEpoch()
+	if err != nil {
+		return err
+	}
+	if haveEpoch {
+		opt.Created = epoch
+	} else {
+		opt.Created = newestModTime(pairs)
+	}
 	t0 := time.Now()
 	con.logf("calibrate: %d image pairs, %s chessboard of %g m squares", len(pairs), opt.Pattern, opt.Pattern.SquareM)
 	pr := con.newProgress("corners", len(pairs))
@@ -167,4 +179,18 @@ func Calibrate(ctx context.Context, con *console, c Config) error {
 		con.logf("calibrate: wrote %s in %s", out, elapsed(t0))
 	}
 	return nil
+}
+
+// newestModTime is the modification time of the newest image of the
+// pairs (zero when none can be read).
+func newestModTime(pairs []calib.Pair) time.Time {
+	var newest time.Time
+	for _, p := range pairs {
+		for _, f := range []string{p.Left, p.Right} {
+			if st, err := os.Stat(f); err == nil && st.ModTime().After(newest) {
+				newest = st.ModTime()
+			}
+		}
+	}
+	return newest
 }

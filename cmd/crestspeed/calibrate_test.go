@@ -76,6 +76,19 @@ func TestCalibrateCommand(t *testing.T) {
 	_, _, err = run(t, "calibrate", "--left", docData+"left[0-9][0-9].jpg", "--right", docData+"right[0-9][0-9].jpg",
 		"--square", "0.025", "--out", out)
 	checkSentence(t, err, "--force")
+	// The same images calibrated again give the same bytes: the rig file
+	// records the time of the newest image, not the wall clock.
+	again := filepath.Join(dir, "again", "rig.yaml")
+	os.Mkdir(filepath.Dir(again), 0o755)
+	if _, _, err := run(t, "calibrate", "--config", conf, "--right", docData+"right[0-9][0-9].jpg",
+		"--square", "0.025", "--out", again); err != nil {
+		t.Fatal(err)
+	}
+	a, _ := os.ReadFile(out)
+	b, _ := os.ReadFile(again)
+	if string(a) != string(b) {
+		t.Errorf("two calibrations of the same images differ:\n%s\n---\n%s", a, b)
+	}
 }
 
 func writeBlank(t *testing.T, path string, w, h int) {
