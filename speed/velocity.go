@@ -81,9 +81,7 @@ func newVelocityCore(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions,
 	for i := range s.hann { // periodic Hann: half-overlapping copies sum to one
 		s.hann[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(nw))
 	}
-	for _, g := range s.transfer() {
-		s.gain = append(s.gain, float32(g))
-	}
+	s.gain = s.transfer()
 	s.keep = make([]bool, nw)
 	for it := range s.keep {
 		for _, g := range s.gain[it*nx*ny : (it+1)*nx*ny] {
@@ -111,9 +109,9 @@ func newVelocityCore(nx, ny int, dx, dy, dt float64, opt SurfaceVelocityOptions,
 }
 
 // transfer tabulates the filter and velocity gain for every bin.
-func (s *velocityCore) transfer() []float64 {
+func (s *velocityCore) transfer() []float32 {
 	nw, ny, nx := s.nw, s.ny, s.nx
-	g := make([]float64, nw*ny*nx)
+	g := make([]float32, nw*ny*nx)
 	ft := fourier.NewCmplxFFT(nw)
 	fy := fourier.NewCmplxFFT(ny)
 	fx := fourier.NewCmplxFFT(nx)
@@ -157,7 +155,7 @@ func (s *velocityCore) transfer() []float64 {
 				// spreads a wave over neighbouring wavenumbers, whose σ
 				// differs, while its frequency stays that of the wave.
 				intrinsic := omega - k*(dx*s.opt.Current.U+dy*s.opt.Current.V)
-				g[(it*ny+iy)*nx+ix] = intrinsic * coth
+				g[(it*ny+iy)*nx+ix] = float32(intrinsic * coth)
 			}
 		}
 	}
@@ -166,18 +164,21 @@ func (s *velocityCore) transfer() []float64 {
 	// a symmetric gain the output of a real input is real, so two windows can
 	// share one transform (one real, one imaginary). Only the Nyquist bins,
 	// which are their own mirror, are asymmetric before this.
-	sym := make([]float64, len(g))
 	for it := 0; it < nw; it++ {
 		mt := (nw - it) % nw
 		for iy := 0; iy < ny; iy++ {
 			my := (ny - iy) % ny
 			for ix := 0; ix < nx; ix++ {
 				mx := (nx - ix) % nx
-				sym[(it*ny+iy)*nx+ix] = 0.5 * (g[(it*ny+iy)*nx+ix] + g[(mt*ny+my)*nx+mx])
+				b, m := (it*ny+iy)*nx+ix, (mt*ny+my)*nx+mx
+				if b < m { // each pair once, in place; a bin that is its own mirror keeps its gain
+					v := 0.5 * (g[b] + g[m])
+					g[b], g[m] = v, v
+				}
 			}
 		}
 	}
-	return sym
+	return g
 }
 
 // Push adds the next frame (row-major, NaN where unknown; mean already

@@ -5,8 +5,11 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"os"
 	"path/filepath"
 	"runtime"
+	"strconv"
+	"strings"
 	"syscall"
 	"testing"
 	"time"
@@ -211,6 +214,7 @@ func BenchmarkFramesPerSecond(b *testing.B) {
 				pairs := 0
 				o := opt
 				o.Workers = workers
+				resetPeakRSS()
 				for b.Loop() {
 					var d discard
 					if _, err := surface.ReconstructRange(context.Background(), rig, open, geom, o, 0, geom.RecordPairs, &d); err != nil {
@@ -220,6 +224,7 @@ func BenchmarkFramesPerSecond(b *testing.B) {
 				}
 				b.ReportMetric(float64(pairs)/b.Elapsed().Seconds(), "pairs/s")
 				b.ReportMetric(settle.Seconds(), "settle-s")
+				b.ReportMetric(peakRSSMB(), "peak-RSS-MB")
 			})
 		}
 	}
@@ -259,6 +264,28 @@ print(json.dumps(out))
 type plainTiming struct {
 	Default struct{ Wall, CPU float64 } `json:"default"`
 	One     struct{ Wall, CPU float64 } `json:"one"`
+}
+
+// resetPeakRSS resets the process's peak resident set (Linux: writing 5 to
+// /proc/self/clear_refs), so that peakRSSMB measures from here.
+func resetPeakRSS() { os.WriteFile("/proc/self/clear_refs", []byte("5"), 0o644) }
+
+// peakRSSMB is the process's peak resident set since the last reset, MB
+// (VmHWM of /proc/self/status; NaN where it cannot be read).
+func peakRSSMB() float64 {
+	b, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return math.NaN()
+	}
+	for _, line := range strings.Split(string(b), "\n") {
+		if f := strings.Fields(line); len(f) >= 2 && f[0] == "VmHWM:" {
+			kb, err := strconv.ParseFloat(f[1], 64)
+			if err == nil {
+				return kb / 1024
+			}
+		}
+	}
+	return math.NaN()
 }
 
 // cpuSeconds returns the process's user and system CPU time.
