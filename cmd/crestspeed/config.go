@@ -93,7 +93,6 @@ func defaultConfig() Config {
 		Calibrate:   defaultCalibrateConfig(),
 		Reconstruct: defaultReconstructConfig(),
 		Grid:        defaultGridConfig(),
-		Run:         RunConfig{PairsPerPart: defaultPairsPerPart},
 		Slurm:       slurm.DefaultOptions(),
 	}
 }

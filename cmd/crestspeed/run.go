@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"runtime"
 
 	"github.com/spf13/cobra"
 )
@@ -113,12 +114,19 @@ func RunStep(ctx context.Context, con *console, dir string, workers int, step st
 		if !partGiven {
 			return usageError{fmt.Errorf("give the part to reconstruct with --part K")}
 		}
-		_, rp, err := loadRun(dir)
+		c, rp, err := loadRun(dir)
 		if err != nil {
 			return err
 		}
 		if part < 0 || part >= len(rp.Parts) {
 			return usageError{fmt.Errorf("part %d does not exist: the run in %s has parts 0 to %d", part, dir, len(rp.Parts)-1)}
+		}
+		if workers <= 0 {
+			workers = runtime.NumCPU()
+		}
+		// inside a Slurm task, as many workers as its memory holds
+		if workers, err = partWorkers(con, c, workers); err != nil {
+			return err
 		}
 		return doSteps(ctx, con, dir, workers, wantPart(part))
 	}

@@ -42,7 +42,9 @@ import (
 type RunConfig struct {
 	// Parts is the number of parts; 0 = one per PairsPerPart pairs.
 	Parts int `yaml:"parts"`
-	// PairsPerPart is the part size aimed at when Parts is 0.
+	// PairsPerPart is the part size aimed at when Parts is 0; 0 =
+	// automatic: defaultPairsPerPart, and on Slurm that many per two
+	// workers of a part task (slurmPartsSize).
 	PairsPerPart int `yaml:"pairs_per_part"`
 }
 

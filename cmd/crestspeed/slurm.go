@@ -384,6 +384,9 @@ func runOnSlurm(ctx context.Context, con *console, cfg Config, opts slurm.Option
 	if err != nil {
 		return none, fmt.Errorf("cannot find the crestspeed executable for the jobs: %w", err)
 	}
+	if err := slurmPartsSize(con, &cfg, opts); err != nil {
+		return none, err
+	}
 	n, err := prepareRun(ctx, con, cfg)
 	if err != nil {
 		return none, err
