@@ -144,7 +144,7 @@ Results are research estimates, not a safety or navigation system.`,
 	pf.Int("workers", 0, "worker goroutines (0 = number of CPU cores)")
 	pf.Bool("quiet", false, "print only errors")
 	pf.Bool("force", false, "overwrite finished outputs")
-	pf.String("cpu-profile", "", "write a CPU profile of the command to this file (for `go tool pprof`)")
+	pf.String("cpu-profile", "", "write a CPU profile of the command to this `FILE`, for go tool pprof")
 	root.AddCommand(
 		newVersionCmd(app),
 		newInitCmd(app),
