@@ -21,6 +21,10 @@ static fftwf_plan plan_lines(int n, int howmany, int stride, int dist, fftwf_com
 static fftwf_plan plan_plane(int ny, int nx, fftwf_complex *a, int sign, unsigned flags) {
 	return fftwf_plan_dft_2d(ny, nx, a, a, sign, flags);
 }
+static fftwf_plan plan_cosine(int ny, int nx, float *a, int inverse, unsigned flags) {
+	fftw_r2r_kind k = inverse ? FFTW_REDFT01 : FFTW_REDFT10;
+	return fftwf_plan_r2r_2d(ny, nx, a, a, k, k, flags);
+}
 */
 import "C"
 
@@ -36,7 +40,8 @@ var planner sync.Mutex
 // it was made for.
 type Plan struct {
 	p    C.fftwf_plan
-	span int // complex values the transform reaches from its start
+	span int  // values the transform reaches from its start
+	real bool // a transform of real values (RunReal)
 }
 
 func flags(aligned bool) C.uint {
@@ -105,11 +110,42 @@ func Plane(ny, nx int, inverse, aligned bool) (*Plan, error) {
 	return &Plan{p: p, span: nx * ny}, nil
 }
 
+// Cosine plans the in-place two-dimensional discrete cosine transform of
+// an ny×nx row-major plane of real values: DCT-II forward (FFTW_REDFT10,
+// the transform of the plane's even extension to 2ny×2nx, which has no
+// jump at the edges) and DCT-III inverse (FFTW_REDFT01); the inverse of
+// the forward transform is 4·nx·ny times the input.
+func Cosine(ny, nx int, inverse bool) (*Plan, error) {
+	if ny < 1 || nx < 1 {
+		return nil, errors.New("fftw: a plan needs positive sizes")
+	}
+	inv := C.int(0)
+	if inverse {
+		inv = 1
+	}
+	p, err := scratch(nx*ny, func(a *C.fftwf_complex) C.fftwf_plan {
+		return C.plan_cosine(C.int(ny), C.int(nx), (*C.float)(unsafe.Pointer(a)), inv, flags(false))
+	})
+	if err != nil {
+		return nil, err
+	}
+	return &Plan{p: p, span: nx * ny, real: true}, nil
+}
+
+// RunReal executes a cosine plan in place on a.
+func (p *Plan) RunReal(a []float32) {
+	if !p.real || len(a) < p.span {
+		panic("fftw: not a real plan, or an array shorter than its reach")
+	}
+	ptr := (*C.float)(unsafe.Pointer(&a[0]))
+	C.fftwf_execute_r2r(p.p, ptr, ptr)
+}
+
 // Run executes the plan in place on a, which must hold the plan's whole
 // reach (and be aligned if the plan was made for aligned arrays). The
 // pointer is passed for the call only.
 func (p *Plan) Run(a []complex64) {
-	if len(a) < p.span {
+	if p.real || len(a) < p.span {
 		panic("fftw: array shorter than the plan's reach")
 	}
 	ptr := (*C.fftwf_complex)(unsafe.Pointer(&a[0]))

@@ -122,3 +122,49 @@ func TestRunRefusesShortArray(t *testing.T) {
 	}()
 	p.Run(make([]complex64, 16))
 }
+
+// The cosine transform against the definition of FFTW's REDFT10,
+// X_k = 2 Σ_n x_n cos(πk(2n+1)/2N) along each axis, and the inverse
+// (REDFT01) of the forward transform 4·nx·ny times the input.
+func TestCosineAgainstDefinition(t *testing.T) {
+	const ny, nx = 6, 10
+	r := rand.New(rand.NewPCG(5, 6))
+	a := make([]float32, nx*ny)
+	for i := range a {
+		a[i] = float32(r.NormFloat64())
+	}
+	f, err := Cosine(ny, nx, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Destroy()
+	inv, err := Cosine(ny, nx, true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer inv.Destroy()
+	b := append([]float32(nil), a...)
+	f.RunReal(b)
+	var worst, scale float64
+	for ky := 0; ky < ny; ky++ {
+		for kx := 0; kx < nx; kx++ {
+			var want float64
+			for y := 0; y < ny; y++ {
+				for x := 0; x < nx; x++ {
+					want += 4 * float64(a[y*nx+x]) * math.Cos(math.Pi*float64(kx*(2*x+1))/(2*nx)) * math.Cos(math.Pi*float64(ky*(2*y+1))/(2*ny))
+				}
+			}
+			worst = math.Max(worst, math.Abs(float64(b[ky*nx+kx])-want))
+			scale = math.Max(scale, math.Abs(want))
+		}
+	}
+	if !(worst < 2e-6*scale) {
+		t.Errorf("cosine transform: largest error %.3g of %.3g", worst, scale)
+	}
+	inv.RunReal(b)
+	for i := range a {
+		if d := math.Abs(float64(b[i])/(4*nx*ny) - float64(a[i])); !(d < 1e-5) {
+			t.Fatalf("inverse of the forward transform at %d: %g, want %g", i, b[i]/(4*nx*ny), a[i])
+		}
+	}
+}
