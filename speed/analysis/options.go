@@ -46,6 +46,14 @@ type Options struct {
 	// VelocityWindowS is the length of the 3-D FFT windows in seconds;
 	// 0 = 3 Tp (default), capped so two windows of the grid fit in 1.5 GiB.
 	VelocityWindowS float64 `yaml:"velocity_window_s"`
+	// DominantBandFp, when given as [low, high] in multiples of the
+	// record's F_p, finds and follows the crests of the waves in that band
+	// alone (for example [0.5, 2]; low 0 is a low-pass): each map is
+	// band-passed in wavenumber through the linear dispersion relation
+	// (speed.BandPass) before crest detection, while the sea state, the
+	// reference speeds and B_x's surface speed come from the maps as they
+	// are. Empty (default): every wave the maps hold.
+	DominantBandFp []float64 `yaml:"dominant_band_fp"`
 	// VelocityBandLoss is the share of the waves' surface-speed variance
 	// the breaking-index pass may leave out at the top of the spectrum
 	// (speed.VelocityBand): frequencies above the band so found are not
@@ -123,6 +131,8 @@ func (o Options) Validate() error {
 		return settingErr("speed_window_s %g s is outside 0–600 s (0 = Tp/4)", o.SpeedWindowS)
 	case !(o.BxThreshold >= 0 && o.BxThreshold < 5):
 		return settingErr("bx_threshold %g is outside 0–5 (0 = %g)", o.BxThreshold, speed.DefaultBxThreshold)
+	case len(o.DominantBandFp) != 0 && (len(o.DominantBandFp) != 2 || !(o.DominantBandFp[0] >= 0 && o.DominantBandFp[1] > o.DominantBandFp[0] && o.DominantBandFp[1] <= 20)):
+		return settingErr("dominant_band_fp %v must be two multiples of F_p, low and high, with 0 ≤ low < high ≤ 20 (empty = every wave)", o.DominantBandFp)
 	case !(o.VelocityBandLoss >= 0 && o.VelocityBandLoss <= 0.1):
 		return settingErr("velocity_band_loss %g is outside 0–0.1 (0 = every frequency)", o.VelocityBandLoss)
 	case !(o.VelocityWindowS >= 0 && o.VelocityWindowS <= 3600):
@@ -142,3 +152,6 @@ func (o Options) current() speed.Current {
 
 // ProbePoint is a position on the grid, metres.
 type ProbePoint struct{ X, Y float64 }
+
+// dominant reports whether the crests are to be found in a band only.
+func (o Options) dominant() bool { return len(o.DominantBandFp) == 2 }

@@ -30,6 +30,9 @@ type Record struct {
 	Tracks         []tracking.Track
 	Link           tracking.LinkStats
 	Rows           []speed.CrestRow
+	// Band is the dominant-wave band the crests were found in (nil: every
+	// wave the maps hold).
+	Band *Band
 	// VelocityWindowFrames is the 3-D FFT window of the breaking-index
 	// pass in frames (0 when the pass did not run); RowsWithBx counts rows
 	// with B_x.

@@ -62,7 +62,16 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 	rec.Timings["sea state"] = time.Since(t0)
 
 	t0 = time.Now()
-	wa, err := rec.crestPass(ctx, src, mean, opt)
+	crestSrc, crestMean := src, mean
+	if opt.dominant() {
+		bs, err := newBandSource(src, mean, rec, [2]float64{opt.DominantBandFp[0], opt.DominantBandFp[1]})
+		if err != nil {
+			return nil, err
+		}
+		defer bs.Close()
+		crestSrc, crestMean = bs, make([]float32, len(mean))
+	}
+	wa, err := rec.crestPass(ctx, crestSrc, crestMean, opt)
 	if err != nil {
 		return nil, err
 	}
