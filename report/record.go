@@ -33,6 +33,9 @@ type RunInfo struct {
 	Inputs          []FileInfo
 	SteepnessBounds []float64
 	Started         time.Time
+	// Dominant is the dominant-wave analysis run beside this one (nil:
+	// none).
+	Dominant *summary.DominantSummary
 }
 
 // field is how one column of a table is read from a row of type R.
@@ -202,6 +205,10 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 	s.Ratio = crestRatioStats(d.Crests, run.SteepnessBounds, stats.Options{}, 0)
 	s.Whitecaps = whitecapsSummary(rec.Whitecaps, d.Whitecaps, run.SteepnessBounds)
 	s.Inception = rec.Inception
+	if b := rec.Band; b != nil {
+		s.Band = &summary.BandSummary{LowFp: b.LowFp, HighFp: b.HighFp, LowHz: b.LowHz, HighHz: b.HighHz, LowK: b.LowK, HighK: b.HighK}
+	}
+	s.Dominant = run.Dominant
 	s.Method = trackMethod(rec, run)
 	for k, v := range rec.Timings {
 		s.Timings[k] = v.Seconds()

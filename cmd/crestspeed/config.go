@@ -69,6 +69,9 @@ type TrackConfig struct {
 	Gauge                   GaugeConfig `yaml:"gauge"`
 	ingest.ElevationOptions `yaml:",inline"`
 	analysis.Options        `yaml:",inline"`
+	// dominantPass marks the dominant-wave analysis that track runs into
+	// DIR/dominant beside the analysis of every wave.
+	dominantPass bool
 }
 
 // DemoConfig configures "crestspeed demo".

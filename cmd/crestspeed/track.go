@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"maps"
 	"math"
+	"os"
+	"path/filepath"
 	"slices"
 	"time"
 
@@ -12,6 +14,7 @@ import (
 
 	"crestspeed/ingest"
 	"crestspeed/report"
+	"crestspeed/report/summary"
 	"crestspeed/speed/analysis"
 )
 
@@ -106,6 +109,8 @@ func checkTrack(cfg Config) error {
 
 // Track runs the crest analysis of the elevation-map file cfg.Track.Input
 // into the folder cfg.Out, then the report unless cfg.Track.Report is off.
+// With a dominant-wave band (track.dominant_band_fp) it runs the analysis
+// of the dominant waves into cfg.Out/dominant as well.
 func Track(ctx context.Context, con *console, cfg Config) (*report.Summary, error) {
 	return track(ctx, con, cfg, time.Time{})
 }
@@ -124,8 +129,32 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	if tc.Report {
 		outputs = append(outputs, inDir(dir, report.ReportOutputs...)...)
 	}
+	if !tc.dominantPass { // a dominant-wave analysis of an earlier run is not left behind
+		d := filepath.Join(dir, dominantDir)
+		outputs = append(outputs, inDir(d, append(report.AllTrackOutputs(), report.ReportOutputs...)...)...)
+	}
 	if err := claimOutputs(cfg.Force, outputs...); err != nil {
 		return nil, err
+	}
+	// A dominant-wave band asks for both analyses: the dominant waves
+	// into DIR/dominant first, then every wave here, whose summary and
+	// report compare the two.
+	var dominant *summary.DominantSummary
+	if len(tc.DominantBandFp) > 0 && !tc.dominantPass {
+		dc := cfg
+		dc.Out = filepath.Join(dir, dominantDir)
+		dc.Track.dominantPass = true
+		if err := os.MkdirAll(dc.Out, 0o755); err != nil {
+			return nil, fmt.Errorf("cannot create %s: %w", dc.Out, err)
+		}
+		con.logf("track: the dominant waves (band %v F_p) into %s", tc.DominantBandFp, dc.Out)
+		ds, err := track(ctx, con, dc, created)
+		if err != nil {
+			return nil, fmt.Errorf("dominant-wave analysis: %w", err)
+		}
+		dominant = &summary.DominantSummary{Band: *ds.Band, Folder: dominantDir, Tracks: ds.Crests.Tracks, RowsWithSpeed: ds.Crests.RowsWithSpeed, Ratio: ds.Ratio}
+		tc.DominantBandFp = nil
+		con.logf("track: every wave into %s", dir)
 	}
 	started := time.Now()
 	src, err := ingest.OpenElevations(tc.Input, tc.ElevationOptions)
@@ -178,7 +207,7 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 		Site:    siteSummary(cfg.Site, src.Meta()),
 		Gauge:   gaugeRun,
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
-		SteepnessBounds: tc.SteepnessBounds, Started: started,
+		SteepnessBounds: tc.SteepnessBounds, Started: started, Dominant: dominant,
 	})
 	if err != nil {
 		return nil, err
@@ -193,6 +222,10 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	}
 	return sum, nil
 }
+
+// dominantDir is the folder, inside a track folder, of the dominant-wave
+// analysis.
+const dominantDir = "dominant"
 
 func checkSteepnessBounds(b []float64) error {
 	for i, v := range b {

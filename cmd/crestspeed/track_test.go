@@ -189,3 +189,54 @@ func TestTrackTrueBearings(t *testing.T) {
 		t.Errorf("site block %+v", sum.Site)
 	}
 }
+
+// A dominant-wave band asks for both analyses: the dominant waves in
+// DIR/dominant with their own tables, summary and report (which states the
+// band), and every wave in DIR, whose summary.json and report compare the
+// two and link to the other; a rerun with --force and no band leaves no
+// dominant-wave analysis behind.
+func TestTrackDominantBand(t *testing.T) {
+	dir := t.TempDir()
+	in := synthSmall(t, dir)
+	cfg := filepath.Join(dir, "band.yaml")
+	os.WriteFile(cfg, []byte("track:\n  dominant_band_fp: [0, 2]\n"), 0o644)
+	out := filepath.Join(dir, "out")
+	if _, _, err := run(t, "track", "--config", cfg, "--input", in, "--out", out, "--quiet"); err != nil {
+		t.Fatal(err)
+	}
+	var main, dom struct {
+		Band     *struct{ HighFp float64 `json:"high_over_fp"` } `json:"dominant_band"`
+		Dominant *struct {
+			Folder string                    `json:"folder"`
+			Tracks int                       `json:"tracks"`
+			Ratio  map[string]map[string]any `json:"crest_speed_ratio"`
+		} `json:"dominant"`
+		Crests struct{ Tracks int } `json:"crests"`
+	}
+	for p, v := range map[string]any{filepath.Join(out, "summary.json"): &main, filepath.Join(out, "dominant", "summary.json"): &dom} {
+		b, err := os.ReadFile(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := json.Unmarshal(b, v); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if main.Band != nil || main.Dominant == nil || main.Dominant.Folder != "dominant" || main.Dominant.Tracks != dom.Crests.Tracks || main.Dominant.Ratio["peak"] == nil {
+		t.Errorf("the analysis of every wave does not describe the dominant one: band %v, dominant %+v (its own tracks %d)", main.Band, main.Dominant, dom.Crests.Tracks)
+	}
+	if dom.Band == nil || dom.Band.HighFp != 2 || dom.Dominant != nil {
+		t.Errorf("the dominant-wave analysis does not record its band: %+v", dom.Band)
+	}
+	page, _ := os.ReadFile(filepath.Join(out, "report.html"))
+	domPage, _ := os.ReadFile(filepath.Join(out, "dominant", "report.html"))
+	if !strings.Contains(string(page), `id="dominant-table"`) || !strings.Contains(string(page), `href="dominant/report.html"`) || !strings.Contains(string(domPage), "band-passed to the dominant waves") {
+		t.Error("the reports do not show both analyses")
+	}
+	if _, _, err := run(t, "track", "--input", in, "--out", out, "--quiet", "--force"); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(filepath.Join(out, "dominant", "summary.json")); err == nil {
+		t.Error("a rerun without a band left the dominant-wave analysis behind")
+	}
+}

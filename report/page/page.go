@@ -136,6 +136,7 @@ type htmlData struct {
 	RefUncertainty                      bool
 	Breaking                            *htmlBreaking
 	Gauge                               *htmlGauge
+	Dominant                            *htmlDominant
 }
 
 // Render writes report.html.
@@ -178,6 +179,7 @@ func Render(in Input) ([]byte, error) {
 	}
 	hd.Breaking = breakingSection(in)
 	hd.Gauge = gaugeSection(in)
+	hd.Dominant = dominantSection(in)
 	hd.Method = methodRows(in, hd.Level)
 	hd.References = references
 	if sum.Whitecaps != nil || sum.Inception != nil {
@@ -601,6 +603,7 @@ var pageTemplate = template.Must(template.New("report").Funcs(template.FuncMap{
 
 {{template "breaking" .Breaking}}
 {{template "gauge" .Gauge}}
+{{template "dominant" .Dominant}}
 <section id="method">
 <h2>Method</h2>
 <dl class="method">

@@ -73,6 +73,34 @@ type Summary struct {
 	// Gauge compares the maps with an in-situ series, when one was given.
 	Gauge     *GaugeSummary    `json:"gauge,omitempty"`
 	Inception *speed.Inception `json:"inception,omitempty"`
+	// Band is the dominant-wave band this analysis found its crests in
+	// (track.dominant_band_fp); nil when it took every wave.
+	Band *BandSummary `json:"dominant_band,omitempty"`
+	// Dominant is the dominant-wave analysis run beside this one, when
+	// one was asked for: its band, folder and crest-speed ratios.
+	Dominant *DominantSummary `json:"dominant,omitempty"`
+}
+
+// BandSummary is a dominant-wave band: in multiples of F_p, in Hz and in
+// wavenumber (rad/m); a low edge of 0 is a low-pass.
+type BandSummary struct {
+	LowFp  float64 `json:"low_over_fp"`
+	HighFp float64 `json:"high_over_fp"`
+	LowHz  float64 `json:"low_hz"`
+	HighHz float64 `json:"high_hz"`
+	LowK   float64 `json:"low_wavenumber_rad_per_m"`
+	HighK  float64 `json:"high_wavenumber_rad_per_m"`
+}
+
+// DominantSummary is the dominant-wave analysis of the same record, kept
+// in its own folder (Folder, relative to this one) with its own tables
+// and report.
+type DominantSummary struct {
+	Band          BandSummary                 `json:"band"`
+	Folder        string                      `json:"folder"`
+	Tracks        int                         `json:"tracks"`
+	RowsWithSpeed int                         `json:"rows_with_speed"`
+	Ratio         map[string]stats.RatioStats `json:"crest_speed_ratio"`
 }
 
 // RecordSummary describes the analysed record: its title and text
