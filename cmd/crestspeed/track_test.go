@@ -205,7 +205,9 @@ func TestTrackDominantBand(t *testing.T) {
 		t.Fatal(err)
 	}
 	var main, dom struct {
-		Band     *struct{ HighFp float64 `json:"high_over_fp"` } `json:"dominant_band"`
+		Band *struct {
+			HighFp float64 `json:"high_over_fp"`
+		} `json:"dominant_band"`
 		Dominant *struct {
 			Folder string                    `json:"folder"`
 			Tracks int                       `json:"tracks"`
