@@ -51,6 +51,13 @@ type DetectOptions struct {
 	// Step is the sample spacing along and across θ0; 0 means the smaller
 	// grid spacing.
 	Step float64
+	// EdgeCrests also takes crests whose stretch of positive elevation
+	// runs into the end of a sampling line (the grid's edge or an unknown
+	// cell), when their highest point is a true maximum inside the line:
+	// on grids shorter than about one and a half wavelengths along θ0 a
+	// crest is seldom enclosed by both zero crossings. Such a crest has no
+	// zero-crossing width (Width and so S_c unknown).
+	EdgeCrests bool
 }
 
 // Crest is one crest segment in one frame, described by its tip.
@@ -344,54 +351,80 @@ func (d *Detector) scanLine(li int, ln line, v []float64, sc *Scratch) {
 	cross := func(i int) float64 { // zero crossing between samples i-1 and i, as a sample coordinate
 		return float64(i-1) + v[i-1]/(v[i-1]-v[i])
 	}
+	// crest takes the highest sample between up and down (sample
+	// coordinates); a virtual end (the end of the stretch of known
+	// samples, with EdgeCrests) has no crossing, so the maximum must be a
+	// true one inside the stretch and the width is unknown.
+	crest := func(up, down, prevDown float64, upEnd, downEnd bool) {
+		lo, hi := int(math.Ceil(up)), int(math.Floor(down))
+		im := lo
+		for j := lo; j <= hi; j++ {
+			if v[j] > v[im] {
+				im = j
+			}
+		}
+		if (upEnd && im == lo) || (downEnd && im == hi) {
+			return // the highest point is the end of the stretch: no maximum seen
+		}
+		pos, amp := float64(im), v[im]
+		if im > 0 && im < len(v)-1 && !math.IsNaN(v[im-1]) && !math.IsNaN(v[im+1]) {
+			den := v[im-1] - 2*v[im] + v[im+1]
+			if den < 0 {
+				off := 0.5 * (v[im-1] - v[im+1]) / den
+				if math.Abs(off) <= 1 {
+					pos += off
+					amp = v[im] - 0.25*(v[im-1]-v[im+1])*off
+				}
+			}
+		}
+		if amp < d.opt.MinElevation {
+			return
+		}
+		wl, width := math.NaN(), math.NaN()
+		if !upEnd && !downEnd {
+			width = (down - up) * step
+		}
+		if !math.IsNaN(prevDown) && !downEnd {
+			wl = (down - prevDown) * step
+		}
+		sc.points = append(sc.points, crestPoint{
+			line: li, s: ln.s0 + pos*step, n: ln.n, a: amp,
+			width: width, wavelength: wl,
+		})
+	}
+	edges := d.opt.EdgeCrests
 	prevDown := math.NaN()
-	up := math.NaN()
+	up, upEnd := math.NaN(), false
+	if edges && len(v) > 0 && v[0] >= 0 {
+		up, upEnd = 0, true
+	}
 	for i := 1; i < len(v); i++ {
 		a, b := v[i-1], v[i]
 		if math.IsNaN(a) || math.IsNaN(b) {
-			prevDown, up = math.NaN(), math.NaN()
+			if edges && !math.IsNaN(up) && !math.IsNaN(a) {
+				crest(up, float64(i-1), prevDown, upEnd, true) // the stretch ends positive at an unknown cell
+			}
+			prevDown, up, upEnd = math.NaN(), math.NaN(), false
+			if edges && math.IsNaN(a) && !math.IsNaN(b) && b >= 0 {
+				up, upEnd = float64(i), true // a stretch starting positive after an unknown cell
+			}
 			continue
 		}
 		if a < 0 && b >= 0 {
-			up = cross(i)
+			up, upEnd = cross(i), false
 			continue
 		}
 		if a >= 0 && b < 0 {
 			down := cross(i)
 			if !math.IsNaN(up) {
-				// highest sample strictly between the crossings
-				lo, hi := int(math.Ceil(up)), int(math.Floor(down))
-				im := lo
-				for j := lo; j <= hi; j++ {
-					if v[j] > v[im] {
-						im = j
-					}
-				}
-				pos, amp := float64(im), v[im]
-				if im > 0 && im < len(v)-1 && !math.IsNaN(v[im-1]) && !math.IsNaN(v[im+1]) {
-					den := v[im-1] - 2*v[im] + v[im+1]
-					if den < 0 {
-						off := 0.5 * (v[im-1] - v[im+1]) / den
-						if math.Abs(off) <= 1 {
-							pos += off
-							amp = v[im] - 0.25*(v[im-1]-v[im+1])*off
-						}
-					}
-				}
-				if amp >= d.opt.MinElevation {
-					wl := math.NaN()
-					if !math.IsNaN(prevDown) {
-						wl = (down - prevDown) * step
-					}
-					sc.points = append(sc.points, crestPoint{
-						line: li, s: ln.s0 + pos*step, n: ln.n, a: amp,
-						width: (down - up) * step, wavelength: wl,
-					})
-				}
+				crest(up, down, prevDown, upEnd, false)
 			}
 			prevDown = down
-			up = math.NaN()
+			up, upEnd = math.NaN(), false
 		}
+	}
+	if edges && !math.IsNaN(up) && len(v) > 0 && !math.IsNaN(v[len(v)-1]) {
+		crest(up, float64(len(v)-1), prevDown, upEnd, true) // the line ends positive
 	}
 }
 
@@ -432,7 +465,7 @@ func (d *Detector) segments(frame int, t float64, sc *Scratch) []Crest {
 				if back := nearest(pts, start, end, pts[j].s); back != i {
 					continue
 				}
-				tol := math.Max(1.5*d.step, 0.3*math.Min(pts[i].width, pts[j].width))
+				tol := math.Max(1.5*d.step, 0.3*knownMin(pts[i].width, pts[j].width))
 				if math.Abs(pts[i].s-pts[j].s) <= tol {
 					ri, rj := find(i), find(j)
 					if ri != rj {
@@ -483,7 +516,10 @@ func (d *Detector) segments(frame int, t float64, sc *Scratch) []Crest {
 		p := pts[s.tip]
 		x, y := d.toXY(p.s, p.n)
 		// local slope of the crest line around the tip
-		reach := math.Max(p.width, 3*d.step)
+		reach := 3 * d.step
+		if p.width > reach { // (an edge crest has no width)
+			reach = p.width
+		}
 		var sw, sn, ss, snn, sns float64
 		for _, m := range s.members {
 			dn := pts[m].n - p.n
@@ -540,4 +576,18 @@ func nearest(pts []crestPoint, lo, hi int, s float64) int {
 func (g Geometry) ToSN(x, y float64) (s, n float64) {
 	c, si := math.Cos(g.Theta), math.Sin(g.Theta)
 	return x*c + y*si, -x*si + y*c
+}
+
+// knownMin is the smaller of two widths where both are known, the known
+// one where one is (crests at the grid's edge have none), else 0.
+func knownMin(a, b float64) float64 {
+	switch {
+	case math.IsNaN(a) && math.IsNaN(b):
+		return 0
+	case math.IsNaN(a):
+		return b
+	case math.IsNaN(b):
+		return a
+	}
+	return math.Min(a, b)
 }

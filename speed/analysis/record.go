@@ -30,6 +30,10 @@ type Record struct {
 	Tracks         []tracking.Track
 	Link           tracking.LinkStats
 	Rows           []speed.CrestRow
+	// EdgeCrests is set when the grid was too short along θ0 for crests
+	// to be enclosed by both zero crossings, and crests running into its
+	// edge were kept for their speed (tracking.DetectOptions.EdgeCrests).
+	EdgeCrests bool
 	// Band is the dominant-wave band the crests were found in (nil: every
 	// wave the maps hold).
 	Band *Band
@@ -83,6 +87,10 @@ func (rec *Record) checkRecord() {
 	if extent < 1.5*lp {
 		rec.Warnings = append(rec.Warnings, fmt.Sprintf(
 			"the grid (%.0f m across at its narrowest) is shorter than 1.5 peak wavelengths (%.0f m); few crests are enclosed by zero crossings and tracks are short", extent, lp))
+	}
+	if rec.EdgeCrests {
+		rec.Warnings = append(rec.Warnings,
+			"the grid is shorter than 1.5 peak wavelengths along the mean direction: crests that run into its edge are followed for their speed, without a zero-crossing width or steepness S_c")
 	}
 	if rec.MaskedFraction > 0.5 {
 		rec.Warnings = append(rec.Warnings, fmt.Sprintf("%.0f %% of the grid cells are unknown over the record", 100*rec.MaskedFraction))

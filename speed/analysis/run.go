@@ -259,11 +259,16 @@ type detected struct {
 func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, opt Options) (*speed.WhitecapAnalyser, error) {
 	ss, ref := rec.SeaState, rec.Refs
 	g := rec.geometry()
+	lambdaP := ref.PeakPhaseSpeed * ss.Tp
+	// On a grid shorter than one and a half peak wavelengths along θ0 a
+	// crest is seldom enclosed by both zero crossings: crests that run
+	// into the grid's edge are kept for their speed (without a width).
+	rec.EdgeCrests = alongTheta(g) < 1.5*lambdaP
 	det := tracking.NewDetector(g, tracking.DetectOptions{
 		MinElevation: opt.MinCrestFraction * ss.Hm0,
 		MinLength:    opt.MinCrestLengthM,
+		EdgeCrests:   rec.EdgeCrests,
 	})
-	lambdaP := ref.PeakPhaseSpeed * ss.Tp
 	linker := tracking.NewLinker(tracking.LinkOptions{
 		MaxGapFrames: opt.MaxGapFrames,
 		// Along θ0 a crest moves about c·Δt between frames; the gate allows
@@ -399,4 +404,19 @@ func bilinearAt(u []float32, nx, ny int, fx, fy float64) float64 {
 	wx, wy := fx-float64(ix), fy-float64(iy)
 	i := iy*nx + ix
 	return (1-wy)*((1-wx)*float64(u[i])+wx*float64(u[i+1])) + wy*((1-wx)*float64(u[i+nx])+wx*float64(u[i+nx+1]))
+}
+
+// alongTheta is the length of the longest line along θ0 across the grid,
+// metres.
+func alongTheta(g tracking.Geometry) float64 {
+	lx, ly := float64(g.Nx-1)*g.Dx, float64(g.Ny-1)*g.Dy
+	c, s := math.Abs(math.Cos(g.Theta)), math.Abs(math.Sin(g.Theta))
+	l := math.Inf(1)
+	if c > 1e-9 {
+		l = lx / c
+	}
+	if s > 1e-9 {
+		l = math.Min(l, ly/s)
+	}
+	return l
 }
