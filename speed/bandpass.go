@@ -101,25 +101,34 @@ func bandGain(k, kLo, kHi float64) float64 {
 func (b *BandPass) Gain(k float64) float64 { return bandGain(k, b.LowK, b.HighK) }
 
 // Apply filters one map in place, using work (nx·ny values) as scratch;
-// NaN cells stay NaN. Apply may run on several goroutines at once, each
-// with its own work.
+// an unknown cell enters the transform as the mean of its known
+// neighbours, up to fillPasses cells deep into a hole, and then keeps its
+// filtered value — scattered unknown cells are what a stereo
+// reconstruction leaves, and a zero amid a crest would pull the filtered
+// crest down around it; cells deeper in a hole enter as zero (the mean
+// level) and stay unknown. Apply may run on several goroutines at once,
+// each with its own work.
 func (b *BandPass) Apply(eta, work []float32) {
+	holes := false
 	for i, v := range eta {
 		if v == v {
 			work[i] = v
 		} else {
-			work[i] = 0
+			work[i], holes = float32(math.NaN()), true
 		}
+	}
+	var deep []int
+	if holes {
+		deep = fillHoles(work, b.nx, b.ny, fillPasses)
 	}
 	b.fwd.RunReal(work)
 	for i, g := range b.gain {
 		work[i] *= g
 	}
 	b.inv.RunReal(work)
-	for i, v := range eta {
-		if v == v {
-			eta[i] = work[i]
-		}
+	copy(eta, work)
+	for _, i := range deep {
+		eta[i] = float32(math.NaN())
 	}
 }
 
@@ -127,4 +136,55 @@ func (b *BandPass) Apply(eta, work []float32) {
 func (b *BandPass) Close() {
 	b.fwd.Destroy()
 	b.inv.Destroy()
+}
+
+// fillPasses is how many cells deep into a hole fillHoles reaches.
+const fillPasses = 3
+
+// fillHoles gives each NaN cell of a row-major nx×ny field the mean of
+// its known 4-neighbours, in passes (each pass sees the cells the last one
+// filled) up to passes deep; what is left is set to zero, and returned.
+func fillHoles(a []float32, nx, ny, passes int) []int {
+	var todo []int
+	for i, v := range a {
+		if v != v {
+			todo = append(todo, i)
+		}
+	}
+	vals := make([]float32, len(todo))
+	for p := 0; p < passes && len(todo) > 0; p++ {
+		for k, i := range todo {
+			x, y := i%nx, i/nx
+			var sum float32
+			n := 0
+			for _, j := range [4]int{i - 1, i + 1, i - nx, i + nx} {
+				if (j == i-1 && x == 0) || (j == i+1 && x == nx-1) || (j == i-nx && y == 0) || (j == i+nx && y == ny-1) {
+					continue
+				}
+				if v := a[j]; v == v {
+					sum += v
+					n++
+				}
+			}
+			vals[k] = float32(math.NaN())
+			if n > 0 {
+				vals[k] = sum / float32(n)
+			}
+		}
+		rest := todo[:0]
+		restVals := vals[:0]
+		for k, i := range todo {
+			if v := vals[k]; v == v {
+				a[i] = v
+			} else {
+				rest = append(rest, i)
+				restVals = append(restVals, v)
+			}
+		}
+		todo, vals = rest, restVals
+	}
+	for _, i := range todo {
+		a[i] = 0
+	}
+	return todo
 }

@@ -332,12 +332,20 @@ func (d *Detector) Detect(eta, mean []float32, frame int, t float64, sc *Scratch
 	}
 	for li, ln := range d.lines {
 		vals := sc.vals[:0]
+		gaps := false
 		for k := ln.first; k < ln.first+ln.count; k++ {
 			i := int(sc.tab.idx[k])
 			wx, wy := float64(sc.tab.wx[k]), float64(sc.tab.wy[k])
 			v00, v10, v01, v11 := at(i), at(i+1), at(i+nx), at(i+nx+1)
 			v := (1-wy)*((1-wx)*v00+wx*v10) + wy*((1-wx)*v01+wx*v11)
-			vals = append(vals, v) // NaN propagates
+			if v != v { // an unknown corner: the known ones, if they carry most of the weight
+				v = knownCorners([4]float64{v00, v10, v01, v11}, [4]float64{(1 - wx) * (1 - wy), wx * (1 - wy), (1 - wx) * wy, wx * wy})
+				gaps = gaps || v != v
+			}
+			vals = append(vals, v)
+		}
+		if gaps {
+			bridgeGaps(vals, maxBridge)
 		}
 		sc.vals = vals
 		d.scanLine(li, ln, vals, sc)
@@ -590,4 +598,45 @@ func knownMin(a, b float64) float64 {
 		return a
 	}
 	return math.Min(a, b)
+}
+
+// maxBridge is the longest run of unknown samples along a sampling line
+// that Detect bridges by linear interpolation: isolated unknown cells, as
+// a stereo reconstruction leaves them scattered over its maps, then do not
+// cut a crest's stretch of positive elevation in two; longer holes do.
+const maxBridge = 2
+
+// knownCorners is the bilinear sample from the known corners alone, their
+// weights renormalised, when they carry at least half the weight; NaN
+// otherwise.
+func knownCorners(v, w [4]float64) float64 {
+	var sum, ws float64
+	for k := range v {
+		if v[k] == v[k] {
+			sum += w[k] * v[k]
+			ws += w[k]
+		}
+	}
+	if ws < 0.5 {
+		return math.NaN()
+	}
+	return sum / ws
+}
+
+// bridgeGaps fills runs of at most n unknown samples between known ones by
+// linear interpolation, in place.
+func bridgeGaps(v []float64, n int) {
+	last := -1 // last known sample
+	for i := 0; i < len(v); i++ {
+		if v[i] != v[i] {
+			continue
+		}
+		if gap := i - last - 1; last >= 0 && gap > 0 && gap <= n {
+			for j := last + 1; j < i; j++ {
+				f := float64(j-last) / float64(i-last)
+				v[j] = (1-f)*v[last] + f*v[i]
+			}
+		}
+		last = i
+	}
 }

@@ -54,6 +54,13 @@ type Options struct {
 	// reference speeds and B_x's surface speed come from the maps as they
 	// are. Empty (default): every wave the maps hold.
 	DominantBandFp []float64 `yaml:"dominant_band_fp"`
+	// NoiseLowPass finds crests on maps low-passed where the sea-state
+	// spectrum falls below twice its noise floor, when it shows one
+	// (speed.SeaState.NoiseFloorFound): above that the maps hold more
+	// reconstruction noise than waves, whose spurious maxima and zero
+	// crossings would cut crests and move their tips. Default on; no
+	// effect on maps without a noise floor.
+	NoiseLowPass bool `yaml:"noise_lowpass"`
 	// VelocityBandLoss is the share of the waves' surface-speed variance
 	// the breaking-index pass may leave out at the top of the spectrum
 	// (speed.VelocityBand): frequencies above the band so found are not
@@ -88,6 +95,7 @@ func DefaultOptions() Options {
 		BreakingIndex:    true,
 		BxThreshold:      speed.DefaultBxThreshold,
 		VelocityBandLoss: 1e-4,
+		NoiseLowPass:     true,
 		Whitecaps:        true,
 		Breaking:         speed.DefaultBreakingOptions(),
 	}

@@ -30,6 +30,10 @@ type Record struct {
 	Tracks         []tracking.Track
 	Link           tracking.LinkStats
 	Rows           []speed.CrestRow
+	// NoiseLowPassHz is the frequency (the start of the noise floor) at
+	// which the maps were low-passed for crest detection because they
+	// carry a noise floor (Options.NoiseLowPass); 0 when they were not.
+	NoiseLowPassHz float64
 	// EdgeCrests is set when the grid was too short along θ0 for crests
 	// to be enclosed by both zero crossings, and crests running into its
 	// edge were kept for their speed (tracking.DetectOptions.EdgeCrests).

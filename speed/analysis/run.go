@@ -63,13 +63,28 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 
 	t0 = time.Now()
 	crestSrc, crestMean := src, mean
-	if opt.dominant() {
-		bs, err := newBandSource(src, mean, rec, [2]float64{opt.DominantBandFp[0], opt.DominantBandFp[1]})
+	band, lowPass := [2]float64{}, false
+	switch ss := rec.SeaState; {
+	case opt.dominant():
+		band = [2]float64{opt.DominantBandFp[0], opt.DominantBandFp[1]}
+	case opt.NoiseLowPass && ss.NoiseFloorFound && ss.Fp > 0:
+		// where the spectrum is less than twice its noise floor the maps
+		// hold more noise than waves: crests are found on the maps
+		// low-passed there
+		if f := signalTop(ss); f > 0 {
+			band, lowPass = [2]float64{0, f / ss.Fp}, true
+		}
+	}
+	if band[1] > 0 {
+		bs, err := newBandSource(src, mean, rec, band)
 		if err != nil {
 			return nil, err
 		}
 		defer bs.Close()
 		crestSrc, crestMean = bs, make([]float32, len(mean))
+		if lowPass {
+			rec.NoiseLowPassHz, rec.Band = rec.Band.HighHz, nil
+		}
 	}
 	wa, err := rec.crestPass(ctx, crestSrc, crestMean, opt)
 	if err != nil {
@@ -419,4 +434,20 @@ func alongTheta(g tracking.Geometry) float64 {
 		l = math.Min(l, ly/s)
 	}
 	return l
+}
+
+// signalTop is one bin above the highest frequency at which the
+// sea-state spectrum exceeds twice its noise floor (the waves' part at
+// least as large as the noise's); 0 when there is no spectrum.
+func signalTop(ss speed.SeaState) float64 {
+	top := 0.0
+	for i, f := range ss.Freqs {
+		if ss.PSD[i] > 2*ss.NoiseFloorPSD {
+			top = f
+		}
+	}
+	if top == 0 || len(ss.Freqs) < 2 {
+		return 0
+	}
+	return top + (ss.Freqs[1] - ss.Freqs[0])
 }
