@@ -128,22 +128,44 @@ func Advance(prev, c Crest, reach float64) float64 {
 // point is the selected highest one, whose sub-sample interpolation error
 // is not that of an ordinary point, and taking it would add that error to
 // every step of a track. The pair is symmetric about the tip, so the
-// slope of the advance along a curved crest cancels; its curvature enters
-// at second order in the step (an oblique crest line moves faster along
-// θ0, so on short crests this reads slightly high). Without both
-// neighbours it falls back to Advance on the tip's line alone.
+// slope of the advance along a curved crest cancels. A crest line moving
+// at one speed normal to itself advances along θ0 by that speed times
+// √(1+m²), m = ds/dn its local slope, so on a curved crest the neighbour
+// lines, more oblique than the tip's, advance further: each neighbour's
+// advance is scaled to the tip's slope, √((1+m_tip²)/(1+m_i²)), the slopes
+// by central differences of c's crest line (on short-crested seas this
+// took the median over the exact crest speed from 1.040 to 1.030 at
+// spreading s = 4, with regular waves unchanged). Without both neighbours
+// it falls back to Advance on the tip's line alone.
 func AdvanceAtTip(prev, c Crest) float64 {
 	if len(prev.poly) > 0 && len(c.poly) > 0 && prev.polyStep == c.polyStep {
 		off := int(math.Round((c.polyN0 - prev.polyN0) / c.polyStep))
 		it := int(math.Round((c.N - c.polyN0) / c.polyStep)) // the tip's line in c
+		// slope ds/dn of c's crest line at line i (central difference)
+		slope := func(i int) (float64, bool) {
+			if i < 1 || i+1 >= len(c.poly) {
+				return 0, false
+			}
+			return float64(c.poly[i+1]-c.poly[i-1]) / (2 * c.polyStep), true
+		}
 		var sum float64
 		n := 0
+		mt, okT := slope(it)
 		for _, i := range []int{it - 1, it + 1} {
 			j := i + off
 			if i < 0 || i >= len(c.poly) || j < 0 || j >= len(prev.poly) {
 				continue
 			}
-			sum += float64(c.poly[i]) - float64(prev.poly[j])
+			a := float64(c.poly[i]) - float64(prev.poly[j])
+			// A crest line moving at one speed normal to itself advances
+			// along θ0 by that speed times √(1+m²), m its local slope: on a
+			// curved crest the neighbour lines, more oblique than the
+			// tip's, advance further. Their advance is taken at the tip's
+			// slope instead.
+			if mi, ok := slope(i); ok && okT {
+				a *= math.Sqrt((1 + mt*mt) / (1 + mi*mi))
+			}
+			sum += a
 			n++
 		}
 		if n == 2 {
