@@ -220,8 +220,16 @@ func TestLambdaNormalised(t *testing.T) {
 			}
 			t.Errorf("deployment %d bin %d: Λ(c/c_p) %.7g, c_p Λ(c) from lambda.csv %.7g", i+1, j, got.Bins[j].Lambda, want)
 		}
-		if flips > 1 {
-			t.Errorf("deployment %d: %d fronts on bin edges; more than the rounding of a fixture should give", i+1, flips)
+		// every flip was matched to a front within the rounding of its bin
+		// edge above; more flips than such edges would mean misplaced bins
+		edges := 0
+		for j := range got.Bins {
+			if nearEdge(j) {
+				edges++
+			}
+		}
+		if flips > edges {
+			t.Errorf("deployment %d: %d bins differ across edges, but only %d edges have a front within the rounding", i+1, flips, edges)
 		}
 		ws := d.Summary.Whitecaps
 		if ws.LengthOutOfRange == 0 && math.Abs(got.Integral-ws.LambdaIntegral) > 1e-4*ws.LambdaIntegral {
