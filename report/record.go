@@ -196,11 +196,11 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		s.SeaState.DirectionToTrue, s.SeaState.DirectionFromTrue = summary.TrueBearings(s.SeaState.MeanDirection, st.GridHeading)
 	}
 	s.Crests = summary.CrestsSummary{
-		Detections: rec.Detections, Tracks: len(rec.Tracks), Rows: len(rec.Rows),
+		Detections: rec.Detections, Tracks: rec.TrackCount, Rows: len(rec.Rows),
 		RowsWithSpeed: len(rec.Rows) - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
 		Births: rec.Link.Births, Deaths: rec.Link.Deaths, GapsBridged: rec.Link.GapsBridged, Unmatched: rec.Link.Gated,
 		EndedByReason: rec.Link.Ended, Steps: rec.Link.Steps, StepResidualM: quantiles(rec.Link.Residuals),
-		ElevationJumpShare: elevationJumpShare(rec),
+		ElevationJumpShare: rec.ElevationJumpShare,
 	}
 	s.Ratio = crestRatioStats(d.Crests, run.SteepnessBounds, stats.Options{}, 0)
 	s.Whitecaps = whitecapsSummary(rec.Whitecaps, d.Whitecaps, run.SteepnessBounds)
@@ -415,23 +415,4 @@ func quantiles(v []float64) *summary.QuantileSummary {
 	slices.Sort(w)
 	q := func(p float64) float64 { return w[int(math.Round(p*float64(len(w)-1)))] }
 	return &summary.QuantileSummary{N: len(w), P01: q(0.01), P05: q(0.05), P25: q(0.25), P50: q(0.5), P75: q(0.75), P95: q(0.95), P99: q(0.99)}
-}
-
-// elevationJumpShare is the share of the tracks' frame-to-frame steps
-// whose crest elevation changed by more than 0.3 Hm0 (0 without steps).
-func elevationJumpShare(rec *analysis.Record) float64 {
-	n, big := 0, 0
-	lim := 0.3 * rec.SeaState.Hm0
-	for _, tr := range rec.Tracks {
-		for i := 1; i < len(tr.Crests); i++ {
-			n++
-			if math.Abs(tr.Crests[i].Elevation-tr.Crests[i-1].Elevation) > lim {
-				big++
-			}
-		}
-	}
-	if n == 0 {
-		return 0
-	}
-	return float64(big) / float64(n)
 }
