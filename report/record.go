@@ -298,6 +298,28 @@ func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 // first and renamed together at the end, so a failure leaves none of
 // them behind.
 func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, error) {
+	sum, _, err := writeTrackOutputs(dir, rec, run)
+	return sum, err
+}
+
+// WriteTrackOutputsForReport is WriteTrackOutputs that also returns the
+// report input made from the same tables (as DeploymentFromRecord would),
+// so that the record's crest rows are turned into a table once: once it
+// returns, rec.Rows is no longer needed by the report and may be let go.
+func WriteTrackOutputsForReport(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
+	sum, d, err := writeTrackOutputs(dir, rec, run)
+	if err != nil {
+		return nil, nil, err
+	}
+	d.Summary = sum.Copy()
+	d.TracksDir = dir
+	// as DeploymentFromRecord: the in-memory report input has no gauge
+	// spectrum table
+	d.GaugeSpectrum = nil
+	return sum, d, nil
+}
+
+func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
 	d := tablesOf(rec)
 	d.GaugeSpectrum = gaugeSpectrum(run.Gauge)
 	sum := buildSummary(rec, d, run)
@@ -316,7 +338,7 @@ func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 			continue
 		}
 		if err := fs.write(dir, name, func(f *os.File) error { return t.Write(f) }); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		abs, _ := filepath.Abs(filepath.Join(dir, name))
 		sum.Outputs[name] = abs
@@ -325,15 +347,15 @@ func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 	sum.Outputs["summary.json"] = abs
 	js, err := sum.JSON()
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if err := fs.writeBytes(dir, "summary.json", js); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if err := fs.commit(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	return sum, nil
+	return sum, d, nil
 }
 
 // DeploymentFromRecord makes the report input from an analysed record and

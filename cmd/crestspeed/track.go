@@ -203,7 +203,7 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 		}
 		printGauge(con, gaugeRun)
 	}
-	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
+	sum, d, err := report.WriteTrackOutputsForReport(dir, rec, report.RunInfo{
 		Site:    siteSummary(cfg.Site, src.Meta()),
 		Gauge:   gaugeRun,
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
@@ -215,8 +215,10 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	printTrackSummary(con, sum)
 	printBreaking(con, sum)
 	con.logf("track: wrote %s in %s", dir, elapsed(started))
+	// The report works from the tables alone: let the crest rows go.
+	rec.Rows = nil
 	if tc.Report {
-		if err := writeReport(con, cfg, report.DeploymentFromRecord(rec, sum, dir), dir, time.Now(), created); err != nil {
+		if err := writeReport(con, cfg, d, dir, time.Now(), created); err != nil {
 			return nil, err
 		}
 	}
