@@ -40,6 +40,7 @@ type Record struct {
 	ElevationJumpShare float64
 	// steps and jumps counted for ElevationJumpShare
 	elevationSteps, elevationJumps int
+	rows                           rowChunks // Rows while the crest pass runs
 	// NoiseLowPassHz is the frequency (the start of the noise floor) at
 	// which the maps were low-passed for crest detection because they
 	// carry a noise floor (Options.NoiseLowPass); 0 when they were not.

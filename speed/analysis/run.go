@@ -32,6 +32,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"runtime"
 	"slices"
 	"time"
 
@@ -108,6 +109,12 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 	}
 	if opt.BreakingIndex {
 		t0 = time.Now()
+		// The crest pass ends with its garbage (the last tracks, the row
+		// blocks beside the joined rows) still on the heap. Collect it
+		// first: the collector sets its next goal at twice what survives a
+		// collection, and through the long breaking-index pass that goal
+		// would otherwise follow whatever the end of the crest pass held.
+		runtime.GC()
 		if err := rec.breakingIndexPass(ctx, src, mean, opt); err != nil {
 			return nil, err
 		}
@@ -343,6 +350,7 @@ func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, op
 		return nil, err
 	}
 	_, rec.Link = linker.Finish()
+	rec.Rows = rec.rows.join()
 	// Tracks end in no particular order; their rows go in order of track
 	// (IDs are given at birth, in frame order), each track's in frame order.
 	slices.SortStableFunc(rec.Rows, func(a, b speed.CrestRow) int { return cmp.Compare(a.TrackID, b.TrackID) })
@@ -368,9 +376,46 @@ func (rec *Record) endTrack(hm0 float64) func(tracking.Track) {
 				rec.elevationJumps++
 			}
 		}
-		rec.Rows = speed.TrackRows(tr, rec.Refs, half, rec.Rows)
+		rec.rows.add(len(tr.Crests), func(dst []speed.CrestRow) []speed.CrestRow {
+			return speed.TrackRows(tr, rec.Refs, half, dst)
+		})
 		rec.Timings["crest speeds"] += time.Since(t0)
 	}
+}
+
+// rowChunks gathers crest rows in blocks of fixed capacity while the crest
+// pass runs. One slice grown by append would be copied into a larger new
+// array at every growth, each too large for the space the last one freed,
+// so the heap would touch several times the rows' final size.
+type rowChunks struct{ chunks [][]speed.CrestRow }
+
+// rowChunk is the capacity of a block of rows (about 0.7 MB).
+const rowChunk = 4096
+
+// add appends n rows made by fill (which appends them to its argument).
+func (c *rowChunks) add(n int, fill func([]speed.CrestRow) []speed.CrestRow) {
+	k := len(c.chunks) - 1
+	if k < 0 || len(c.chunks[k])+n > cap(c.chunks[k]) {
+		c.chunks = append(c.chunks, make([]speed.CrestRow, 0, max(rowChunk, n)))
+		k++
+	}
+	c.chunks[k] = fill(c.chunks[k])
+}
+
+// join returns all rows in one slice of exactly their number and lets the
+// blocks go.
+func (c *rowChunks) join() []speed.CrestRow {
+	n := 0
+	for _, ch := range c.chunks {
+		n += len(ch)
+	}
+	rows := make([]speed.CrestRow, 0, n)
+	for i, ch := range c.chunks {
+		rows = append(rows, ch...)
+		c.chunks[i] = nil
+	}
+	c.chunks = nil
+	return rows
 }
 
 // framePool recycles frame buffers between the reader and the workers.
