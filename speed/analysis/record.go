@@ -33,7 +33,7 @@ type Record struct {
 	Link       tracking.LinkStats
 	// Rows holds one row per crest per frame, in order of track ID and,
 	// within a track, of frame: the part of the result that grows with the
-	// record (about 0.26 kB a row).
+	// record (176 bytes a row, speed.CrestRow).
 	Rows []speed.CrestRow
 	// ElevationJumpShare is the share of the tracks' frame-to-frame steps
 	// whose crest elevation changed by more than 0.3 Hm0 (0 without steps).
