@@ -187,6 +187,11 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	if err != nil {
 		return nil, err
 	}
+	meta := src.Meta()
+	// The maps are read: free the read-ahead blocks before the tables and
+	// the report are made (a read-only file has nothing to flush, so an
+	// error closing it changes nothing that was read).
+	src.Close()
 	for _, w := range rec.Warnings {
 		con.logf("track: warning: %s", w)
 	}
@@ -204,7 +209,7 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 		printGauge(con, gaugeRun)
 	}
 	sum, d, err := report.WriteTrackOutputsForReport(dir, rec, report.RunInfo{
-		Site:    siteSummary(cfg.Site, src.Meta()),
+		Site:    siteSummary(cfg.Site, meta),
 		Gauge:   gaugeRun,
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started, Dominant: dominant,
