@@ -34,6 +34,7 @@ fuzz: deps
 bench: build
 	$(GO) test -run '^$$' -bench . -benchmem -benchtime 3x -timeout 60m $(PKGS)
 	scripts/bench/track-vs-numpy $(BIN)
+	scripts/bench/track-memory $(BIN)
 
 lint:
 	@out=$$(gofmt -l $$(git ls-files '*.go')); if [ -n "$$out" ]; then echo "gofmt needed:"; echo "$$out"; exit 1; fi

@@ -820,6 +820,9 @@ func (s *ElevationSource) Close() error {
 	if s.rd.direct != nil {
 		s.rd.direct.Close()
 	}
+	// let the read-ahead blocks go with the file
+	s.rd.bufs, s.rd.cur = [2]*block{}, nil
+	s.rd.scratch.f32, s.rd.scratch.f64, s.rd.scratch.u8 = nil, nil, nil
 	err := s.f.Close()
 	s.f = nil
 	return err

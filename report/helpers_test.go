@@ -14,7 +14,6 @@ import (
 
 	"crestspeed/report/table"
 	"crestspeed/speed"
-	"crestspeed/tracking"
 )
 
 // syntheticRows makes crest rows of nTracks tracks (about meanRows rows
@@ -43,7 +42,7 @@ func syntheticRows(rng *rand.Rand, nTracks, meanRows int) []speed.CrestRow {
 			w := lam / 2 * (0.9 + 0.2*rng.Float64())
 			row := speed.CrestRow{
 				TrackID: id,
-				Crest: tracking.Crest{
+				CrestTip: speed.CrestTip{
 					Frame: f0 + i, Time: float64(f0+i) * dt,
 					S: s, N: n0, Elevation: a, Width: w, Wavelength: lam, Length: 5 + 10*rng.Float64(),
 				},

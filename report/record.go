@@ -196,11 +196,11 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		s.SeaState.DirectionToTrue, s.SeaState.DirectionFromTrue = summary.TrueBearings(s.SeaState.MeanDirection, st.GridHeading)
 	}
 	s.Crests = summary.CrestsSummary{
-		Detections: rec.Detections, Tracks: len(rec.Tracks), Rows: len(rec.Rows),
+		Detections: rec.Detections, Tracks: rec.TrackCount, Rows: len(rec.Rows),
 		RowsWithSpeed: len(rec.Rows) - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
 		Births: rec.Link.Births, Deaths: rec.Link.Deaths, GapsBridged: rec.Link.GapsBridged, Unmatched: rec.Link.Gated,
 		EndedByReason: rec.Link.Ended, Steps: rec.Link.Steps, StepResidualM: quantiles(rec.Link.Residuals),
-		ElevationJumpShare: elevationJumpShare(rec),
+		ElevationJumpShare: rec.ElevationJumpShare,
 	}
 	s.Ratio = crestRatioStats(d.Crests, run.SteepnessBounds, stats.Options{}, 0)
 	s.Whitecaps = whitecapsSummary(rec.Whitecaps, d.Whitecaps, run.SteepnessBounds)
@@ -298,6 +298,28 @@ func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 // first and renamed together at the end, so a failure leaves none of
 // them behind.
 func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, error) {
+	sum, _, err := writeTrackOutputs(dir, rec, run)
+	return sum, err
+}
+
+// WriteTrackOutputsForReport is WriteTrackOutputs that also returns the
+// report input made from the same tables (as DeploymentFromRecord would),
+// so that the record's crest rows are turned into a table once: once it
+// returns, rec.Rows is no longer needed by the report and may be let go.
+func WriteTrackOutputsForReport(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
+	sum, d, err := writeTrackOutputs(dir, rec, run)
+	if err != nil {
+		return nil, nil, err
+	}
+	d.Summary = sum.Copy()
+	d.TracksDir = dir
+	// as DeploymentFromRecord: the in-memory report input has no gauge
+	// spectrum table
+	d.GaugeSpectrum = nil
+	return sum, d, nil
+}
+
+func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
 	d := tablesOf(rec)
 	d.GaugeSpectrum = gaugeSpectrum(run.Gauge)
 	sum := buildSummary(rec, d, run)
@@ -316,7 +338,7 @@ func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 			continue
 		}
 		if err := fs.write(dir, name, func(f *os.File) error { return t.Write(f) }); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		abs, _ := filepath.Abs(filepath.Join(dir, name))
 		sum.Outputs[name] = abs
@@ -325,15 +347,15 @@ func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 	sum.Outputs["summary.json"] = abs
 	js, err := sum.JSON()
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if err := fs.writeBytes(dir, "summary.json", js); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if err := fs.commit(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	return sum, nil
+	return sum, d, nil
 }
 
 // DeploymentFromRecord makes the report input from an analysed record and
@@ -415,23 +437,4 @@ func quantiles(v []float64) *summary.QuantileSummary {
 	slices.Sort(w)
 	q := func(p float64) float64 { return w[int(math.Round(p*float64(len(w)-1)))] }
 	return &summary.QuantileSummary{N: len(w), P01: q(0.01), P05: q(0.05), P25: q(0.25), P50: q(0.5), P75: q(0.75), P95: q(0.95), P99: q(0.99)}
-}
-
-// elevationJumpShare is the share of the tracks' frame-to-frame steps
-// whose crest elevation changed by more than 0.3 Hm0 (0 without steps).
-func elevationJumpShare(rec *analysis.Record) float64 {
-	n, big := 0, 0
-	lim := 0.3 * rec.SeaState.Hm0
-	for _, tr := range rec.Tracks {
-		for i := 1; i < len(tr.Crests); i++ {
-			n++
-			if math.Abs(tr.Crests[i].Elevation-tr.Crests[i-1].Elevation) > lim {
-				big++
-			}
-		}
-	}
-	if n == 0 {
-		return 0
-	}
-	return float64(big) / float64(n)
 }

@@ -23,6 +23,11 @@ type LinkOptions struct {
 	// split) and the detection starts a new track, so that a change of
 	// crest segment never enters a crest's path.
 	Step func(prev, next Crest, advance float64) (reason string)
+	// OnEnd, when set, receives every track as it ends (lost, split or
+	// at the end of the record), in the order tracks end; the linker then
+	// keeps no ended track and Finish returns none, so that what it holds
+	// does not grow with the record. The track is the caller's to keep.
+	OnEnd func(Track)
 }
 
 // End reasons of tracks that are not refused steps.
@@ -200,10 +205,16 @@ func (l *Linker) finish(tr *Track, why string) {
 	l.stats.Deaths++
 	l.stats.Ended[why]++
 	delete(l.lastSeen, tr)
+	if l.opt.OnEnd != nil {
+		l.opt.OnEnd(*tr)
+		return
+	}
 	l.done = append(l.done, *tr)
 }
 
-// Finish closes all tracks and returns every track in order of ID.
+// Finish closes all tracks and returns every track in order of ID (none
+// when LinkOptions.OnEnd is set: the tracks still active are handed to it,
+// in order of ID).
 func (l *Linker) Finish() ([]Track, LinkStats) {
 	for _, tr := range l.active {
 		l.finish(tr, EndRecord)

@@ -212,3 +212,61 @@ func TestLinkRegularWave(t *testing.T) {
 		t.Errorf("only %d long tracks", long)
 	}
 }
+
+// With OnEnd the linker hands every track over once, when it ends (its
+// last crest is older than the frame being pushed, except at Finish), keeps
+// none itself, and the tracks are those it returns without OnEnd.
+func TestLinkOnEndHandsOverEndedTracks(t *testing.T) {
+	g := Geometry{Nx: 120, Ny: 40, Dx: 1, Dy: 1, Theta: 0}
+	lambda := 30.0
+	k := 2 * math.Pi / lambda
+	c := 6.0
+	d := NewDetector(g, DetectOptions{MinElevation: 0.1, MinLength: 5})
+	sc := d.NewScratch()
+	opt := LinkOptions{MaxGapFrames: 1, GateS: 0.2 * lambda, GateN: lambda, Speed: func(Crest) float64 { return c }}
+	var frames [][]Crest
+	dt := 0.1
+	for f := 0; f < 80; f++ {
+		tt := float64(f) * dt
+		frames = append(frames, d.Detect(sinusoidFrame(g, 1, k, c*k, tt), nil, f, tt, sc))
+	}
+	plain := NewLinker(opt)
+	for f, cr := range frames {
+		plain.Push(f, float64(f)*dt, cr)
+	}
+	want, wantStats := plain.Finish()
+
+	var got []Track
+	pushing := -1
+	duringRecord := 0
+	opt.OnEnd = func(tr Track) {
+		if pushing >= 0 {
+			duringRecord++
+			if last := tr.Crests[len(tr.Crests)-1].Frame; last >= pushing {
+				t.Errorf("track %d handed over at frame %d with a crest of frame %d", tr.ID, pushing, last)
+			}
+		}
+		got = append(got, tr)
+	}
+	l := NewLinker(opt)
+	for f, cr := range frames {
+		pushing = f
+		l.Push(f, float64(f)*dt, cr)
+	}
+	pushing = -1
+	rest, st := l.Finish()
+	if len(rest) != 0 {
+		t.Errorf("Finish returned %d tracks with OnEnd set", len(rest))
+	}
+	if duringRecord == 0 {
+		t.Errorf("no track ended before the end of the record (in 8 s at 6 m/s the crests within 48 m of the far edge leave the 120 m grid)")
+	}
+	sortTracks(got)
+	// compared as printed, where NaN (an unknown wavelength) equals NaN
+	if fmt.Sprintf("%+v", got) != fmt.Sprintf("%+v", want) {
+		t.Errorf("OnEnd handed over %d tracks, not the %d the linker returns without it", len(got), len(want))
+	}
+	if st.Births != wantStats.Births || st.Deaths != wantStats.Deaths || st.Steps != wantStats.Steps {
+		t.Errorf("link counts %+v, want %+v", st, wantStats)
+	}
+}

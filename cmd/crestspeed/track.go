@@ -187,6 +187,11 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	if err != nil {
 		return nil, err
 	}
+	meta := src.Meta()
+	// The maps are read: free the read-ahead blocks before the tables and
+	// the report are made (a read-only file has nothing to flush, so an
+	// error closing it changes nothing that was read).
+	src.Close()
 	for _, w := range rec.Warnings {
 		con.logf("track: warning: %s", w)
 	}
@@ -203,8 +208,8 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 		}
 		printGauge(con, gaugeRun)
 	}
-	sum, err := report.WriteTrackOutputs(dir, rec, report.RunInfo{
-		Site:    siteSummary(cfg.Site, src.Meta()),
+	sum, d, err := report.WriteTrackOutputsForReport(dir, rec, report.RunInfo{
+		Site:    siteSummary(cfg.Site, meta),
 		Gauge:   gaugeRun,
 		Version: version, Config: settingsMap(cfg), Inputs: inputs,
 		SteepnessBounds: tc.SteepnessBounds, Started: started, Dominant: dominant,
@@ -215,8 +220,10 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	printTrackSummary(con, sum)
 	printBreaking(con, sum)
 	con.logf("track: wrote %s in %s", dir, elapsed(started))
+	// The report works from the tables alone: let the crest rows go.
+	rec.Rows = nil
 	if tc.Report {
-		if err := writeReport(con, cfg, report.DeploymentFromRecord(rec, sum, dir), dir, time.Now(), created); err != nil {
+		if err := writeReport(con, cfg, d, dir, time.Now(), created); err != nil {
 			return nil, err
 		}
 	}

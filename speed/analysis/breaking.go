@@ -1,10 +1,13 @@
 package analysis
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"io"
 	"math"
+	"slices"
+	"sort"
 
 	"crestspeed/ingest"
 	"crestspeed/speed"
@@ -30,16 +33,13 @@ func (rec *Record) breakingIndexPass(ctx context.Context, src Source, mean []flo
 	nw := int(math.Round(winS/dt/2)) * 2
 	capFrames := dec * int(maxVelocityBytes/(2*16*float64(nx*ny))) / 2 * 2
 	nw = max(min(nw, capFrames), 8)
-	byFrame := map[int][]int{}
-	for i, r := range rec.Rows {
-		byFrame[r.Frame] = append(byFrame[r.Frame], i)
-	}
+	byFrame := rec.rowsByFrame()
 	sv, err := speed.NewSurfaceVelocity(nx, ny, g.Dx(), g.Dy(), dt, speed.SurfaceVelocityOptions{
 		Window: nw, Theta: rec.Refs.Theta, DepthM: rec.Refs.DepthM, Current: rec.Refs.Current, Workers: opt.Workers,
 		BandHz: band,
 	}, func(frame int, v *speed.VelocityFrame, ok bool) {
 		if ok {
-			rec.setBreakingIndex(v, byFrame[frame])
+			rec.setBreakingIndex(v, byFrame.of(frame, rec.Rows))
 		}
 	})
 	if err != nil {
@@ -80,7 +80,7 @@ func (rec *Record) breakingIndexPass(ctx context.Context, src Source, mean []flo
 
 // setBreakingIndex evaluates the surface speed field u of one frame at the
 // tips of the given rows and sets u_s and B_x on them.
-func (rec *Record) setBreakingIndex(v *speed.VelocityFrame, rows []int) {
+func (rec *Record) setBreakingIndex(v *speed.VelocityFrame, rows []int32) {
 	g := rec.Meta.Grid
 	for _, i := range rows {
 		r := &rec.Rows[i]
@@ -97,4 +97,29 @@ func (rec *Record) setBreakingIndex(v *speed.VelocityFrame, rows []int) {
 			rec.RowsWithBx++
 		}
 	}
+}
+
+// frameIndex lists the crest rows in order of frame (rows of one frame in
+// row order): four bytes a row, where a map from frame to a slice of row
+// numbers took a slice and a map entry per frame besides.
+type frameIndex []int32
+
+// rowsByFrame indexes rec.Rows by frame.
+func (rec *Record) rowsByFrame() frameIndex {
+	idx := make(frameIndex, len(rec.Rows))
+	for i := range idx {
+		idx[i] = int32(i)
+	}
+	slices.SortStableFunc(idx, func(a, b int32) int { return cmp.Compare(rec.Rows[a].Frame, rec.Rows[b].Frame) })
+	return idx
+}
+
+// of returns the numbers of the rows of the given frame.
+func (idx frameIndex) of(frame int, rows []speed.CrestRow) []int32 {
+	lo := sort.Search(len(idx), func(k int) bool { return rows[idx[k]].Frame >= frame })
+	hi := lo
+	for hi < len(idx) && rows[idx[hi]].Frame == frame {
+		hi++
+	}
+	return idx[lo:hi]
 }

@@ -27,9 +27,20 @@ type Record struct {
 	SpeedWindowS   float64
 	MaskedFraction float64 // fraction of grid cells unknown, over the frames read
 	Detections     int
-	Tracks         []tracking.Track
-	Link           tracking.LinkStats
-	Rows           []speed.CrestRow
+	// TrackCount is the number of crest tracks; the tracks themselves are
+	// not kept, only their rows.
+	TrackCount int
+	Link       tracking.LinkStats
+	// Rows holds one row per crest per frame, in order of track ID and,
+	// within a track, of frame: the part of the result that grows with the
+	// record (176 bytes a row, speed.CrestRow).
+	Rows []speed.CrestRow
+	// ElevationJumpShare is the share of the tracks' frame-to-frame steps
+	// whose crest elevation changed by more than 0.3 Hm0 (0 without steps).
+	ElevationJumpShare float64
+	// steps and jumps counted for ElevationJumpShare
+	elevationSteps, elevationJumps int
+	rows                           rowChunks // Rows while the crest pass runs
 	// NoiseLowPassHz is the frequency (the start of the noise floor) at
 	// which the maps were low-passed for crest detection because they
 	// carry a noise floor (Options.NoiseLowPass); 0 when they were not.

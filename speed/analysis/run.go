@@ -19,17 +19,21 @@
 //     the surface-velocity estimator (speed.SurfaceVelocity) and B_x is
 //     evaluated at every crest row its windows cover.
 //
-// Memory does not grow with the record beyond the crest rows themselves and
-// a few numbers per frame; the result is identical for any number of
+// Memory does not grow with the record beyond the crest rows themselves
+// (one speed.CrestRow per crest per frame, Record.Rows), one link residual
+// per step and a few numbers per frame; the result is identical for any number of
 // workers.
 package analysis
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
 	"io"
 	"math"
+	"runtime"
+	"slices"
 	"time"
 
 	"crestspeed/ingest"
@@ -62,6 +66,7 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 	rec.Timings["sea state"] = time.Since(t0)
 
 	t0 = time.Now()
+	rec.Timings["crest speeds"] = 0 // spent inside the crest pass, as tracks end
 	crestSrc, crestMean := src, mean
 	band, lowPass := [2]float64{}, false
 	switch ss := rec.SeaState; {
@@ -97,19 +102,19 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 	}
 	rec.Timings["crest detection and linking"] = time.Since(t0)
 
-	t0 = time.Now()
-	half := rec.SpeedWindowS / 2
-	for _, tr := range rec.Tracks {
-		rec.Rows = speed.TrackRows(tr, rec.Refs, half, rec.Rows)
-	}
 	for _, r := range rec.Rows {
 		if math.IsNaN(r.CrestSpeed) {
 			rec.RowsWithoutSpeed++
 		}
 	}
-	rec.Timings["crest speeds"] = time.Since(t0)
 	if opt.BreakingIndex {
 		t0 = time.Now()
+		// The crest pass ends with its garbage (the last tracks, the row
+		// blocks beside the joined rows) still on the heap. Collect it
+		// first: the collector sets its next goal at twice what survives a
+		// collection, and through the long breaking-index pass that goal
+		// would otherwise follow whatever the end of the crest pass held.
+		runtime.GC()
 		if err := rec.breakingIndexPass(ctx, src, mean, opt); err != nil {
 			return nil, err
 		}
@@ -296,6 +301,7 @@ func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, op
 		GateN: 2 * det.Step(),
 		Speed: ref.Predict,
 		Step:  stepGate(ref, ss.Hm0, ss.Tp, det.Step()),
+		OnEnd: rec.endTrack(ss.Hm0),
 	})
 	var wa *speed.WhitecapAnalyser
 	if opt.Whitecaps && rec.Meta.HasFoam {
@@ -343,8 +349,73 @@ func (rec *Record) crestPass(ctx context.Context, src Source, mean []float32, op
 	if err := pool.Run(ctx); err != nil {
 		return nil, err
 	}
-	rec.Tracks, rec.Link = linker.Finish()
+	_, rec.Link = linker.Finish()
+	rec.Rows = rec.rows.join()
+	// Tracks end in no particular order; their rows go in order of track
+	// (IDs are given at birth, in frame order), each track's in frame order.
+	slices.SortStableFunc(rec.Rows, func(a, b speed.CrestRow) int { return cmp.Compare(a.TrackID, b.TrackID) })
+	if rec.elevationSteps > 0 {
+		rec.ElevationJumpShare = float64(rec.elevationJumps) / float64(rec.elevationSteps)
+	}
 	return wa, nil
+}
+
+// endTrack returns the handler of ended tracks: it makes the track's crest
+// rows (speed.TrackRows), counts the track, and counts its frame-to-frame
+// steps whose crest elevation changed by more than 0.3 Hm0; the track is
+// then dropped.
+func (rec *Record) endTrack(hm0 float64) func(tracking.Track) {
+	half := rec.SpeedWindowS / 2
+	lim := 0.3 * hm0
+	return func(tr tracking.Track) {
+		t0 := time.Now()
+		rec.TrackCount++
+		for i := 1; i < len(tr.Crests); i++ {
+			rec.elevationSteps++
+			if math.Abs(tr.Crests[i].Elevation-tr.Crests[i-1].Elevation) > lim {
+				rec.elevationJumps++
+			}
+		}
+		rec.rows.add(len(tr.Crests), func(dst []speed.CrestRow) []speed.CrestRow {
+			return speed.TrackRows(tr, rec.Refs, half, dst)
+		})
+		rec.Timings["crest speeds"] += time.Since(t0)
+	}
+}
+
+// rowChunks gathers crest rows in blocks of fixed capacity while the crest
+// pass runs. One slice grown by append would be copied into a larger new
+// array at every growth, each too large for the space the last one freed,
+// so the heap would touch several times the rows' final size.
+type rowChunks struct{ chunks [][]speed.CrestRow }
+
+// rowChunk is the capacity of a block of rows (about 0.7 MB).
+const rowChunk = 4096
+
+// add appends n rows made by fill (which appends them to its argument).
+func (c *rowChunks) add(n int, fill func([]speed.CrestRow) []speed.CrestRow) {
+	k := len(c.chunks) - 1
+	if k < 0 || len(c.chunks[k])+n > cap(c.chunks[k]) {
+		c.chunks = append(c.chunks, make([]speed.CrestRow, 0, max(rowChunk, n)))
+		k++
+	}
+	c.chunks[k] = fill(c.chunks[k])
+}
+
+// join returns all rows in one slice of exactly their number and lets the
+// blocks go.
+func (c *rowChunks) join() []speed.CrestRow {
+	n := 0
+	for _, ch := range c.chunks {
+		n += len(ch)
+	}
+	rows := make([]speed.CrestRow, 0, n)
+	for i, ch := range c.chunks {
+		rows = append(rows, ch...)
+		c.chunks[i] = nil
+	}
+	c.chunks = nil
+	return rows
 }
 
 // framePool recycles frame buffers between the reader and the workers.
