@@ -412,9 +412,9 @@ func TestReconstructDeployment(t *testing.T) {
 	df := ssT.Freqs[1] - ssT.Freqs[0]
 	mT, nT := medianRatioPeak(recT.Rows)
 	mR, nR := medianRatioPeak(recR.Rows)
-	t.Logf("truth: Hm0 %.4f m, Tp %.3f s, %d tracks, median c/c_p %.4f over %d rows (crests ≥ %.1f Hm0)", ssT.Hm0, ssT.Tp, len(recT.Tracks), mT, nT, minCrest)
+	t.Logf("truth: Hm0 %.4f m, Tp %.3f s, %d tracks, median c/c_p %.4f over %d rows (crests ≥ %.1f Hm0)", ssT.Hm0, ssT.Tp, recT.TrackCount, mT, nT, minCrest)
 	t.Logf("reconstructed: Hm0 %.4f m (%+.2f %%), Tp %.3f s (Δf %.4f Hz, bin %.4f Hz), %d tracks, median c/c_p %.4f over %d rows (%+.4f)",
-		ssR.Hm0, 100*(ssR.Hm0/ssT.Hm0-1), ssR.Tp, ssR.Fp-ssT.Fp, df, len(recR.Tracks), mR, nR, mR-mT)
+		ssR.Hm0, 100*(ssR.Hm0/ssT.Hm0-1), ssR.Tp, ssR.Fp-ssT.Fp, df, recR.TrackCount, mR, nR, mR-mT)
 	{
 		a, na := medianRatioPeak(analyseFile(t, truthPath, 0.1).Rows)
 		b, nb := medianRatioPeak(analyseFile(t, out, 0.1).Rows)
