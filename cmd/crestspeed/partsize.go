@@ -12,15 +12,16 @@ import (
 )
 
 // Memory of the reconstruction of one part, from the peak resident set of
-// the reconstruction with 1 and 2 workers (surface BenchmarkFramesPerSecond,
-// the demo rig at 1280×1024 and 2448×2048 px; README "Benchmarks"): a base
-// for the process (libraries, settled geometry, grid, output buffers) and,
-// per worker, an amount that grows with the pixels of a pair (its images,
-// rectified images, disparity strips and point cloud). Both are rounded
-// up, so that a task given this much does not run out.
+// "crestspeed reconstruct" with 1 and 2 workers on the 2448×2048 px bench
+// deployment (README "Benchmarks": 628 and 863 MB, so 235 MB per worker at
+// 5.0 MP and 393 MB for the rest): a base for the process (libraries,
+// settled geometry, grid, output buffers) and, per worker, an amount that
+// grows with the pixels of a pair (its images, rectified images, disparity
+// strips and point cloud). Both are rounded up, so that a task given this
+// much does not run out.
 const (
-	reconstructBaseMB        = 300.0
-	reconstructWorkerMBPerMP = 60.0
+	reconstructBaseMB        = 400.0
+	reconstructWorkerMBPerMP = 50.0
 )
 
 // workerMB is the memory one reconstruction worker needs for pairs of
