@@ -209,6 +209,7 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		s.Band = &summary.BandSummary{LowFp: b.LowFp, HighFp: b.HighFp, LowHz: b.LowHz, HighHz: b.HighHz, LowK: b.LowK, HighK: b.HighK}
 	}
 	s.Dominant = run.Dominant
+	s.NoiseLowPassHz = rec.NoiseLowPassHz
 	s.Method = trackMethod(rec, run)
 	for k, v := range rec.Timings {
 		s.Timings[k] = v.Seconds()

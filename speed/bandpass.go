@@ -97,6 +97,27 @@ func bandGain(k, kLo, kHi float64) float64 {
 	return low * edge(-math.Log(k/kHi)/l)
 }
 
+// BandGainAt is the gain NewBandPass(…, depthM, lowHz, highHz) gives a
+// wave of wavenumber k (rad/m), without making the transforms; NaN for a
+// band that is not one.
+func BandGainAt(k, depthM, lowHz, highHz float64) float64 {
+	if !(lowHz >= 0 && highHz > lowHz) {
+		return math.NaN()
+	}
+	kLo := 0.0
+	if lowHz > 0 {
+		var err error
+		if kLo, err = WaveNumber(2*math.Pi*lowHz, depthM); err != nil {
+			return math.NaN()
+		}
+	}
+	kHi, err := WaveNumber(2*math.Pi*highHz, depthM)
+	if err != nil {
+		return math.NaN()
+	}
+	return bandGain(k, kLo, kHi)
+}
+
 // Gain is the filter's gain for a wave of wavenumber k (rad/m).
 func (b *BandPass) Gain(k float64) float64 { return bandGain(k, b.LowK, b.HighK) }
 

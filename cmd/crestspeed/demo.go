@@ -11,6 +11,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"crestspeed/calib"
+	"crestspeed/report/summary"
 	"crestspeed/samples"
 	"crestspeed/speed"
 )
@@ -123,9 +124,11 @@ func demoStereo(ctx context.Context, con *console, cfg Config, dir string) error
 	if _, err := Reconstruct(ctx, con, c); err != nil {
 		return err
 	}
-	// 3. track crests on the reconstructed maps
+	// 3. track crests on the reconstructed maps, and the dominant waves
+	// (below 2 F_p, the band the reconstruction resolves) beside them
 	c = cfg
 	c.Track.Input, c.Out = maps, filepath.Join(dir, "tracks")
+	c.Track.DominantBandFp = []float64{0, 2}
 	sum, err := Track(ctx, con, c)
 	if err != nil {
 		return err
@@ -139,7 +142,14 @@ func demoStereo(ctx context.Context, con *console, cfg Config, dir string) error
 	con.logf("  %-26s %10.3f %10.3f", "Tp (s)", truth.PeakPeriodS, sum.SeaState.Tp)
 	con.logf("  %-26s %10.1f %10.1f", "mean direction (°)", math.Remainder(truth.MeanDirectionDeg, 360), sum.SeaState.MeanDirection)
 	if sea, err := d.Sea.Sea(); err == nil {
-		logExactSpeeds(con, "crest speed c_cr (m/s)", c.Out, sea, sum.SeaState.MeanDirection)
+		logExactSpeeds(con, "crest speed c_cr (m/s)", c.Out, sea, sum)
+		// the reconstruction smooths the short waves riding on the crests
+		// (which slow the true crests' tips); below 2 F_p both see the same
+		// waves
+		domDir := filepath.Join(c.Out, dominantDir)
+		if ds, err := summary.Read(filepath.Join(domDir, "summary.json")); err == nil {
+			logExactSpeeds(con, "  waves below 2 F_p (m/s)", domDir, sea, ds)
+		}
 	}
 	if sum.Whitecaps != nil {
 		con.logf("  %-26s %10d %10d", "whitecaps", len(d.Foam.Patches), sum.Whitecaps.Whitecaps)

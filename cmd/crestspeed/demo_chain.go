@@ -27,7 +27,7 @@ func demoChain(ctx context.Context, con *console, cfg Config, dir, maps string, 
 	con.logf("  %-22s %10.1f %10.1f", "mean direction (°)", truth.MeanDirectionDeg, ss.MeanDirection)
 	con.logf("  %-22s %10.3f %10.3f", "peak phase speed (m/s)", truth.PeakPhaseSpeed, ss.PeakPhaseSpeed)
 	if sea, err := truth.Scenario.Sea(); err == nil {
-		logExactSpeeds(con, "crest speed c_cr (m/s)", out, sea, ss.MeanDirection)
+		logExactSpeeds(con, "crest speed c_cr (m/s)", out, sea, sum)
 	}
 	if wt := truth.Whitecaps; wt != nil && len(wt.Patches) > 0 && sum.Whitecaps != nil {
 		var mean float64

@@ -7,8 +7,10 @@ import (
 	"path/filepath"
 	"slices"
 
+	"crestspeed/report"
 	"crestspeed/report/table"
 	"crestspeed/samples"
+	"crestspeed/speed"
 )
 
 // exactCrestSpeeds compares the crest speeds a tracking run measured
@@ -51,9 +53,35 @@ func exactCrestSpeeds(dir string, sea *samples.LinearSea, thetaDeg float64) (mea
 	return m[len(m)/2], e[len(e)/2], len(m), rows, nil
 }
 
+// bandLimited is the generator's sea as the crests were found on it: its
+// components weighted by the gain of the low-pass the run applied (the
+// noise low-pass or a dominant-wave band, from its summary), or the sea
+// itself when the maps were taken as they are.
+func bandLimited(sea *samples.LinearSea, sum *report.Summary) (*samples.LinearSea, string) {
+	lo, hi := 0.0, 0.0
+	switch {
+	case sum.Band != nil:
+		lo, hi = sum.Band.LowHz, sum.Band.HighHz
+	case sum.NoiseLowPassHz > 0:
+		hi = sum.NoiseLowPassHz
+	default:
+		return sea, ""
+	}
+	out := &samples.LinearSea{X0: sea.X0, Y0: sea.Y0, T0: sea.T0, DepthM: sea.DepthM}
+	for _, c := range sea.Components {
+		if g := speed.BandGainAt(c.K, sea.DepthM, lo, hi); g > 0 {
+			c.Amp *= g
+			out.Components = append(out.Components, c)
+		}
+	}
+	return out, fmt.Sprintf(" of the sea low-passed at %.2f Hz as the maps were", hi)
+}
+
 // logExactSpeeds prints the measured median crest speed beside the exact
 // one, or why it cannot.
-func logExactSpeeds(con *console, label, dir string, sea *samples.LinearSea, thetaDeg float64) {
+func logExactSpeeds(con *console, label, dir string, full *samples.LinearSea, sum *report.Summary) {
+	thetaDeg := sum.SeaState.MeanDirection
+	sea, note := bandLimited(full, sum)
 	meas, ex, n, rows, err := exactCrestSpeeds(dir, sea, thetaDeg)
 	if err != nil {
 		con.logf("  %-26s (not compared: %v)", label, err)
@@ -66,5 +94,5 @@ func logExactSpeeds(con *console, label, dir string, sea *samples.LinearSea, the
 		con.logf("  %-26s (not compared: only %d of %d tips lie on a crest of the generator's sea in the maps' frame)", label, n, rows)
 		return
 	}
-	con.logf("  %-26s %10.3f %10.3f   (median over %d crest rows; exact: linear c = -η_st/η_ss at each tip)", label, ex, meas, n)
+	con.logf("  %-26s %10.3f %10.3f   (median over %d crest rows; exact: linear c = -η_st/η_ss at each tip%s)", label, ex, meas, n, note)
 }

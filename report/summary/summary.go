@@ -73,6 +73,10 @@ type Summary struct {
 	// Gauge compares the maps with an in-situ series, when one was given.
 	Gauge     *GaugeSummary    `json:"gauge,omitempty"`
 	Inception *speed.Inception `json:"inception,omitempty"`
+	// NoiseLowPassHz is where the maps were low-passed for crest detection
+	// because they carry a noise floor (track.noise_lowpass); 0 when they
+	// were not.
+	NoiseLowPassHz float64 `json:"noise_lowpass_hz"`
 	// Band is the dominant-wave band this analysis found its crests in
 	// (track.dominant_band_fp); nil when it took every wave.
 	Band *BandSummary `json:"dominant_band,omitempty"`
