@@ -181,12 +181,13 @@ print(json.dumps({"Trajectories": ds.sizes["trajectory"], "Obs": ds.sizes["obs"]
 		t.Errorf("whitecap_tracks.nc: %+v; want %d whitecaps in %d rows as CF trajectories", wc, ws.Whitecaps, ws.Rows)
 	}
 
-	// figures: the six of the crest speeds, then the four of this section
-	wantNames := []string{"fig7_lambda", "fig8_coverage", "fig9_whitecap_ratio_pdf", "fig10_bx_highest_crests"}
-	if len(res.Figures) != 10 {
-		t.Fatalf("%d figures, want 10", len(res.Figures))
+	// figures: the six of the crest speeds and the tracking steps', then
+	// the four of this section
+	wantNames := []string{"fig8_lambda", "fig9_coverage", "fig10_whitecap_ratio_pdf", "fig11_bx_highest_crests"}
+	if len(res.Figures) != 11 || res.Figures[6].Name != "fig7_step_residuals" {
+		t.Fatalf("%d figures, want 11 with fig7_step_residuals the seventh", len(res.Figures))
 	}
-	for i, f := range res.Figures[6:] {
+	for i, f := range res.Figures[7:] {
 		if f.Name != wantNames[i] || f.Section != "breaking" {
 			t.Errorf("figure %d is %s (section %q), want %s in the breaking section", 7+i, f.Name, f.Section, wantNames[i])
 		}
@@ -217,11 +218,11 @@ print(json.dumps({"Trajectories": ds.sizes["trajectory"], "Obs": ds.sizes["obs"]
 			t.Errorf("reference line segment %d has slope %.12f on log–log axes, want −6 (Phillips 1985)", i, slope)
 		}
 	}
-	svgSlope := svgReferenceSlope(t, res.Figures[6].SVG)
+	svgSlope := svgReferenceSlope(t, res.Figures[7].SVG)
 	t.Logf("Λ(c): peak bin %d, %d bins above it fitted, A = %.6g m⁴ s⁻⁵; the drawn line's slope in the SVG, converted with the axes' decades: %.6f",
 		ref.Peak, len(ref.Fitted), ref.Amplitude, svgSlope)
 	if math.Abs(svgSlope+6) > 0.01 {
-		t.Errorf("the reference line drawn in %s.svg has slope %.4f on the log–log axes, want −6 (Phillips 1985)", res.Figures[6].Name, svgSlope)
+		t.Errorf("the reference line drawn in %s.svg has slope %.4f on the log–log axes, want −6 (Phillips 1985)", res.Figures[7].Name, svgSlope)
 	}
 	checkAmplitudeWithNumpy(t, filepath.Join(tracks, "lambda.csv"), ref.Amplitude)
 
@@ -256,8 +257,8 @@ print(json.dumps({"Trajectories": ds.sizes["trajectory"], "Obs": ds.sizes["obs"]
 		}
 	}
 	imgs := dataPNG.FindAllStringSubmatch(page, -1)
-	if n := strings.Count(page, "<img "); n != 10 || len(imgs) != 10 {
-		t.Errorf("report.html has %d images, %d embedded PNGs; want 10 and 10", n, len(imgs))
+	if n := strings.Count(page, "<img "); n != 11 || len(imgs) != 11 {
+		t.Errorf("report.html has %d images, %d embedded PNGs; want 11 and 11", n, len(imgs))
 	}
 	for i, m := range imgs {
 		b, err := base64.StdEncoding.DecodeString(html.UnescapeString(m[1]))
@@ -314,8 +315,8 @@ document.title = "PROBE " + im.length + " " + im.filter(i => i.complete && i.nat
 		if len(reqs) > 0 {
 			t.Errorf("the report made network requests: %v", reqs)
 		}
-		if !strings.Contains(dom, "<title>PROBE 10 10</title>") {
-			t.Errorf("Chromium did not decode the 10 images: %s", regexp.MustCompile(`<title>[^<]*</title>`).FindString(dom))
+		if !strings.Contains(dom, "<title>PROBE 11 11</title>") {
+			t.Errorf("Chromium did not decode the 11 images: %s", regexp.MustCompile(`<title>[^<]*</title>`).FindString(dom))
 		}
 		if n := checkSumCells(t, sectionOf(t, dom), raw, false); n != wantCells {
 			t.Errorf("Chromium's DOM shows %d checked cells, want %d", n, wantCells)
@@ -379,8 +380,8 @@ func breakingPartsAbsent(t *testing.T, full *Deployment) {
 	sum.Whitecaps, sum.Inception = nil, &inc
 	d.Summary, d.Whitecaps = &sum, nil
 	res, sec := page(&d)
-	if len(res.Figures) != 7 || res.Figures[6].Name != "fig7_bx_highest_crests" {
-		t.Errorf("B_x only: %d figures, the seventh %v; want 7 ending with fig7_bx_highest_crests", len(res.Figures), res.Figures[len(res.Figures)-1].Name)
+	if len(res.Figures) != 8 || res.Figures[7].Name != "fig8_bx_highest_crests" {
+		t.Errorf("B_x only: %d figures, the last %v; want 8 ending with fig8_bx_highest_crests", len(res.Figures), res.Figures[len(res.Figures)-1].Name)
 	}
 	for _, want := range []string{"No foam mask was analysed", "cannot be compared with whitecaps", `id="inception"`} {
 		if !strings.Contains(sec, want) {
@@ -396,9 +397,9 @@ func breakingPartsAbsent(t *testing.T, full *Deployment) {
 	sum.Inception = nil
 	d.Summary = &sum
 	res, sec = page(&d)
-	if len(res.Figures) != 9 || strings.Contains(sec, `id="inception"`) || !strings.Contains(sec, "B_x was not computed") &&
+	if len(res.Figures) != 10 || strings.Contains(sec, `id="inception"`) || !strings.Contains(sec, "B_x was not computed") &&
 		!strings.Contains(sec, "B<sub>x</sub> was not computed") {
-		t.Errorf("whitecaps only: %d figures (want 9), or the inception table is shown, or its absence is not said", len(res.Figures))
+		t.Errorf("whitecaps only: %d figures (want 10), or the inception table is shown, or its absence is not said", len(res.Figures))
 	}
 	// neither: one line, no figure, no table
 	src := t.TempDir()

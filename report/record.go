@@ -200,7 +200,8 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		RowsWithSpeed: len(rec.Rows) - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
 		Births: rec.Link.Births, Deaths: rec.Link.Deaths, GapsBridged: rec.Link.GapsBridged, Unmatched: rec.Link.Gated,
 		EndedByReason: rec.Link.Ended, Steps: rec.Link.Steps, StepResidualM: quantiles(rec.Link.Residuals),
-		ElevationJumpShare: rec.ElevationJumpShare,
+		StepResidualHistogram: histogram(rec.Link.Residuals, residualBins),
+		ElevationJumpShare:    rec.ElevationJumpShare,
 	}
 	s.Ratio = crestRatioStats(d.Crests, run.SteepnessBounds, stats.Options{}, 0)
 	s.Whitecaps = whitecapsSummary(rec.Whitecaps, d.Whitecaps, run.SteepnessBounds)
@@ -438,4 +439,37 @@ func quantiles(v []float64) *summary.QuantileSummary {
 	slices.Sort(w)
 	q := func(p float64) float64 { return w[int(math.Round(p*float64(len(w)-1)))] }
 	return &summary.QuantileSummary{N: len(w), P01: q(0.01), P05: q(0.05), P25: q(0.25), P50: q(0.5), P75: q(0.75), P95: q(0.95), P99: q(0.99)}
+}
+
+// residualBins is the number of bins of the step-residual histogram.
+const residualBins = 40
+
+// histogram bins v over [p01, p99] widened by a tenth on each side, in n
+// equal bins; nil for no values.
+func histogram(v []float64, n int) *summary.HistogramSummary {
+	q := quantiles(v)
+	if q == nil {
+		return nil
+	}
+	pad := 0.1 * (q.P99 - q.P01)
+	lo, hi := q.P01-pad, q.P99+pad
+	if !(hi > lo) {
+		lo, hi = q.P50-0.5, q.P50+0.5
+	}
+	h := &summary.HistogramSummary{EdgesM: make([]float64, n+1), Counts: make([]int, n)}
+	w := (hi - lo) / float64(n)
+	for i := range h.EdgesM {
+		h.EdgesM[i] = lo + float64(i)*w
+	}
+	for _, x := range v {
+		switch k := int(math.Floor((x - lo) / w)); {
+		case x < lo:
+			h.Below++
+		case k >= n:
+			h.Above++
+		default:
+			h.Counts[k]++
+		}
+	}
+	return h
 }

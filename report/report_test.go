@@ -99,8 +99,8 @@ func TestReportFromTrackFiles(t *testing.T) {
 			t.Errorf("output %s (%s) is missing or empty", name, p)
 		}
 	}
-	if len(res.Figures) != 6 {
-		t.Errorf("%d figures, want 6", len(res.Figures))
+	if len(res.Figures) != 7 {
+		t.Errorf("%d figures, want 7", len(res.Figures))
 	}
 	for _, f := range res.Figures {
 		img, err := png.Decode(bytes.NewReader(f.PNG))
@@ -151,8 +151,8 @@ func checkPage(t *testing.T, page string, summaryJSON []byte) {
 			t.Errorf("report.html contains %q", bad)
 		}
 	}
-	if n := strings.Count(s, "<img "); n != 6 || len(dataPNG.FindAllStringSubmatch(s, -1)) != 6 {
-		t.Errorf("report.html has %d images, %d of them embedded PNGs; want 6 and 6", n, len(dataPNG.FindAllStringSubmatch(s, -1)))
+	if n := strings.Count(s, "<img "); n != 7 || len(dataPNG.FindAllStringSubmatch(s, -1)) != 7 {
+		t.Errorf("report.html has %d images, %d of them embedded PNGs; want 7 and 7", n, len(dataPNG.FindAllStringSubmatch(s, -1)))
 	}
 	for i, m := range dataPNG.FindAllStringSubmatch(s, -1) {
 		b, err := base64.StdEncoding.DecodeString(html.UnescapeString(m[1])) // html/template writes + as &#43;
@@ -208,8 +208,8 @@ document.title = "PROBE " + im.length + " " + im.filter(i => i.complete && i.nat
 		fmt.Sscan(m[2], &nOK)
 		fmt.Sscan(m[3], &height)
 	}
-	if nImg != 6 || nOK != 6 {
-		t.Errorf("Chromium decoded %d of %d images, want 6 of 6", nOK, nImg)
+	if nImg != 7 || nOK != 7 {
+		t.Errorf("Chromium decoded %d of %d images, want 7 of 7", nOK, nImg)
 	}
 	if n := checkSumCells(t, dom, summaryJSON, false); n < 2*4*10 {
 		t.Errorf("Chromium's DOM shows %d checked cells, want at least the %d of the two statistics tables", n, 2*4*10)

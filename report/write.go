@@ -194,7 +194,8 @@ func figureInput(d *Deployment, res *Result, bounds []float64, opt Options) figu
 	}
 	in := figures.Input{Crests: d.Crests, Peak: res.Peak, Local: res.Local, Bounds: stats.ClassBounds(bounds),
 		Spectrum: figures.Spectrum{Freq: d.Spectrum.Cols[0], PSD: d.Spectrum.Cols[1]},
-		Sea:      d.Summary.SeaState, T0: t0, Highest: opt.HighestCrests, MinClassTracks: opt.MinClassTracks}
+		Sea:      d.Summary.SeaState, T0: t0, Highest: opt.HighestCrests, MinClassTracks: opt.MinClassTracks,
+		StepResiduals: d.Summary.Crests.StepResidualHistogram}
 	if g := d.GaugeSpectrum; g != nil && d.Summary.Gauge != nil {
 		in.Gauge = &figures.Gauge{Freq: g.Cols[0], Maps: g.Cols[1], Gauge: g.Cols[2], Summary: d.Summary.Gauge}
 	}

@@ -192,6 +192,9 @@ type Input struct {
 	Breaking *Breaking
 	// Gauge is the comparison with an in-situ series; nil without one.
 	Gauge *Gauge
+	// StepResiduals is the histogram of each tracking step's measured
+	// minus predicted advance; nil when no step was taken.
+	StepResiduals *summary.HistogramSummary
 }
 
 // figureInput is Input with the display range of the ratios and what
@@ -847,7 +850,7 @@ func (in *figureInput) scatterFigure() (func(draw.Canvas), int, error) {
 func Draw(input Input) (Output, error) {
 	in := &figureInput{Input: input}
 	in.ratioLo, in.ratioHi = displayRange(in.Peak, in.Local)
-	for _, step := range []func() error{in.pdfFigures, in.spaceTimeAndHighest, in.spectrumAndScatter} {
+	for _, step := range []func() error{in.pdfFigures, in.spaceTimeAndHighest, in.spectrumAndScatter, in.residualFigure} {
 		if err := step(); err != nil {
 			return Output{}, err
 		}
@@ -863,6 +866,51 @@ func Draw(input Input) (Output, error) {
 		}
 	}
 	return in.out, nil
+}
+
+// residualFigure draws the distribution of the tracking steps' residual
+// advance (figure 7), when steps were taken.
+func (in *figureInput) residualFigure() error {
+	h := in.StepResiduals
+	if h == nil {
+		return nil
+	}
+	n := h.Below + h.Above
+	for _, c := range h.Counts {
+		n += c
+	}
+	if n == 0 || len(h.EdgesM) != len(h.Counts)+1 {
+		return nil
+	}
+	w := h.EdgesM[1] - h.EdgesM[0]
+	hist := &plotter.Histogram{Width: w, FillColor: lightGrey}
+	hist.LineStyle = draw.LineStyle{Color: color.Gray{0xc4}, Width: vg.Points(0.3)}
+	top := 0.0
+	for i, c := range h.Counts {
+		d := float64(c) / (float64(n) * w) // density of all steps, those outside included
+		hist.Bins = append(hist.Bins, plotter.HistogramBin{Min: h.EdgesM[i], Max: h.EdgesM[i+1], Weight: d})
+		top = math.Max(top, d)
+	}
+	zero, err := xyLine([]float64{0, 0}, []float64{0, top}, color.Black, 1, vg.Points(3), vg.Points(3))
+	if err != nil {
+		return fmt.Errorf("figure fig7_step_residuals cannot be drawn: %w", err)
+	}
+	fn := func(dc draw.Canvas) {
+		p := newPlot()
+		p.X.Label.Text = "measured − predicted advance per step (m)"
+		p.Y.Label.Text = "probability density (1/m)"
+		p.Add(hist, zero)
+		p.Draw(dc)
+	}
+	outside := ""
+	if h.Below+h.Above > 0 {
+		outside = fmt.Sprintf(" %d of the %d steps lie outside the range drawn (%d below, %d above).", h.Below+h.Above, n, h.Below, h.Above)
+	}
+	return in.add("fig7_step_residuals", "Figure 7. Tracking steps against linear kinematics",
+		"Distribution of each frame-to-frame step's measured advance of the crest line minus the advance its linear prediction gives (the local "+
+			"linear phase speed × Δt); dashed: zero. A crest that moves at its carrier's phase speed lies at zero; one slower than that (short waves "+
+			"riding on it, a crest in a group) to the left. Steps outside the linear range of a crest's speed swing in its group are not taken "+
+			"(the track is split there; see the quality table)."+outside, "", figHeight, fn)
 }
 
 // Sizes of the figures.

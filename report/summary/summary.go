@@ -227,10 +227,22 @@ type CrestsSummary struct {
 	// its predicted advance (local linear phase speed × Δt), metres; and
 	// the share of steps whose crest elevation changed by more than 0.3
 	// Hm0.
-	EndedByReason      map[string]int   `json:"tracks_ended_by_reason,omitempty"`
-	Steps              int              `json:"steps"`
-	StepResidualM      *QuantileSummary `json:"step_residual_advance_m,omitempty"`
-	ElevationJumpShare float64          `json:"share_steps_elevation_change_over_0_3_hm0"`
+	EndedByReason map[string]int   `json:"tracks_ended_by_reason,omitempty"`
+	Steps         int              `json:"steps"`
+	StepResidualM *QuantileSummary `json:"step_residual_advance_m,omitempty"`
+	// StepResidualHistogram is the same distribution binned, for the
+	// report's figure.
+	StepResidualHistogram *HistogramSummary `json:"step_residual_advance_histogram,omitempty"`
+	ElevationJumpShare    float64           `json:"share_steps_elevation_change_over_0_3_hm0"`
+}
+
+// HistogramSummary is a distribution binned: Counts[i] values in
+// [EdgesM[i], EdgesM[i+1]); Below and Above count the values outside.
+type HistogramSummary struct {
+	EdgesM []float64 `json:"edges_m"`
+	Counts []int     `json:"counts"`
+	Below  int       `json:"below"`
+	Above  int       `json:"above"`
 }
 
 // QuantileSummary is a distribution by its quantiles.
