@@ -55,6 +55,20 @@ func (s *LinearSea) Eta(x, y, t float64) float64 {
 	return sum
 }
 
+// Filtered returns the sea with each component's amplitude multiplied by
+// gain(|k|), the components of zero gain left out: what a linear filter
+// in wavenumber leaves of the sea (linear superposition).
+func (s *LinearSea) Filtered(gain func(k float64) float64) *LinearSea {
+	out := &LinearSea{X0: s.X0, Y0: s.Y0, T0: s.T0, DepthM: s.DepthM}
+	for _, c := range s.Components {
+		if g := gain(c.K); g > 0 {
+			c.Amp *= g
+			out.Components = append(out.Components, c)
+		}
+	}
+	return out
+}
+
 // Variance returns Σ a_n²/2, the variance (m0) of the field at any point.
 func (s *LinearSea) Variance() float64 {
 	var v float64

@@ -67,12 +67,9 @@ func bandLimited(sea *samples.LinearSea, sum *report.Summary) (*samples.LinearSe
 	default:
 		return sea, ""
 	}
-	out := &samples.LinearSea{X0: sea.X0, Y0: sea.Y0, T0: sea.T0, DepthM: sea.DepthM}
-	for _, c := range sea.Components {
-		if g := speed.BandGainAt(c.K, sea.DepthM, lo, hi); g > 0 {
-			c.Amp *= g
-			out.Components = append(out.Components, c)
-		}
+	out := sea.Filtered(func(k float64) float64 { return speed.BandGainAt(k, sea.DepthM, lo, hi) })
+	if lo > 0 {
+		return out, fmt.Sprintf(" of the sea band-passed to %.2f–%.2f Hz as the maps were", lo, hi)
 	}
 	return out, fmt.Sprintf(" of the sea low-passed at %.2f Hz as the maps were", hi)
 }

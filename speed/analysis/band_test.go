@@ -45,26 +45,14 @@ func bandPassCase(t *testing.T, sc samples.Scenario, lo, hi, boundIn, boundAll f
 		t.Fatal(err)
 	}
 	nx, ny, dx := sc.Grid.Nx, sc.Grid.Ny, sc.Grid.DxM
-	xs, ys := make([]float64, nx), make([]float64, ny)
-	for i := range xs {
-		xs[i] = float64(i) * dx
-	}
-	for i := range ys {
-		ys[i] = float64(i) * dx
-	}
+	xs, ys := sc.Grid.Axes()
 	fp := 1 / sc.JONSWAP.TpS
 	bp, err := speed.NewBandPass(nx, ny, dx, dx, 0, lo*fp, hi*fp)
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer bp.Close()
-	band := &samples.LinearSea{X0: sea.X0, Y0: sea.Y0, T0: sea.T0, DepthM: sea.DepthM}
-	for _, c := range sea.Components {
-		if g := bp.Gain(c.K); g > 0 {
-			c.Amp *= g
-			band.Components = append(band.Components, c)
-		}
-	}
+	band := sea.Filtered(bp.Gain)
 	eta, want := make([]float32, nx*ny), make([]float32, nx*ny)
 	if err := samples.NewFrameEvaluator(sea, xs, ys, 2).Frame(3.7, eta); err != nil {
 		t.Fatal(err)
@@ -149,13 +137,7 @@ func TestDominantBandCrestSpeedExact(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer bp.Close()
-	band := &samples.LinearSea{X0: sea.X0, Y0: sea.Y0, T0: sea.T0, DepthM: sea.DepthM}
-	for _, c := range sea.Components {
-		if gain := bp.Gain(c.K); gain > 0 {
-			c.Amp *= gain
-			band.Components = append(band.Components, c)
-		}
-	}
+	band := sea.Filtered(bp.Gain)
 	r, notMax := exactRatios(t, rec, band)
 	medAll, _ := medianOf(recAll.Rows, func(r speed.CrestRow) float64 { return r.RatioPeak })
 	medDom, _ := medianOf(rec.Rows, func(r speed.CrestRow) float64 { return r.RatioPeak })
