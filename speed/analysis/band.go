@@ -26,15 +26,17 @@ type bandSource struct {
 	work []float32
 }
 
-func newBandSource(src Source, mean []float32, rec *Record, fp [2]float64) (*bandSource, error) {
+// newBandSource reads src through the band fp (multiples of the record's
+// F_p), and returns the band in all its units.
+func newBandSource(src Source, mean []float32, rec *Record, fp [2]float64) (*bandSource, *Band, error) {
 	g := rec.Meta.Grid
 	ss := rec.SeaState
 	bp, err := speed.NewBandPass(g.Nx(), g.Ny(), g.Dx(), g.Dy(), rec.Refs.DepthM, fp[0]*ss.Fp, fp[1]*ss.Fp)
 	if err != nil {
-		return nil, fmt.Errorf("%w: dominant_band_fp %v: %w", ErrSetting, fp, err)
+		return nil, nil, fmt.Errorf("%w: dominant_band_fp %v: %w", ErrSetting, fp, err)
 	}
-	rec.Band = &Band{LowFp: fp[0], HighFp: fp[1], LowHz: bp.LowHz, HighHz: bp.HighHz, LowK: bp.LowK, HighK: bp.HighK}
-	return &bandSource{Source: src, bp: bp, mean: mean, work: make([]float32, g.Nx()*g.Ny())}, nil
+	b := &Band{LowFp: fp[0], HighFp: fp[1], LowHz: bp.LowHz, HighHz: bp.HighHz, LowK: bp.LowK, HighK: bp.HighK}
+	return &bandSource{Source: src, bp: bp, mean: mean, work: make([]float32, g.Nx()*g.Ny())}, b, nil
 }
 
 func (b *bandSource) Next(f *ingest.Frame) error {

@@ -10,7 +10,10 @@
 //     accumulated on the way. The reference phase speeds follow from Tp,
 //     depth, current and vorticity.
 //  2. Crests: every frame's crests are detected on the workers
-//     (tracking.Detector), handed back in frame order (internal/workpool),
+//     (tracking.Detector) — on the maps as they are, band-passed to the
+//     dominant waves when asked (Options.DominantBandFp), or low-passed
+//     where the spectrum falls below twice its noise floor when it has one
+//     (Options.NoiseLowPass) — handed back in frame order (internal/workpool),
 //     linked into tracks (tracking.Linker) and, when the record has a foam
 //     mask, its whitecaps extracted and linked (speed.WhitecapAnalyser).
 //     Crest speeds, references and ratios are then computed per track
@@ -81,14 +84,16 @@ func Run(ctx context.Context, src Source, opt Options) (*Record, error) {
 		}
 	}
 	if band[1] > 0 {
-		bs, err := newBandSource(src, mean, rec, band)
+		bs, b, err := newBandSource(src, mean, rec, band)
 		if err != nil {
 			return nil, err
 		}
 		defer bs.Close()
 		crestSrc, crestMean = bs, make([]float32, len(mean))
 		if lowPass {
-			rec.NoiseLowPassHz, rec.Band = rec.Band.HighHz, nil
+			rec.NoiseLowPassHz = b.HighHz
+		} else {
+			rec.Band = b
 		}
 	}
 	wa, err := rec.crestPass(ctx, crestSrc, crestMean, opt)
