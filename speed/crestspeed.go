@@ -37,26 +37,12 @@ func det3(a [3][3]float64) float64 {
 }
 
 // CrestTip is what a crest row keeps of its tracking.Crest: the tip and
-// the crest's measures, without the segment's extent and crest line that
-// only linking needs (a row is held for every crest of every frame of the
+// the crest's measures (a row is held for every crest of every frame of the
 // record, so it keeps no more than its table and the later passes read).
-type CrestTip struct {
-	Frame      int     // frame index in the record
-	Time       float64 // seconds
-	X, Y       float64 // tip position, metres
-	S, N       float64 // tip position along and across θ0, metres
-	Elevation  float64 // a_c, metres above the mean level
-	Width      float64 // zero-crossing width w_c at the tip, metres
-	Wavelength float64 // down-crossing to down-crossing at the tip, metres; NaN if not enclosed
-	Length     float64 // segment length across θ0, metres
-	SlopeSN    float64 // ds/dn of the crest line near the tip (see tracking.Crest)
-}
+type CrestTip = tracking.Tip
 
 // TipOf is the part of c a crest row keeps.
-func TipOf(c tracking.Crest) CrestTip {
-	return CrestTip{Frame: c.Frame, Time: c.Time, X: c.X, Y: c.Y, S: c.S, N: c.N, Elevation: c.Elevation,
-		Width: c.Width, Wavelength: c.Wavelength, Length: c.Length, SlopeSN: c.SlopeSN}
-}
+func TipOf(c tracking.Crest) CrestTip { return c.Tip }
 
 // CrestRow is one crest tip in one frame with its speed and references.
 type CrestRow struct {

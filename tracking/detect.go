@@ -60,22 +60,29 @@ type DetectOptions struct {
 	EdgeCrests bool
 }
 
-// Crest is one crest segment in one frame, described by its tip.
-type Crest struct {
+// Tip is a crest segment's tip and measures in one frame: what a crest
+// row keeps of its crest (speed.CrestRow), without the segment's extent
+// and crest line that only linking needs.
+type Tip struct {
 	Frame      int     // frame index in the record
 	Time       float64 // seconds
 	X, Y       float64 // tip position, metres
 	S, N       float64 // tip position along and across θ0, metres
 	Elevation  float64 // a_c, metres above the mean level
-	Width      float64 // zero-crossing width w_c at the tip, metres
+	Width      float64 // zero-crossing width w_c at the tip, metres; NaN at the grid's edge (DetectOptions.EdgeCrests)
 	Wavelength float64 // down-crossing to down-crossing at the tip, metres; NaN if not enclosed
 	Length     float64 // segment length across θ0, metres
-	Points     int     // crest points in the segment
-	NMin, NMax float64 // extent of the segment across θ0, metres
 	// SlopeSN is ds/dn of the crest line near the tip (least squares over
 	// the crest points within one crest width of the tip across θ0): the
 	// crest is oblique to the θ0 lines when it is non-zero.
 	SlopeSN float64
+}
+
+// Crest is one crest segment in one frame, described by its tip.
+type Crest struct {
+	Tip
+	Points     int     // crest points in the segment
+	NMin, NMax float64 // extent of the segment across θ0, metres
 	// Path is the distance the crest has travelled along θ0 since its track
 	// began, plus the along-θ0 position of its first tip: the running sum of
 	// the frame-to-frame advances measured on the crest line at the new
@@ -572,9 +579,9 @@ func (d *Detector) segments(frame int, t float64, sc *Scratch) []Crest {
 			poly[k] = float32(pts[m].s)
 		}
 		out = append(out, Crest{
-			Frame: frame, Time: t, X: x, Y: y, S: p.s, N: p.n,
-			Elevation: p.a, Width: p.width, Wavelength: p.wavelength,
-			Length: length, Points: s.count, NMin: s.nmin, NMax: s.nmax, SlopeSN: slope,
+			Tip: Tip{Frame: frame, Time: t, X: x, Y: y, S: p.s, N: p.n,
+				Elevation: p.a, Width: p.width, Wavelength: p.wavelength, Length: length, SlopeSN: slope},
+			Points: s.count, NMin: s.nmin, NMax: s.nmax,
 			Path: p.s, poly: poly, polyN0: pts[s.members[0]].n, polyStep: d.step,
 		})
 	}

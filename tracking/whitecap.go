@@ -367,12 +367,13 @@ func NewFront(frame int, t float64, theta, n0, step float64, front []float64) (c
 	cs, sn2 := math.Cos(theta), math.Sin(theta)
 	length := float64(bestLen) * step
 	return Crest{
-		Frame: frame, Time: t,
-		X: s*cs - nTip*sn2, Y: s*sn2 + nTip*cs, S: s, N: nTip,
-		Elevation: math.NaN(), Width: length, Wavelength: math.NaN(),
-		Length: length, Points: bestLen,
-		NMin: n0 + float64(best0)*step, NMax: n0 + float64(best0+bestLen-1)*step,
-		SlopeSN: slope, Path: s,
+		Tip: Tip{Frame: frame, Time: t,
+			X: s*cs - nTip*sn2, Y: s*sn2 + nTip*cs, S: s, N: nTip,
+			Elevation: math.NaN(), Width: length, Wavelength: math.NaN(),
+			Length: length, SlopeSN: slope},
+		Points: bestLen,
+		NMin:   n0 + float64(best0)*step, NMax: n0 + float64(best0+bestLen-1)*step,
+		Path: s,
 		poly: poly, polyN0: n0 + float64(best0)*step, polyStep: step,
 	}, true
 }
