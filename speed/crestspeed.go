@@ -89,8 +89,10 @@ func (r References) Predict(c tracking.Crest) float64 {
 
 // TrackRows computes, for every crest of a track, the crest speed (local
 // quadratic fit of the crest's path along θ0 over a window of ±half
-// seconds; the path advances frame to frame by the displacement of the
-// crest line at the new tip's cross-position, see tracking.Crest.Path), the two reference phase speeds and the ratios (docs/methods.md, Crests).
+// seconds holding at least three samples, one either side; the path
+// advances frame to frame by the displacement of the crest line at the new
+// tip's cross-position, see tracking.Crest.Path), the two reference phase
+// speeds and the ratios (docs/methods.md, Crests).
 // The local reference is the median of the per-frame local phase speeds over
 // the same window, which smooths the zero-crossing wavelength along the track
 // and resists the occasional jump of a crossing.
@@ -107,7 +109,7 @@ func TrackRows(tr tracking.Track, ref References, half float64, dst []CrestRow) 
 	for i, c := range tr.Crests {
 		row := CrestRow{TrackID: tr.ID, CrestTip: TipOf(c), Steepness: c.Steepness(), PhaseSpeedPeak: ref.PeakPhaseSpeed,
 			SurfaceSpeed: math.NaN(), BreakingIndex: math.NaN()}
-		row.CrestSpeed, _ = LocalQuadraticSlope(t, s, i, half, 5)
+		row.CrestSpeed, _ = LocalQuadraticSlope(t, s, i, half, 3)
 		win = win[:0]
 		for j := i; j >= 0 && t[i]-t[j] <= half+1e-9; j-- {
 			if !math.IsNaN(cl[j]) {

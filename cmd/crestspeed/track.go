@@ -57,7 +57,7 @@ folder, then the report (report.html, figures, crest_tracks.nc; see
 	f.Float64("current-direction", 0, "direction the current flows toward (degrees counter-clockwise from +x)")
 	f.Float64("vorticity", 0, "dU/dz of a linear shear current (1/s); positive: current grows toward the surface along the wave direction")
 	f.Int("max-gap", 0, "frames a track may miss and continue")
-	f.Float64("window", 0, "crest-speed fit window (s); 0 = Tp/4")
+	f.Float64("window", 0, "crest-speed fit window (s); 0 = Tp/8")
 	f.Bool("no-report", false, "skip the report after tracking")
 	f.String("gauge", "", "in-situ elevation series to compare the maps with (CSV time_s|utc,eta_m, or CF NetCDF)")
 	f.Float64("gauge-x", 0, "x of the gauge on the grid (m)")

@@ -372,7 +372,7 @@ func TestMismatchedSettings(t *testing.T) {
 		{"steepness definition", "the steepness definition", func(m map[string]any) {
 			m["method"].(map[string]any)["steepness"] = "S_c = a_c k_p"
 		}},
-		{"speed window", "the crest-speed window setting track.speed_window_s (0 = Tp/4)", func(m map[string]any) {
+		{"speed window", "the crest-speed window setting track.speed_window_s (0 = Tp/8)", func(m map[string]any) {
 			m["config"].(map[string]any)["track"].(map[string]any)["speed_window_s"] = 1.5
 		}},
 		{"foam patch", "the smallest whitecap patch kept, track.min_foam_patch_area_m2", func(m map[string]any) {

@@ -87,7 +87,7 @@ var referenceSettings = []refSetting{
 	{name: "the peak reference speed c_p", method: "peak_reference"},
 	{name: "the local reference speed c_loc", method: "local_reference"},
 	{name: "the crest-speed estimator", method: "crest_speed"},
-	{name: "the crest-speed window setting track.speed_window_s (0 = Tp/4)", config: []string{"track", "speed_window_s"}},
+	{name: "the crest-speed window setting track.speed_window_s (0 = Tp/8)", config: []string{"track", "speed_window_s"}},
 	{name: "the smallest crest kept, track.min_crest_fraction_hm0", config: []string{"track", "min_crest_fraction_hm0"}},
 	{name: "the shortest crest kept, track.min_crest_length_m", config: []string{"track", "min_crest_length_m"}},
 	{name: "the smallest whitecap patch kept, track.min_foam_patch_area_m2", config: []string{"track", "min_foam_patch_area_m2"}, whitecaps: true},

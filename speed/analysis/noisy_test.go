@@ -45,10 +45,10 @@ func (s *noisySource) Next(f *ingest.Frame) error {
 // clean maps. The maps carry a noise floor, so crests are found on them
 // low-passed where the spectrum falls below twice the floor
 // (Options.NoiseLowPass), the unknown cells filled from their neighbours
-// for the filter. Measured: clean 1.039 (IQR 1.013–1.092, 1 752 rows);
-// noisy and masked 1.047 (0.942–1.175, 1 482 rows); noise alone 1.044,
-// masking alone 1.041. Without the low-pass and the filling, 1.095 over
-// 704 rows.
+// for the filter. Measured: clean 1.026 (IQR 1.005–1.052, 2 434 rows);
+// noisy and masked 1.024 (0.885–1.180, 2 181 rows). With the Tp/4 speed
+// window of before, 1.034 (1.008–1.082, 1 761 rows) and 1.034 (0.933–1.160,
+// 1 490 rows); without the low-pass and the filling, 1.095 over 704 rows.
 func TestNoisyMaskedCrestSpeedExact(t *testing.T) {
 	sc := shortCrested(10, 0, 22)
 	path := filepath.Join(t.TempDir(), "rec.nc")

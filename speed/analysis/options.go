@@ -36,7 +36,8 @@ type Options struct {
 	// (default 2).
 	MaxGapFrames int `yaml:"max_gap_frames"`
 	// SpeedWindowS is the full width of the crest-speed fit window in
-	// seconds; 0 = Tp/4 (default).
+	// seconds; 0 = Tp/8, at least two frame intervals (default,
+	// DefaultSpeedWindow).
 	SpeedWindowS float64 `yaml:"speed_window_s"`
 	// BreakingIndex turns on the breaking-inception index: the linear
 	// surface speed from a dispersion-filtered 3-D FFT
@@ -72,8 +73,9 @@ type Options struct {
 	// speed.DefaultBxThreshold, 0.855; 0 means that default).
 	BxThreshold float64 `yaml:"bx_threshold"`
 	// Whitecaps turns on whitecap analysis for records with a foam mask
-	// (default on), with the settings in Breaking; its SpeedWindowS and
-	// MaxGapFrames are taken from this record's.
+	// (default on), with the settings in Breaking; its MaxGapFrames is
+	// this record's, and its SpeedWindowS this record's SpeedWindowS when
+	// that is set, else Tp/4.
 	Whitecaps bool                  `yaml:"whitecaps"`
 	Breaking  speed.BreakingOptions `yaml:",inline"`
 	// Probe, when set, samples the maps at a point (a virtual wave gauge)
@@ -136,7 +138,7 @@ func (o Options) Validate() error {
 	case o.MaxGapFrames < 0 || o.MaxGapFrames > 100:
 		return settingErr("max_gap_frames %d is outside 0–100", o.MaxGapFrames)
 	case !(o.SpeedWindowS >= 0 && o.SpeedWindowS <= 600):
-		return settingErr("speed_window_s %g s is outside 0–600 s (0 = Tp/4)", o.SpeedWindowS)
+		return settingErr("speed_window_s %g s is outside 0–600 s (0 = Tp/8)", o.SpeedWindowS)
 	case !(o.BxThreshold >= 0 && o.BxThreshold < 5):
 		return settingErr("bx_threshold %g is outside 0–5 (0 = %g)", o.BxThreshold, speed.DefaultBxThreshold)
 	case len(o.DominantBandFp) != 0 && (len(o.DominantBandFp) != 2 || !(o.DominantBandFp[0] >= 0 && o.DominantBandFp[1] > o.DominantBandFp[0] && o.DominantBandFp[1] <= 20)):

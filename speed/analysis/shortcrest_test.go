@@ -51,15 +51,16 @@ func quantile(v []float64, q float64) float64 {
 
 // Crest speeds on short-crested seas against the exact linear crest speed
 // at each tip: for spreading s = 4, 10 and 30, in deep water and at
-// k_p h ≈ 1. Measured (medians, IQR): s=4 1.030 (0.988–1.087), s=10 1.034
-// (1.008–1.082), s=30 1.027 (1.007–1.059), s=10 at kh≈1 1.027
-// (1.004–1.056); before the neighbour lines' advance was taken at the
-// tip's slope, 1.040, 1.039, 1.028 and 1.030; before the crest-line
-// advance was taken at the tip and steps were gated, 1.202, 1.203, 1.088
-// and 1.112. The target is 0.97–1.03; the bound here, 0.97–1.04, holds
-// what is reached so that a regression fails. About half of what remains
-// is the speed window: against the mean of the exact speed over the same
-// window of the same track the medians are 1.012 (s=4) and 1.017 (s=10).
+// k_p h ≈ 1; the median of measured/exact must lie within 0.97–1.03.
+// Measured (medians, IQR) with the default Tp/8 speed window (here a frame
+// either side of the tip): s=4 1.020 (0.990–1.052), s=10 1.026
+// (1.005–1.052), s=30 1.022 (1.008–1.041), s=10 at kh≈1 1.021
+// (1.004–1.041). With a Tp/4 window, 1.030, 1.034, 1.027 and 1.027: a
+// crest is slowest where its group peaks, which is where its tip is found,
+// so a longer window averages in the faster speeds either side. Before the
+// neighbour lines' advance was taken at the tip's slope, 1.040, 1.039,
+// 1.028 and 1.030; before the crest-line advance was taken at the tip and
+// steps were gated, 1.202, 1.203, 1.088 and 1.112.
 func TestShortCrestedCrestSpeedExact(t *testing.T) {
 	// k_p h = 1 at Tp 2.6 s: ω² = g k tanh(kh) with kh = 1 gives
 	// k = ω²/(g tanh 1) = 0.782 rad/m, h = 1.28 m.
@@ -96,8 +97,8 @@ func TestShortCrestedCrestSpeedExact(t *testing.T) {
 			if ended != rec.Link.Deaths || len(rec.Link.Residuals) != rec.Link.Steps || rec.Link.Ended[analysis.SplitAdvance] == 0 {
 				t.Errorf("link statistics: %d ended by reason, %d deaths; %d residuals for %d steps; %v", ended, rec.Link.Deaths, len(rec.Link.Residuals), rec.Link.Steps, rec.Link.Ended)
 			}
-			if m := quantile(r, 0.5); len(r) < 200 || !(m >= 0.97 && m <= 1.04) {
-				t.Errorf("%s: median measured/exact %.3f over %d rows; want 0.97–1.04", c.name, m, len(r))
+			if m := quantile(r, 0.5); len(r) < 200 || !(m >= 0.97 && m <= 1.03) {
+				t.Errorf("%s: median measured/exact %.3f over %d rows; want 0.97–1.03", c.name, m, len(r))
 			}
 		})
 	}
