@@ -88,6 +88,13 @@ func TestShortCrestedCrestSpeedExact(t *testing.T) {
 			area := float64(g.Nx*g.Ny) * g.DxM * g.DyM
 			t.Logf("%s: %d rows with speed (%.3f per m² s), %d without an exact maximum; measured/exact median %.3f, IQR %.3f–%.3f; ended %v",
 				c.name, len(r), float64(len(r))/(area*g.Duration), notMax, quantile(r, 0.5), quantile(r, 0.25), quantile(r, 0.75), rec.Link.Ended)
+			res := make([]float64, len(rec.Link.Residuals))
+			for k, v := range rec.Link.Residuals {
+				res[k] = v / (rec.Refs.PeakPhaseSpeed * rec.FrameInterval)
+			}
+			sort.Float64s(res)
+			t.Logf("%s: step residual advance / (c_p Δt), q01 q05 q25 q50 q75 q95 q99: %+.2f %+.2f %+.2f %+.2f %+.2f %+.2f %+.2f",
+				c.name, quantile(res, 0.01), quantile(res, 0.05), quantile(res, 0.25), quantile(res, 0.5), quantile(res, 0.75), quantile(res, 0.95), quantile(res, 0.99))
 			// The tracking-quality figures: every track ended once, for a
 			// reason; one residual per step taken.
 			ended := 0
