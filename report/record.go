@@ -7,9 +7,12 @@ package report
 // this file alone.
 
 import (
+	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"sort"
 	"time"
@@ -129,12 +132,35 @@ var coverageFields = []field[speed.CoverageRow]{
 // tablesOf makes the tables of an analysed record, rounded to the
 // precision of their files.
 func tablesOf(rec *analysis.Record) *Deployment {
+	d := otherTables(rec)
+	d.Crests = fill(table.Crests, rec.Rows, crestFields)
+	return d
+}
+
+// crestsBlock is how many crest rows are made into a table at a time when
+// crests.csv is written (about 1.3 MB of table; a variable for the tests).
+var crestsBlock = 8192
+
+// writeCrests writes crests.csv from the rows, a block of rows at a time:
+// the file is the one the whole table (tablesOf) would write.
+func writeCrests(w io.Writer, rows []speed.CrestRow) error {
+	bw := table.NewBlockWriter(w, table.Crests)
+	for lo := 0; lo < len(rows); lo += crestsBlock {
+		if err := bw.Write(fill(table.Crests, rows[lo:min(lo+crestsBlock, len(rows))], crestFields)); err != nil {
+			return err
+		}
+	}
+	return bw.Close()
+}
+
+// otherTables makes the tables of an analysed record but the crest table.
+func otherTables(rec *analysis.Record) *Deployment {
 	ss := rec.SeaState
 	sp := table.New(table.Spectrum, len(ss.Freqs))
 	copy(sp.Cols[0], ss.Freqs)
 	copy(sp.Cols[1], ss.PSD)
 	sp.Round()
-	d := &Deployment{Crests: fill(table.Crests, rec.Rows, crestFields), Spectrum: sp}
+	d := &Deployment{Spectrum: sp}
 	if wc := rec.Whitecaps; wc != nil {
 		d.Whitecaps = &WhitecapTables{
 			Rows:     fill(table.Whitecaps, wc.Rows, whitecapFields),
@@ -196,8 +222,8 @@ func buildSummary(rec *analysis.Record, d *Deployment, run RunInfo) *Summary {
 		s.SeaState.DirectionToTrue, s.SeaState.DirectionFromTrue = summary.TrueBearings(s.SeaState.MeanDirection, st.GridHeading)
 	}
 	s.Crests = summary.CrestsSummary{
-		Detections: rec.Detections, Tracks: rec.TrackCount, Rows: len(rec.Rows),
-		RowsWithSpeed: len(rec.Rows) - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
+		Detections: rec.Detections, Tracks: rec.TrackCount, Rows: d.Crests.Len(),
+		RowsWithSpeed: d.Crests.Len() - rec.RowsWithoutSpeed, RowsWithoutSpeed: rec.RowsWithoutSpeed,
 		Births: rec.Link.Births, Deaths: rec.Link.Deaths, GapsBridged: rec.Link.GapsBridged, Unmatched: rec.Link.Gated,
 		EndedByReason: rec.Link.Ended, Steps: rec.Link.Steps, StepResidualM: quantiles(rec.Link.Residuals),
 		StepResidualHistogram: histogram(rec.Link.Residuals, residualBins),
@@ -300,16 +326,20 @@ func trackMethod(rec *analysis.Record, run RunInfo) map[string]any {
 // first and renamed together at the end, so a failure leaves none of
 // them behind.
 func WriteTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, error) {
-	sum, _, err := writeTrackOutputs(dir, rec, run)
+	sum, _, err := writeTrackOutputs(dir, rec, run, false)
 	return sum, err
 }
 
 // WriteTrackOutputsForReport is WriteTrackOutputs that also returns the
-// report input made from the same tables (as DeploymentFromRecord would),
-// so that the record's crest rows are turned into a table once: once it
-// returns, rec.Rows is no longer needed by the report and may be let go.
+// report input made from the same tables (as DeploymentFromRecord would).
+// It lets the record's crest rows go (rec.Rows is nil when it returns):
+// crests.csv is written from the rows a block at a time, the rows are
+// released, and the crest table of the summary and the report is read back
+// from the file, so the rows and the whole table are never held together.
+// The numbers are the same: a table's values are those of its file
+// (table.Column.Round).
 func WriteTrackOutputsForReport(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
-	sum, d, err := writeTrackOutputs(dir, rec, run)
+	sum, d, err := writeTrackOutputs(dir, rec, run, true)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -321,13 +351,23 @@ func WriteTrackOutputsForReport(dir string, rec *analysis.Record, run RunInfo) (
 	return sum, d, nil
 }
 
-func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary, *Deployment, error) {
-	d := tablesOf(rec)
-	d.GaugeSpectrum = gaugeSpectrum(run.Gauge)
-	sum := buildSummary(rec, d, run)
+func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo, release bool) (*Summary, *Deployment, error) {
 	var fs fileSet
 	defer fs.abort()
-	files := map[string]*table.Table{"crests.csv": d.Crests, "tracks.csv": table.SummariseTracks(d.Crests), "spectrum.csv": d.Spectrum}
+	if err := fs.write(dir, "crests.csv", func(f *os.File) error { return writeCrests(f, rec.Rows) }); err != nil {
+		return nil, nil, err
+	}
+	crests, err := readBackCrests(fs.tmp[len(fs.tmp)-1], rec, release)
+	if err != nil {
+		return nil, nil, err
+	}
+	d := otherTables(rec)
+	d.Crests = crests
+	d.GaugeSpectrum = gaugeSpectrum(run.Gauge)
+	sum := buildSummary(rec, d, run)
+	abs, _ := filepath.Abs(filepath.Join(dir, "crests.csv"))
+	sum.Outputs["crests.csv"] = abs
+	files := map[string]*table.Table{"tracks.csv": table.SummariseTracks(d.Crests), "spectrum.csv": d.Spectrum}
 	if w := d.Whitecaps; w != nil {
 		files["whitecaps.csv"], files["lambda.csv"], files["coverage.csv"] = w.Rows, w.Lambda, w.Coverage
 	}
@@ -345,7 +385,7 @@ func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 		abs, _ := filepath.Abs(filepath.Join(dir, name))
 		sum.Outputs[name] = abs
 	}
-	abs, _ := filepath.Abs(filepath.Join(dir, "summary.json"))
+	abs, _ = filepath.Abs(filepath.Join(dir, "summary.json"))
 	sum.Outputs["summary.json"] = abs
 	js, err := sum.JSON()
 	if err != nil {
@@ -358,6 +398,23 @@ func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo) (*Summary,
 		return nil, nil, err
 	}
 	return sum, d, nil
+}
+
+// readBackCrests returns the crest table of the crests.csv just written to
+// path from rec.Rows; with release, the rows are let go (and collected)
+// before the table is read.
+func readBackCrests(path string, rec *analysis.Record, release bool) (*table.Table, error) {
+	if !release || len(rec.Rows) == 0 {
+		// (a file with no rows is not a table the reader accepts)
+		return fill(table.Crests, rec.Rows, crestFields), nil
+	}
+	rec.Rows = nil
+	runtime.GC()
+	t, err := table.ReadFile(path, table.Crests)
+	if err != nil {
+		return nil, fmt.Errorf("the crest table just written cannot be read back: %w", err)
+	}
+	return t, nil
 }
 
 // DeploymentFromRecord makes the report input from an analysed record and

@@ -23,6 +23,7 @@ import (
 	"testing"
 	"time"
 
+	"crestspeed/report/stats"
 	"crestspeed/report/summary"
 	"crestspeed/report/table"
 )
@@ -420,5 +421,54 @@ func TestReportWithoutSpeeds(t *testing.T) {
 	}
 	if s := res.Summary.Ratio["peak"].All; s.N != 0 || !math.IsNaN(s.Median) || s.MedianCI.Known() {
 		t.Errorf("statistics of no values: %+v", s)
+	}
+}
+
+// The tracking stage's own path (WriteTrackOutputsForReport): crests.csv
+// is written a block of rows at a time and read back once the rows are let
+// go. Its files are those WriteTrackOutputs writes from the whole table,
+// byte for byte (the record spans several blocks), its crest table and
+// summary are those of the in-memory tables to the last bit, and the rows
+// are released.
+func TestTrackOutputsForReportReadBack(t *testing.T) {
+	tracks, rec := trackDir(t)
+	defer func(n int) { crestsBlock = n }(crestsBlock)
+	crestsBlock = 1000
+	if len(rec.Rows) <= 2*crestsBlock {
+		t.Fatalf("%d crest rows: the record needs several blocks of %d", len(rec.Rows), crestsBlock)
+	}
+	whole := tablesOf(rec)
+	rows := len(rec.Rows)
+	dir := filepath.Join(t.TempDir(), "tracks")
+	sum, d, err := WriteTrackOutputsForReport(dir, rec, RunInfo{Version: "test", Config: map[string]any{"test": true},
+		SteepnessBounds: []float64{0.1, 0.2}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rec.Rows != nil {
+		t.Errorf("the crest rows are still held (%d)", len(rec.Rows))
+	}
+	if d.Crests.Len() != rows || sum.Crests.Rows != rows {
+		t.Fatalf("crest table %d rows, summary %d, record %d", d.Crests.Len(), sum.Crests.Rows, rows)
+	}
+	for k, col := range whole.Crests.Cols {
+		for i, v := range col {
+			if w := d.Crests.Cols[k][i]; math.Float64bits(v) != math.Float64bits(w) && !(math.IsNaN(v) && math.IsNaN(w)) {
+				t.Fatalf("%s row %d: read back %v, in memory %v", table.Crests.Columns[k].Name, i, w, v)
+			}
+		}
+	}
+	for _, name := range []string{"crests.csv", "tracks.csv", "spectrum.csv"} {
+		a, errA := os.ReadFile(filepath.Join(tracks, name))
+		b, errB := os.ReadFile(filepath.Join(dir, name))
+		if errA != nil || errB != nil || !bytes.Equal(a, b) {
+			t.Errorf("%s differs from the one written from the whole table (%v, %v)", name, errA, errB)
+		}
+	}
+	mem := crestRatioStats(whole.Crests, []float64{0.1, 0.2}, stats.Options{}, 0)
+	a, _ := json.Marshal(mem)
+	b, _ := json.Marshal(sum.Ratio)
+	if !bytes.Equal(a, b) {
+		t.Errorf("summary statistics differ from those of the in-memory table:\n%s\n%s", b, a)
 	}
 }

@@ -220,8 +220,8 @@ func track(ctx context.Context, con *console, cfg Config, created time.Time) (*r
 	printTrackSummary(con, sum)
 	printBreaking(con, sum)
 	con.logf("track: wrote %s in %s", dir, elapsed(started))
-	// The report works from the tables alone: let the crest rows go.
-	rec.Rows = nil
+	// (WriteTrackOutputsForReport has let the crest rows go: the report
+	// works from the tables alone.)
 	if tc.Report {
 		if err := writeReport(con, cfg, d, dir, time.Now(), created); err != nil {
 			return nil, err

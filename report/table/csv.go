@@ -50,35 +50,76 @@ func (e *Error) Unwrap() error { return e.Err }
 // Write writes the table as CSV: the header, then one line per row, every
 // field as its column's Append writes it.
 func (t *Table) Write(w io.Writer) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write(t.Schema.Names()); err != nil {
+	bw := NewBlockWriter(w, t.Schema)
+	if err := bw.Write(t); err != nil {
 		return err
 	}
-	rec := make([]string, len(t.Cols))
-	var buf []byte
-	ends := make([]int, 0, len(t.Cols))
+	return bw.Close()
+}
+
+// BlockWriter writes one table file from tables of the same schema given
+// in turn (blocks of its rows): the file is the one Write makes of all the
+// blocks' rows in one table, so a long table need not be held whole.
+type BlockWriter struct {
+	cw     *csv.Writer
+	s      *Schema
+	header bool
+	rec    []string
+	buf    []byte
+	ends   []int
+}
+
+// NewBlockWriter returns a BlockWriter of schema s writing to w.
+func NewBlockWriter(w io.Writer, s *Schema) *BlockWriter {
+	return &BlockWriter{cw: csv.NewWriter(w), s: s, rec: make([]string, len(s.Columns))}
+}
+
+// Write appends the rows of t, whose schema must be the writer's.
+func (b *BlockWriter) Write(t *Table) error {
+	if t.Schema != b.s {
+		return fmt.Errorf("a block of %s given to the writer of %s", t.Schema.File, b.s.File)
+	}
+	if err := b.writeHeader(); err != nil {
+		return err
+	}
 	for i := 0; i < t.Len(); i++ {
-		buf, ends = buf[:0], ends[:0]
+		b.buf, b.ends = b.buf[:0], b.ends[:0]
 		for k := range t.Cols {
 			if t.Schema.Columns[k].Kind == Text {
-				buf = append(buf, t.Text[k][i]...)
+				b.buf = append(b.buf, t.Text[k][i]...)
 			} else {
-				buf = t.Schema.Columns[k].Append(buf, t.Cols[k][i])
+				b.buf = t.Schema.Columns[k].Append(b.buf, t.Cols[k][i])
 			}
-			ends = append(ends, len(buf))
+			b.ends = append(b.ends, len(b.buf))
 		}
-		s := string(buf) // one string per row; the fields share it
+		s := string(b.buf) // one string per row; the fields share it
 		start := 0
-		for k, e := range ends {
-			rec[k] = s[start:e]
+		for k, e := range b.ends {
+			b.rec[k] = s[start:e]
 			start = e
 		}
-		if err := cw.Write(rec); err != nil {
+		if err := b.cw.Write(b.rec); err != nil {
 			return err
 		}
 	}
-	cw.Flush()
-	return cw.Error()
+	return nil
+}
+
+func (b *BlockWriter) writeHeader() error {
+	if b.header {
+		return nil
+	}
+	b.header = true
+	return b.cw.Write(b.s.Names())
+}
+
+// Close writes the header when no block came and flushes the file.
+func (b *BlockWriter) Close() error {
+	if err := b.writeHeader(); err != nil {
+		return err
+	}
+	b.cw.Flush()
+	return b.cw.Error()
 }
 
 // ReadFile reads a table file; see Read.

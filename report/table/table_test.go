@@ -264,3 +264,40 @@ func FuzzReadCrests(f *testing.F) {
 		}
 	})
 }
+
+// A table written in blocks (BlockWriter) is the file Write makes of the
+// whole table; with no block at all, the header alone.
+func TestBlockWriterMatchesWrite(t *testing.T) {
+	whole := New(Spectrum, 7)
+	for i := 0; i < 7; i++ {
+		whole.Cols[0][i], whole.Cols[1][i] = 0.01*float64(i+1), math.Pow(10, -float64(i))
+	}
+	var want bytes.Buffer
+	if err := whole.Write(&want); err != nil {
+		t.Fatal(err)
+	}
+	var got bytes.Buffer
+	bw := NewBlockWriter(&got, Spectrum)
+	for _, r := range [][2]int{{0, 3}, {3, 3}, {3, 7}} {
+		b := New(Spectrum, r[1]-r[0])
+		copy(b.Cols[0], whole.Cols[0][r[0]:r[1]])
+		copy(b.Cols[1], whole.Cols[1][r[0]:r[1]])
+		if err := bw.Write(b); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := bw.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if got.String() != want.String() {
+		t.Errorf("blocks wrote\n%s\nthe whole table\n%s", got.String(), want.String())
+	}
+	var empty bytes.Buffer
+	bw = NewBlockWriter(&empty, Spectrum)
+	if err := bw.Close(); err != nil || empty.String() != strings.Join(Spectrum.Names(), ",")+"\n" {
+		t.Errorf("no block: %q, %v", empty.String(), err)
+	}
+	if err := NewBlockWriter(&empty, Spectrum).Write(New(Crests, 0)); err == nil {
+		t.Error("a block of another schema was accepted")
+	}
+}
