@@ -12,7 +12,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"runtime"
+	"runtime/debug"
 	"slices"
 	"sort"
 	"time"
@@ -409,7 +409,7 @@ func readBackCrests(path string, rec *analysis.Record, release bool) (*table.Tab
 		return fill(table.Crests, rec.Rows, crestFields), nil
 	}
 	rec.Rows = nil
-	runtime.GC()
+	debug.FreeOSMemory() // collect the rows and give their pages back
 	t, err := table.ReadFile(path, table.Crests)
 	if err != nil {
 		return nil, fmt.Errorf("the crest table just written cannot be read back: %w", err)

@@ -21,8 +21,11 @@
 // A report is built from a Deployment: the crest table, the summary of
 // the tracking run, the record's frequency spectrum and, when the record
 // had a foam mask, the whitecap tables. The tracking stage hands it over
-// in memory (DeploymentFromRecord); a report rebuilt later reads it back
-// from the files (LoadDeployment). Both give the same numbers: the tables
+// in memory (WriteTrackOutputsForReport, whose crest table is read back
+// from the crests.csv it has just written, so that the rows and the table
+// are not held together; DeploymentFromRecord); a report rebuilt later
+// reads it back from the files (LoadDeployment). All give the same
+// numbers: the tables
 // are rounded to the precision of their files before anything is
 // computed from them, and the files keep that precision exactly.
 //
