@@ -36,7 +36,7 @@ type Options struct {
 	// (default 2).
 	MaxGapFrames int `yaml:"max_gap_frames"`
 	// SpeedWindowS is the full width of the crest-speed fit window in
-	// seconds; 0 = Tp/8, at least two frame intervals (default,
+	// seconds; 0 = Tp/8, at least 2.5 frame intervals (default,
 	// DefaultSpeedWindow).
 	SpeedWindowS float64 `yaml:"speed_window_s"`
 	// BreakingIndex turns on the breaking-inception index: the linear

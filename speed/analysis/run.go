@@ -268,15 +268,16 @@ func (rec *Record) setReferences(opt Options) error {
 }
 
 // DefaultSpeedWindow is the crest-speed window used when none is set:
-// Tp/8, and at least two frame intervals so that it holds a frame either
-// side of the tip. A crest's speed varies along its life (it is slowest
+// Tp/8, and at least two and a half frame intervals, so that it holds a
+// frame either side of the tip even when the frame times jitter about
+// their median step (frameInterval). A crest's speed varies along its life (it is slowest
 // where its group peaks, which is where tips are found), so the fitted slope
 // is biased by the speed's curvature over the window, in proportion to the
 // window's square: on directional seas a Tp/4 window read the crest speed
 // 3 % high against the exact value at the tip, Tp/8 2 %
 // (TestShortCrestedCrestSpeedExact).
 func DefaultSpeedWindow(tp, frameInterval float64) float64 {
-	return max(tp/8, 2*frameInterval)
+	return max(tp/8, 2.5*frameInterval)
 }
 
 // whitecapSpeedWindow is the front-speed window of the whitecaps: the

@@ -12,8 +12,8 @@ import (
 // A sea sampled at few frames per period: a 2 s regular wave in deep water
 // (L = gT²/2π = 6.24 m, c = gT/2π = 3.12 m/s; Dean & Dalrymple 1991) at
 // 6 Hz, twelve frames a period. Tp/8 is shorter than two frame intervals,
-// so the default crest-speed window is two frame intervals, a frame either
-// side of the tip (analysis.DefaultSpeedWindow): nearly every row has a
+// so the default crest-speed window is two and a half frame intervals, a
+// frame either side of the tip (analysis.DefaultSpeedWindow): nearly every row has a
 // speed, and the median crest speed is the linear phase speed within 1 %.
 // (With the Tp/4 window and five samples of before, no row had a speed at
 // this frame rate.) Measured: 3.137 against 3.122 m/s (+0.5 %) over 833 of
@@ -29,8 +29,8 @@ func TestLowFrameRateRegularWave(t *testing.T) {
 	med, n := medianOf(rec.Rows, func(r speed.CrestRow) float64 { return r.CrestSpeed })
 	t.Logf("window %.3f s (Tp %.3f s, frame interval %.3f s); median crest speed %.4f m/s over %d of %d rows, linear %.4f m/s",
 		rec.SpeedWindowS, rec.SeaState.Tp, rec.FrameInterval, med, n, len(rec.Rows), c)
-	if want := 2 * rec.FrameInterval; math.Abs(rec.SpeedWindowS-want) > 1e-9 || want <= rec.SeaState.Tp/8 {
-		t.Errorf("speed window %.4f s; want two frame intervals, %.4f s, above Tp/8 = %.4f s", rec.SpeedWindowS, want, rec.SeaState.Tp/8)
+	if want := 2.5 * rec.FrameInterval; math.Abs(rec.SpeedWindowS-want) > 1e-9 || want <= rec.SeaState.Tp/8 {
+		t.Errorf("speed window %.4f s; want two and a half frame intervals, %.4f s, above Tp/8 = %.4f s", rec.SpeedWindowS, want, rec.SeaState.Tp/8)
 	}
 	if n < 100 || float64(n) < 0.8*float64(len(rec.Rows)) {
 		t.Errorf("%d of %d rows have a speed; want at least 80 %%", n, len(rec.Rows))
