@@ -41,6 +41,9 @@ func (s *fileSet) reserve(dir, name string) (string, error) {
 	return f.Name(), nil
 }
 
+// lastTemp is the temporary path of the file written last.
+func (s *fileSet) lastTemp() string { return s.tmp[len(s.tmp)-1] }
+
 // write fills the temporary file of dir/name (name may lie in a
 // sub-folder of dir).
 func (s *fileSet) write(dir, name string, fill func(*os.File) error) error {

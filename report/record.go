@@ -357,7 +357,7 @@ func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo, release bo
 	if err := fs.write(dir, "crests.csv", func(f *os.File) error { return writeCrests(f, rec.Rows) }); err != nil {
 		return nil, nil, err
 	}
-	crests, err := readBackCrests(fs.tmp[len(fs.tmp)-1], rec, release)
+	crests, err := readBackCrests(fs.lastTemp(), rec, release)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -406,7 +406,11 @@ func writeTrackOutputs(dir string, rec *analysis.Record, run RunInfo, release bo
 func readBackCrests(path string, rec *analysis.Record, release bool) (*table.Table, error) {
 	if !release || len(rec.Rows) == 0 {
 		// (a file with no rows is not a table the reader accepts)
-		return fill(table.Crests, rec.Rows, crestFields), nil
+		t := fill(table.Crests, rec.Rows, crestFields)
+		if release {
+			rec.Rows = nil
+		}
+		return t, nil
 	}
 	rec.Rows = nil
 	debug.FreeOSMemory() // collect the rows and give their pages back
